@@ -1,0 +1,3 @@
+from pathlen.cli import main
+
+main()

@@ -1,0 +1,117 @@
+"""Files -> measured results, one file at a time or on a process pool."""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Iterable, Iterator
+from concurrent.futures import ProcessPoolExecutor, as_completed
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from pathlen.contours import DEFAULT_JOIN_TOL_MM, count_contours
+from pathlen.errors import InputError, UsageError
+from pathlen.importers import SUFFIXES, ImportOptions, read_drawing
+from pathlen.measure import DEFAULT_RTOL, measure
+
+
+@dataclass(frozen=True)
+class MeasureSettings:
+    """Everything that decides a file's measurement."""
+
+    rtol: float = DEFAULT_RTOL
+    join_tol_mm: float = DEFAULT_JOIN_TOL_MM
+    import_options: ImportOptions = field(default_factory=ImportOptions)
+
+
+@dataclass
+class LayerTotal:
+    length_mm: float
+    bound_mm: float
+    count: int
+
+
+@dataclass
+class FileResult:
+    """One file's measurement (millimetres) or its one-line error."""
+
+    path: str
+    ok: bool
+    error: str | None = None
+    length_mm: float = 0.0
+    bound_mm: float = 0.0
+    layers: dict[str, LayerTotal] = field(default_factory=dict)
+    closed: int = 0
+    open: int = 0
+    warnings: list[str] = field(default_factory=list)
+
+
+def find_drawings(paths: Iterable[str]) -> list[str]:
+    """Expand folders (recursively) into their .dxf/.svg files; keep files as given.
+
+    Paths that do not exist are kept, so that they are reported as failed files.
+    """
+    out: list[str] = []
+    for p in paths:
+        path = Path(p)
+        if path.is_dir():
+            found = sorted(str(f) for f in path.rglob("*") if f.suffix.lower() in SUFFIXES and f.is_file())
+            out.extend(found)
+        else:
+            out.append(p)
+    if not out:
+        raise UsageError("no .dxf or .svg files found in the given paths")
+    return out
+
+
+def measure_file(path: str, settings: MeasureSettings = MeasureSettings()) -> FileResult:
+    """Measure one file; never raises for bad input (the error goes in the result)."""
+    try:
+        drawing = read_drawing(Path(path), settings.import_options)
+        result = measure(drawing, settings.rtol)
+        contours = count_contours(drawing, settings.join_tol_mm)
+    except InputError as exc:
+        return FileResult(path, ok=False, error=str(exc))
+    except MemoryError:
+        return FileResult(path, ok=False, error="out of memory while reading this file")
+    except RecursionError:
+        return FileResult(path, ok=False, error="structure nested too deeply")
+    except Exception as exc:  # noqa: BLE001 - one bad file must not stop the batch
+        text = str(exc).strip().splitlines()
+        return FileResult(path, ok=False, error=f"unexpected {type(exc).__name__}: {text[0] if text else ''}")
+    layers: dict[str, LayerTotal] = {}
+    for i, ent in enumerate(drawing.entities):
+        t = layers.setdefault(ent.layer, LayerTotal(0.0, 0.0, 0))
+        t.length_mm += float(result.entity_length[i])
+        t.bound_mm += float(result.entity_bound[i])
+        t.count += 1
+    warnings = list(drawing.warnings)
+    if result.unconverged:
+        warnings.append(f"{result.unconverged} integration intervals did not reach the tolerance; "
+                        "their error is included in the bound")
+    return FileResult(
+        path, ok=True, length_mm=float(np.sum(result.entity_length)),
+        bound_mm=float(np.sum(result.entity_bound)), layers=dict(sorted(layers.items())),
+        closed=contours.closed, open=contours.open, warnings=warnings,
+    )
+
+
+def run_batch(paths: list[str], settings: MeasureSettings, jobs: int = 1) -> Iterator[tuple[int, FileResult]]:
+    """Yield ``(index, result)`` for every path as results finish.
+
+    ``jobs > 1`` measures on a process pool; ``jobs = 0`` uses every core.
+    """
+    workers = (os.cpu_count() or 1) if jobs == 0 else jobs
+    if workers <= 1 or len(paths) == 1:
+        for i, p in enumerate(paths):
+            yield i, measure_file(p, settings)
+        return
+    with ProcessPoolExecutor(max_workers=min(workers, len(paths))) as pool:
+        futures = {pool.submit(measure_file, p, settings): i for i, p in enumerate(paths)}
+        for fut in as_completed(futures):
+            i = futures[fut]
+            try:
+                yield i, fut.result()
+            except Exception as exc:  # noqa: BLE001 - a dead worker fails its file only
+                yield i, FileResult(paths[i], ok=False, error=f"worker failed: {type(exc).__name__}")

@@ -1,0 +1,120 @@
+"""Command line: ``pathlen measure PATH...``."""
+
+from __future__ import annotations
+
+import io
+import os
+import sys
+import tempfile
+from pathlib import Path
+
+import click
+from rich.console import Console
+from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+
+from pathlen.batch import FileResult, MeasureSettings, find_drawings, run_batch
+from pathlen.errors import PathlenError
+from pathlen.export import OUTPUT_UNITS
+from pathlen.export import csv as csv_out
+from pathlen.export import json as json_out
+from pathlen.export import table as table_out
+from pathlen.geometry import MM_PER_UNIT
+from pathlen.importers import ImportOptions
+from pathlen.measure import DEFAULT_RTOL
+
+DRAWING_UNITS = tuple(sorted(k for k in MM_PER_UNIT if k not in ("px", "pt", "pc", "q")))
+
+
+@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+@click.version_option(package_name="pathlen")
+def main() -> None:
+    """pathlen: exact path lengths from DXF and SVG drawings."""
+
+
+@main.command()
+@click.argument("paths", nargs=-1, required=True)
+@click.option("--format", "fmt", type=click.Choice(["table", "json", "csv"]), default="table",
+              show_default=True, help="Output format.")
+@click.option("--output", "-o", type=click.Path(dir_okay=False, writable=True), default=None,
+              help="Write the report to this file instead of standard output.")
+@click.option("--units", type=click.Choice(OUTPUT_UNITS), default="mm", show_default=True,
+              help="Units of every reported length.")
+@click.option("--rtol", type=float, default=DEFAULT_RTOL, show_default=True,
+              help="Relative error target per segment.")
+@click.option("--drawing-units", type=click.Choice(DRAWING_UNITS), default=None,
+              help="Units of DXF drawing coordinates, overriding $INSUNITS (unitless files are "
+                   "otherwise taken as mm).")
+@click.option("--svg-dpi", type=float, default=None,
+              help="SVG user units per inch for files that state no physical size (default 96, "
+                   "the CSS px; some drawing programs wrote 72 or 90).")
+@click.option("--join-tol", type=float, default=0.01, show_default=True,
+              help="Distance in mm within which segment ends join into one contour.")
+@click.option("--jobs", "-j", type=click.IntRange(min=0), default=1, show_default=True,
+              help="Worker processes (0: one per core).")
+def measure(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rtol: float,
+            drawing_units: str | None, svg_dpi: float | None, join_tol: float, jobs: int) -> None:
+    """Measure every path in the drawings PATHS (files, or folders searched for .dxf/.svg)."""
+    if not 0 < rtol < 1:
+        raise click.BadParameter("must lie between 0 and 1", param_hint="--rtol")
+    if svg_dpi is not None and not svg_dpi > 0:
+        raise click.BadParameter("must be positive", param_hint="--svg-dpi")
+    if not join_tol >= 0:
+        raise click.BadParameter("must not be negative", param_hint="--join-tol")
+    try:
+        files = find_drawings(paths)
+    except PathlenError as exc:
+        raise click.UsageError(str(exc)) from None
+    settings = MeasureSettings(rtol=rtol, join_tol_mm=join_tol,
+                               import_options=ImportOptions(drawing_units, svg_dpi))
+    results = _collect(files, settings, jobs)
+    err = Console(stderr=True, highlight=False)
+    for r in results:
+        if not r.ok:
+            err.print(f"[red]error[/red] {r.path}: {r.error}")
+    if fmt == "table":
+        if output:
+            buf = io.StringIO()
+            table_out.render(results, units, Console(file=buf, width=120, color_system=None))
+            _write_atomic(output, buf.getvalue())
+        else:
+            table_out.render(results, units, Console())
+    else:
+        text = json_out.render(results, units) if fmt == "json" else csv_out.render(results, units)
+        if output:
+            _write_atomic(output, text)
+        else:
+            click.echo(text, nl=False)
+            if fmt == "csv" or fmt == "json":
+                for r in results:
+                    for w in r.warnings:
+                        err.print(f"warning {r.path}: {w}")
+    sys.exit(1 if any(not r.ok for r in results) else 0)
+
+
+def _collect(files: list[str], settings: MeasureSettings, jobs: int) -> list[FileResult]:
+    """Run the batch, with a progress bar when standard error is a terminal."""
+    results: list[FileResult | None] = [None] * len(files)
+    console = Console(stderr=True)
+    if console.is_terminal and len(files) > 1:
+        columns = (TextColumn("measuring"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn())
+        with Progress(*columns, console=console, transient=True) as bar:
+            task = bar.add_task("measure", total=len(files))
+            for i, r in run_batch(files, settings, jobs):
+                results[i] = r
+                bar.advance(task)
+    else:
+        for i, r in run_batch(files, settings, jobs):
+            results[i] = r
+    return [r for r in results if r is not None]
+
+
+def _write_atomic(path: str, text: str) -> None:
+    """Write ``text`` to ``path`` through a temporary file, so a crash leaves the old file."""
+    target = Path(path)
+    try:
+        fd, tmp = tempfile.mkstemp(dir=target.parent or Path("."), prefix=f".{target.name}.", suffix=".tmp")
+        with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
+            fh.write(text)
+        os.replace(tmp, target)
+    except OSError as exc:
+        raise click.FileError(path, hint=exc.strerror or str(exc)) from None

@@ -1,0 +1,13 @@
+"""Exporters: measured results -> table, JSON or CSV text, in the chosen units."""
+
+from __future__ import annotations
+
+from pathlen.geometry import MM_PER_UNIT
+
+#: Output units a person can choose.
+OUTPUT_UNITS = ("mm", "in")
+
+
+def from_mm(value: float, units: str) -> float:
+    """Convert millimetres to ``units`` (exact factors, see ``MM_PER_UNIT``)."""
+    return value / MM_PER_UNIT[units]

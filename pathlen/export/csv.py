@@ -1,0 +1,19 @@
+"""CSV output: one row per file and layer (failed files have no rows; see stderr)."""
+
+from __future__ import annotations
+
+import csv
+import io
+
+from pathlen.batch import FileResult
+from pathlen.export import from_mm
+
+
+def render(results: list[FileResult], units: str) -> str:
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(["path", "layer", f"length_{units}", f"error_bound_{units}", "count"])
+    for r in results:
+        for name, t in r.layers.items():
+            w.writerow([r.path, name, repr(from_mm(t.length_mm, units)), repr(from_mm(t.bound_mm, units)), t.count])
+    return buf.getvalue()

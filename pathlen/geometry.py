@@ -1,0 +1,311 @@
+"""Segment model: batches of lines, elliptic arcs and Bézier pieces in millimetres.
+
+Conventions
+-----------
+* Every coordinate is in millimetres, 3-D (z = 0 for flat drawings).
+* One batch per segment kind, structure of arrays; row ``i`` of every array
+  describes segment ``i`` and ``entity[i]`` indexes the drawing's entity table.
+* Affine maps are 4x4 matrices in column-vector convention: ``p' = M @ [p, 1]``.
+"""
+
+from __future__ import annotations
+
+import itertools
+from collections import Counter
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field
+
+import numpy as np
+from numpy.typing import NDArray
+
+FloatArray = NDArray[np.float64]
+IntArray = NDArray[np.int64]
+
+#: Exact length of one unit in millimetres.  Inch-based factors are exact by
+#: the international yard and pound agreement (1 in = 25.4 mm); 1 px = 1/96 in
+#: (CSS Values and Units); 1 pt = 1/72 in; 1 pc = 12 pt.
+MM_PER_UNIT: dict[str, float] = {
+    "mm": 1.0,
+    "cm": 10.0,
+    "dm": 100.0,
+    "m": 1000.0,
+    "km": 1.0e6,
+    "um": 1.0e-3,
+    "nm": 1.0e-6,
+    "in": 25.4,
+    "ft": 304.8,
+    "yd": 914.4,
+    "mi": 1_609_344.0,
+    "mil": 0.0254,
+    "uin": 2.54e-5,
+    "px": 25.4 / 96.0,
+    "pt": 25.4 / 72.0,
+    "pc": 25.4 / 6.0,
+    "q": 0.25,
+}
+
+
+def identity() -> FloatArray:
+    """Return the 4x4 identity affine map."""
+    return np.eye(4)
+
+
+def affine(linear: NDArray[np.float64] | list[list[float]], offset: tuple[float, ...] = (0.0, 0.0, 0.0)) -> FloatArray:
+    """Build a 4x4 affine map from a 2x2 or 3x3 linear part and an offset."""
+    lin = np.asarray(linear, dtype=float)
+    m = np.eye(4)
+    k = lin.shape[0]
+    m[:k, :k] = lin
+    off = np.zeros(3)
+    off[: len(offset)] = offset
+    m[:3, 3] = off
+    return m
+
+
+def apply_points(m: FloatArray, p: FloatArray) -> FloatArray:
+    """Apply affine map ``m`` to points ``p[..., 3]``."""
+    return p @ m[:3, :3].T + m[:3, 3]
+
+
+def apply_vectors(m: FloatArray, v: FloatArray) -> FloatArray:
+    """Apply the linear part of ``m`` to direction vectors ``v[..., 3]``."""
+    return v @ m[:3, :3].T
+
+
+@dataclass(frozen=True)
+class Lines:
+    """Straight segments ``p0 -> p1``."""
+
+    p0: FloatArray
+    p1: FloatArray
+    entity: IntArray
+
+    def __len__(self) -> int:
+        return len(self.entity)
+
+    def transformed(self, m: FloatArray) -> Lines:
+        return Lines(apply_points(m, self.p0), apply_points(m, self.p1), self.entity)
+
+
+@dataclass(frozen=True)
+class EllipticArcs:
+    """Arcs ``c + u cos t + v sin t`` for ``t`` from ``t0`` to ``t1`` (radians).
+
+    ``u`` and ``v`` are conjugate semi-diameters; a circle has ``|u| = |v|`` and
+    ``u ⟂ v``.  The form is closed under affine maps.  ``t1 >= t0`` always;
+    the direction of travel is carried by ``u``/``v``.
+    """
+
+    center: FloatArray
+    u: FloatArray
+    v: FloatArray
+    t0: FloatArray
+    t1: FloatArray
+    entity: IntArray
+
+    def __len__(self) -> int:
+        return len(self.entity)
+
+    def transformed(self, m: FloatArray) -> EllipticArcs:
+        return EllipticArcs(
+            apply_points(m, self.center), apply_vectors(m, self.u), apply_vectors(m, self.v),
+            self.t0, self.t1, self.entity,
+        )
+
+    def points(self, t: FloatArray) -> FloatArray:
+        """Points at parameters ``t[n]`` (one per arc)."""
+        return self.center + self.u * np.cos(t)[:, None] + self.v * np.sin(t)[:, None]
+
+
+@dataclass(frozen=True)
+class Beziers:
+    """(Rational) Bézier pieces of one degree on ``t`` in [0, 1].
+
+    ``ctrl[n, d+1, 3]`` are control points, ``weights[n, d+1]`` their weights
+    (all 1 for polynomial pieces).
+    """
+
+    ctrl: FloatArray
+    weights: FloatArray
+    entity: IntArray
+
+    @property
+    def degree(self) -> int:
+        return self.ctrl.shape[1] - 1
+
+    def __len__(self) -> int:
+        return len(self.entity)
+
+    def transformed(self, m: FloatArray) -> Beziers:
+        return Beziers(apply_points(m, self.ctrl), self.weights, self.entity)
+
+    def rational_rows(self) -> NDArray[np.bool_]:
+        """Rows whose weights are not all equal (truly rational)."""
+        w = self.weights
+        return np.any(w != w[:, :1], axis=1)
+
+
+@dataclass
+class Entity:
+    """One source entity: where a segment came from."""
+
+    layer: str
+    handle: str
+    kind: str
+
+
+@dataclass
+class Drawing:
+    """Everything an importer found in one file, in millimetres."""
+
+    lines: Lines
+    arcs: EllipticArcs
+    beziers: dict[int, Beziers]
+    entities: list[Entity]
+    warnings: list[str] = field(default_factory=list)
+    #: entity kinds found but not measured (TEXT, HATCH ...), with counts
+    skipped: Counter[str] = field(default_factory=Counter)
+
+    def segment_count(self) -> int:
+        return len(self.lines) + len(self.arcs) + sum(len(b) for b in self.beziers.values())
+
+    def transformed(self, m: FloatArray) -> Drawing:
+        """The same drawing under the affine map ``m`` (used for unit scaling)."""
+        return Drawing(
+            self.lines.transformed(m), self.arcs.transformed(m),
+            {d: b.transformed(m) for d, b in self.beziers.items()},
+            self.entities, list(self.warnings), Counter(self.skipped),
+        )
+
+
+class SegmentCollector:
+    """Accumulates segments from an importer and freezes them into a :class:`Drawing`.
+
+    Importers call the ``add_*`` methods with model coordinates in millimetres
+    (plain tuples are fine: arrays are built once, at :meth:`drawing`);
+    ``entity`` is the index returned by :meth:`entity`.  Whole sub-drawings
+    (block contents, SVG ``use`` targets) are appended with :meth:`add_drawing`,
+    transformed as arrays in one step.
+    """
+
+    def __init__(self) -> None:
+        self.entities: list[Entity] = []
+        self.warnings: list[str] = []
+        self.skipped: Counter[str] = Counter()
+        self._lines: list[tuple] = []
+        self._arcs: list[tuple] = []
+        self._beziers: dict[int, list[tuple]] = {}
+        self._chunks: list[Drawing] = []
+
+    def entity(self, layer: str, handle: str, kind: str) -> int:
+        self.entities.append(Entity(layer, handle, kind))
+        return len(self.entities) - 1
+
+    def add_line(self, p0: Sequence[float], p1: Sequence[float], entity: int) -> None:
+        self._lines.append((p0, p1, entity))
+
+    def add_polyline(self, points: Sequence[Sequence[float]], entity: int) -> None:
+        """Add straight segments between consecutive points."""
+        for a, b in itertools.pairwise(points):
+            self._lines.append((a, b, entity))
+
+    def add_arc(self, center: Sequence[float], u: Sequence[float], v: Sequence[float],
+                t0: float, t1: float, entity: int) -> None:
+        """Add ``c + u cos t + v sin t`` for ``t0 <= t <= t1`` (radians)."""
+        if not t1 >= t0:
+            raise ValueError("arc parameter range must increase")
+        self._arcs.append((center, u, v, t0, t1, entity))
+
+    def add_bezier(self, ctrl: Sequence[Sequence[float]], weights: Sequence[float] | None, entity: int) -> None:
+        """Add a (rational) Bézier piece; degree 1 becomes a line."""
+        d = len(ctrl) - 1
+        if d == 1 and (weights is None or weights[0] == weights[1]):
+            self._lines.append((ctrl[0], ctrl[1], entity))
+            return
+        w = (1.0,) * (d + 1) if weights is None else tuple(weights)
+        self._beziers.setdefault(d, []).append((ctrl, w, entity))
+
+    def add_drawing(self, sub: Drawing, m: FloatArray, layer_of: Callable[[str], str], handle_prefix: str) -> None:
+        """Append ``sub`` under affine map ``m``, re-homing its entities.
+
+        Each entity of ``sub`` gets a new row here with layer ``layer_of(layer)``
+        and handle ``handle_prefix + handle``.
+        """
+        base = len(self.entities)
+        self.entities.extend(
+            Entity(layer_of(e.layer), handle_prefix + e.handle, e.kind) for e in sub.entities
+        )
+        moved = sub.transformed(m)
+        self._chunks.append(_offset_entities(moved, base))
+        self.warn(*sub.warnings)
+        self.skipped.update(sub.skipped)
+
+    def warn(self, *messages: str) -> None:
+        """Record warnings once each, in order."""
+        for msg in messages:
+            if msg not in self.warnings:
+                self.warnings.append(msg)
+
+    def drawing(self) -> Drawing:
+        own = Drawing(
+            lines=_lines_from(self._lines),
+            arcs=_arcs_from(self._arcs),
+            beziers={d: _beziers_from(rows, d) for d, rows in self._beziers.items()},
+            entities=[],
+        )
+        parts = [own, *self._chunks]
+        degrees = sorted({d for p in parts for d in p.beziers})
+        return Drawing(
+            lines=Lines(*(_cat([getattr(p.lines, f) for p in parts]) for f in ("p0", "p1", "entity"))),
+            arcs=EllipticArcs(*(_cat([getattr(p.arcs, f) for p in parts])
+                                for f in ("center", "u", "v", "t0", "t1", "entity"))),
+            beziers={
+                d: Beziers(*(_cat([getattr(p.beziers[d], f) for p in parts if d in p.beziers])
+                             for f in ("ctrl", "weights", "entity")))
+                for d in degrees
+            },
+            entities=self.entities,
+            warnings=self.warnings,
+            skipped=self.skipped,
+        )
+
+
+def _cat(arrays: list[NDArray]) -> NDArray:
+    return arrays[0] if len(arrays) == 1 else np.concatenate(arrays)
+
+
+def _offset_entities(d: Drawing, base: int) -> Drawing:
+    return Drawing(
+        Lines(d.lines.p0, d.lines.p1, d.lines.entity + base),
+        EllipticArcs(d.arcs.center, d.arcs.u, d.arcs.v, d.arcs.t0, d.arcs.t1, d.arcs.entity + base),
+        {k: Beziers(b.ctrl, b.weights, b.entity + base) for k, b in d.beziers.items()},
+        [],
+    )
+
+
+def _ent(rows: list, k: int) -> IntArray:
+    return np.fromiter((r[k] for r in rows), dtype=np.int64, count=len(rows))
+
+
+def _vecs(rows: list, k: int) -> FloatArray:
+    return np.array([r[k] for r in rows], dtype=float).reshape(len(rows), 3)
+
+
+def _lines_from(rows: list) -> Lines:
+    return Lines(_vecs(rows, 0), _vecs(rows, 1), _ent(rows, 2))
+
+
+def _arcs_from(rows: list) -> EllipticArcs:
+    t = np.array([(r[3], r[4]) for r in rows], dtype=float).reshape(len(rows), 2)
+    return EllipticArcs(_vecs(rows, 0), _vecs(rows, 1), _vecs(rows, 2), t[:, 0], t[:, 1], _ent(rows, 5))
+
+
+def _beziers_from(rows: list, d: int) -> Beziers:
+    ctrl = np.array([r[0] for r in rows], dtype=float).reshape(len(rows), d + 1, 3)
+    w = np.array([r[1] for r in rows], dtype=float).reshape(len(rows), d + 1)
+    return Beziers(ctrl, w, _ent(rows, 2))
+
+
+def empty_drawing() -> Drawing:
+    """A drawing with no segments."""
+    return SegmentCollector().drawing()

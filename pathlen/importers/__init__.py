@@ -1,0 +1,60 @@
+"""Importers: drawing files -> :class:`~pathlen.geometry.Drawing` (millimetres)."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from pathlen.errors import InputError
+from pathlen.geometry import Drawing
+
+#: Coordinates beyond this many millimetres (1,000 km) are taken as a broken file.
+MAX_COORDINATE_MM = 1.0e9
+
+SUFFIXES = (".dxf", ".svg")
+
+
+@dataclass(frozen=True)
+class ImportOptions:
+    """Options every importer understands."""
+
+    drawing_units: str | None = None  # DXF: overrides $INSUNITS
+    svg_dpi: float | None = None  # SVG: user units per inch when the file gives no size
+
+
+def read_drawing(path: Path, options: ImportOptions = ImportOptions()) -> Drawing:
+    """Read any supported file and check its geometry; raises :class:`InputError`."""
+    suffix = path.suffix.lower()
+    if suffix == ".dxf":
+        from pathlen.importers.dxf import read_dxf
+
+        drawing = read_dxf(path, options.drawing_units)
+    elif suffix == ".svg":
+        from pathlen.importers.svg import read_svg
+
+        drawing = read_svg(path, options.svg_dpi)
+    else:
+        raise InputError(f"unsupported file type {suffix or '(none)'!r}: expected .dxf or .svg")
+    check_geometry(drawing)
+    for kind, count in sorted(drawing.skipped.items()):
+        drawing.warnings.append(f"{count} {kind} entit{'y' if count == 1 else 'ies'} not measured")
+    return drawing
+
+
+def check_geometry(drawing: Drawing) -> None:
+    """Reject non-finite or absurdly large coordinates, naming the first bad entity."""
+    arrays = [
+        (drawing.lines.entity, (drawing.lines.p0, drawing.lines.p1)),
+        (drawing.arcs.entity, (drawing.arcs.center, drawing.arcs.u, drawing.arcs.v,
+                               drawing.arcs.t0[:, None], drawing.arcs.t1[:, None])),
+        *((b.entity, (b.ctrl.reshape(len(b), -1), b.weights)) for b in drawing.beziers.values()),
+    ]
+    for entity, parts in arrays:
+        for a in parts:
+            bad = ~np.all(np.isfinite(a) & (np.abs(a) <= MAX_COORDINATE_MM), axis=1)
+            if np.any(bad):
+                e = drawing.entities[int(entity[np.argmax(bad)])]
+                what = "non-finite" if not np.all(np.isfinite(a[bad])) else "absurdly large (over 1000 km)"
+                raise InputError(f"{e.kind} #{e.handle} on layer {e.layer!r} has {what} coordinates")

@@ -1,0 +1,261 @@
+"""DXF importer: model space -> :class:`~pathlen.geometry.Drawing` in millimetres.
+
+One small handler per entity type (``HANDLERS``).  Blocks are imported once
+each into their own coordinates and placed by every INSERT as whole arrays.
+Entities on layer "0" inside a block take the layer of the INSERT placing it.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable
+from pathlib import Path
+
+import ezdxf
+import numpy as np
+from ezdxf import recover
+from ezdxf.entities import DXFGraphic, Insert
+from ezdxf.lldxf.const import DXFError
+
+from pathlen.errors import InputError
+from pathlen.geometry import MM_PER_UNIT, Drawing, SegmentCollector, affine
+from pathlen.importers.nurbs import SplineError, bezier_pieces
+
+#: ``$INSUNITS`` codes (DXF reference, header variables) -> unit names of
+#: :data:`~pathlen.geometry.MM_PER_UNIT`; codes absent here cannot be used.
+INSUNITS: dict[int, str] = {
+    1: "in", 2: "ft", 3: "mi", 4: "mm", 5: "cm", 6: "m", 7: "km", 8: "uin", 9: "mil",
+    10: "yd", 13: "um", 14: "dm",
+}
+TWO_PI = 2.0 * math.pi
+
+
+def read_dxf(path: Path, drawing_units: str | None = None) -> Drawing:
+    """Read a DXF file's model space.
+
+    ``drawing_units`` (a key of ``MM_PER_UNIT``) overrides ``$INSUNITS``;
+    without either the drawing is taken as millimetres, with a warning.
+    """
+    doc, notes = _load(path)
+    importer = _DxfImporter(doc)
+    coll = SegmentCollector()
+    coll.warn(*notes)
+    for entity in doc.modelspace():
+        importer.add(entity, coll)
+    drawing = coll.drawing()
+    unit = drawing_units or _header_unit(doc, drawing)
+    scale = MM_PER_UNIT[unit]
+    return drawing if scale == 1.0 else drawing.transformed(affine(np.eye(3) * scale))
+
+
+def _load(path: Path) -> tuple[ezdxf.document.Drawing, list[str]]:
+    try:
+        return ezdxf.readfile(path), []
+    except OSError as exc:
+        raise InputError(f"cannot read file: {exc.strerror or exc}") from None
+    except (DXFError, UnicodeError, ValueError, TypeError, IndexError, KeyError):
+        pass
+    try:
+        doc, auditor = recover.readfile(path)
+    except (DXFError, UnicodeError, ValueError, TypeError, IndexError, KeyError) as exc:
+        raise InputError(f"not a readable DXF file ({_first_line(exc)})") from None
+    fixes = len(auditor.fixes) + len(auditor.errors)
+    return doc, [f"damaged DXF structure recovered ({fixes} repairs); check the result"]
+
+
+def _first_line(exc: BaseException) -> str:
+    text = str(exc).strip().splitlines()
+    return text[0] if text else type(exc).__name__
+
+
+def _header_unit(doc: ezdxf.document.Drawing, drawing: Drawing) -> str:
+    code = int(doc.header.get("$INSUNITS", 0) or 0)
+    if code in INSUNITS:
+        return INSUNITS[code]
+    if code == 0:
+        drawing.warnings.append("drawing has no units ($INSUNITS = 0): taken as mm; set --drawing-units")
+    else:
+        drawing.warnings.append(f"$INSUNITS = {code} is not a length unit pathlen converts: taken as mm")
+    return "mm"
+
+
+class _DxfImporter:
+    """Walks entities, caching each block's geometry by name."""
+
+    def __init__(self, doc: ezdxf.document.Drawing) -> None:
+        self.doc = doc
+        self.blocks: dict[str, Drawing] = {}
+        self.open_blocks: set[str] = set()
+
+    def add(self, entity: DXFGraphic, coll: SegmentCollector) -> None:
+        kind = entity.dxftype()
+        handler = HANDLERS.get(kind)
+        if kind == "INSERT":
+            self.add_insert(entity, coll)  # type: ignore[arg-type]
+        elif handler is None:
+            coll.skipped[kind] += 1
+        else:
+            try:
+                handler(entity, coll)
+            except (SplineError, ValueError, ZeroDivisionError) as exc:
+                coll.warn(f"{kind} #{entity.dxf.handle} skipped: {_first_line(exc)}")
+
+    def add_insert(self, insert: Insert, coll: SegmentCollector) -> None:
+        name = insert.dxf.name
+        block = self.block(name, coll)
+        if block is None:
+            return
+        layer = insert.dxf.layer
+        prefix = f"{insert.dxf.handle}/"
+        placements = list(insert.multi_insert()) if insert.mcount > 1 else [insert]
+        for placed in placements:
+            rows = np.array(list(placed.matrix44().rows()), dtype=float)
+            coll.add_drawing(block, rows.T, lambda lay: layer if lay == "0" else lay, prefix)
+
+    def block(self, name: str, coll: SegmentCollector) -> Drawing | None:
+        if name in self.blocks:
+            return self.blocks[name]
+        if name in self.open_blocks:
+            coll.warn(f"block {name!r} refers to itself: inner reference skipped")
+            return None
+        layout = self.doc.blocks.get(name)
+        if layout is None:
+            coll.warn(f"block {name!r} is not defined: INSERT skipped")
+            return None
+        self.open_blocks.add(name)
+        sub = SegmentCollector()
+        for entity in layout:
+            self.add(entity, sub)
+        self.open_blocks.discard(name)
+        self.blocks[name] = sub.drawing()
+        return self.blocks[name]
+
+
+def _entity(e: DXFGraphic, coll: SegmentCollector) -> int:
+    return coll.entity(e.dxf.layer, e.dxf.handle or "", e.dxftype())
+
+
+def _line(e: DXFGraphic, coll: SegmentCollector) -> None:
+    coll.add_line(e.dxf.start.xyz, e.dxf.end.xyz, _entity(e, coll))
+
+
+def _circle_arc(e: DXFGraphic, coll: SegmentCollector, t0: float, t1: float) -> None:
+    r = float(e.dxf.radius)
+    if not r > 0:
+        raise ValueError(f"radius {r} is not positive")
+    ocs = e.ocs()
+    center = ocs.to_wcs(e.dxf.center).xyz
+    u = (ocs.to_wcs((r, 0, 0))).xyz
+    v = (ocs.to_wcs((0, r, 0))).xyz
+    coll.add_arc(center, u, v, t0, t1, _entity(e, coll))
+
+
+def _circle(e: DXFGraphic, coll: SegmentCollector) -> None:
+    _circle_arc(e, coll, 0.0, TWO_PI)
+
+
+def _arc(e: DXFGraphic, coll: SegmentCollector) -> None:
+    t0 = math.radians(e.dxf.start_angle) % TWO_PI
+    t1 = math.radians(e.dxf.end_angle) % TWO_PI
+    if t1 <= t0:
+        t1 += TWO_PI
+    _circle_arc(e, coll, t0, t1)
+
+
+def _ellipse(e: DXFGraphic, coll: SegmentCollector) -> None:
+    t0 = float(e.dxf.start_param)
+    t1 = float(e.dxf.end_param)
+    if abs((t1 - t0) - TWO_PI) > 1e-12:  # not a whole turn: normalise like an arc
+        t0 %= TWO_PI
+        t1 %= TWO_PI
+        if t1 <= t0:
+            t1 += TWO_PI
+    coll.add_arc(e.dxf.center.xyz, e.dxf.major_axis.xyz, e.minor_axis.xyz, t0, t1, _entity(e, coll))
+
+
+def _bulged_path(points: list[tuple[float, float, float]], bulges: list[float], closed: bool,
+                 ocs, coll: SegmentCollector, ent: int) -> None:
+    """Lines and bulge arcs between OCS vertices ``points`` (x, y, elevation)."""
+    count = len(points)
+    last = count if closed else count - 1
+    wcs = [ocs.to_wcs(p).xyz for p in points]
+    for i in range(last):
+        j = (i + 1) % count
+        b = bulges[i]
+        (x0, y0, z), (x1, y1, _) = points[i], points[j]
+        dx, dy = x1 - x0, y1 - y0
+        if dx == 0.0 and dy == 0.0:
+            continue  # repeated vertex: nothing to measure
+        if b == 0.0:
+            coll.add_line(wcs[i], wcs[j], ent)
+            continue
+        # bulge b = tan(theta/4); centre = midpoint + left normal·(1 - b²)/(4b)
+        k = (1.0 - b * b) / (4.0 * b)
+        cx, cy = 0.5 * (x0 + x1) - dy * k, 0.5 * (y0 + y1) + dx * k
+        ux, uy = x0 - cx, y0 - cy
+        vx, vy = (-uy, ux) if b > 0 else (uy, -ux)
+        theta = 4.0 * math.atan(abs(b))
+        coll.add_arc(ocs.to_wcs((cx, cy, z)).xyz, ocs.to_wcs((ux, uy, 0.0)).xyz,
+                     ocs.to_wcs((vx, vy, 0.0)).xyz, 0.0, theta, ent)
+
+
+def _lwpolyline(e: DXFGraphic, coll: SegmentCollector) -> None:
+    pts = e.get_points("xyb")
+    if len(pts) < 2:
+        return
+    z = float(e.dxf.elevation)
+    _bulged_path([(p[0], p[1], z) for p in pts], [float(p[2]) for p in pts], bool(e.closed),
+                 e.ocs(), coll, _entity(e, coll))
+
+
+def _polyline(e: DXFGraphic, coll: SegmentCollector) -> None:
+    if e.is_polygon_mesh or e.is_poly_face_mesh:
+        coll.skipped["POLYLINE mesh"] += 1
+        return
+    verts = [v for v in e.vertices if not v.dxf.flags & 16]  # 16: spline frame control point
+    if len(verts) < 2:
+        return
+    ent = _entity(e, coll)
+    if e.is_3d_polyline:
+        pts = [v.dxf.location.xyz for v in verts]
+        if e.is_closed:
+            pts.append(pts[0])
+        coll.add_polyline(pts, ent)
+        return
+    z = float(e.dxf.elevation.z)
+    pts = [(v.dxf.location.x, v.dxf.location.y, z) for v in verts]
+    _bulged_path(pts, [float(v.dxf.bulge) for v in verts], bool(e.is_closed), e.ocs(), coll, ent)
+
+
+def _spline(e: DXFGraphic, coll: SegmentCollector) -> None:
+    if e.control_point_count():
+        ctrl = np.array(e.control_points, dtype=float)
+        knots = np.array(e.knots, dtype=float)
+        weights = np.array(e.weights, dtype=float) if len(e.weights) else None
+        degree = int(e.dxf.degree)
+    elif e.fit_point_count():
+        tool = e.construction_tool()
+        ctrl = np.array(tool.control_points, dtype=float)
+        knots = np.array(tool.knots(), dtype=float)
+        weights = np.array(tool.weights(), dtype=float) if tool.is_rational else None
+        degree = tool.degree
+        coll.warn("SPLINE given by fit points only: curve reconstructed by ezdxf's fit-point "
+                  "interpolation, which may differ from the drawing program's")
+    else:
+        raise ValueError("no control or fit points")
+    ent = _entity(e, coll)
+    pieces, piece_w = bezier_pieces(ctrl, knots, degree, weights)
+    rational = weights is not None and np.ptp(weights) > 0
+    for c, w in zip(pieces, piece_w, strict=False):
+        coll.add_bezier(c, w if rational else None, ent)
+
+
+HANDLERS: dict[str, Callable[[DXFGraphic, SegmentCollector], None]] = {
+    "LINE": _line,
+    "CIRCLE": _circle,
+    "ARC": _arc,
+    "ELLIPSE": _ellipse,
+    "LWPOLYLINE": _lwpolyline,
+    "POLYLINE": _polyline,
+    "SPLINE": _spline,
+}
