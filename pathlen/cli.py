@@ -67,7 +67,7 @@ def measure(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rt
     settings = MeasureSettings(rtol=rtol, join_tol_mm=join_tol,
                                import_options=ImportOptions(drawing_units, svg_dpi))
     results = _collect(files, settings, jobs)
-    err = Console(stderr=True, highlight=False)
+    err = Console(stderr=True, highlight=False, soft_wrap=True)
     for r in results:
         if not r.ok:
             err.print(f"[red]error[/red] {r.path}: {r.error}")
@@ -77,7 +77,7 @@ def measure(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rt
             table_out.render(results, units, Console(file=buf, width=120, color_system=None))
             _write_atomic(output, buf.getvalue())
         else:
-            table_out.render(results, units, Console())
+            table_out.render(results, units, Console(soft_wrap=False))
     else:
         text = json_out.render(results, units) if fmt == "json" else csv_out.render(results, units)
         if output:

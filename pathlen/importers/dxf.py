@@ -49,10 +49,14 @@ def read_dxf(path: Path, drawing_units: str | None = None) -> Drawing:
 
 
 def _load(path: Path) -> tuple[ezdxf.document.Drawing, list[str]]:
+    if not path.is_file():
+        raise InputError("no such file" if not path.exists() else "not a regular file")
     try:
         return ezdxf.readfile(path), []
     except OSError as exc:
-        raise InputError(f"cannot read file: {exc.strerror or exc}") from None
+        if exc.strerror:
+            raise InputError(f"cannot read file: {exc.strerror}") from None
+        raise InputError("not a DXF file (no DXF structure found)") from None
     except (DXFError, UnicodeError, ValueError, TypeError, IndexError, KeyError):
         pass
     try:

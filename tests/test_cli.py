@@ -1,0 +1,101 @@
+"""The measure command as a user runs it (click's CliRunner)."""
+
+import csv
+import io
+import json
+import math
+from pathlib import Path
+
+import ezdxf
+import pytest
+
+from pathlen.cli import main
+
+FIXTURES = Path(__file__).resolve().parent.parent / "fixtures"
+
+
+@pytest.fixture
+def square(tmp_path):
+    doc = ezdxf.new("R2010", setup=False)
+    doc.header["$INSUNITS"] = 1  # inches
+    doc.layers.add("CUT")
+    doc.modelspace().add_lwpolyline([(0, 0), (2, 0), (2, 2), (0, 2)], close=True, dxfattribs={"layer": "CUT"})
+    doc.modelspace().add_circle((1, 1), 0.5, dxfattribs={"layer": "CUT"})
+    path = tmp_path / "square.dxf"
+    doc.saveas(path)
+    return path
+
+
+def expected_square_mm():
+    return (8 + math.pi) * 25.4  # perimeter 8 in + circle 2·pi·0.5 in; 1 in = 25.4 mm exactly
+
+
+def test_json_contract(runner, square):
+    res = runner.invoke(main, ["measure", str(square), "--format", "json"])
+    assert res.exit_code == 0, res.output
+    doc = json.loads(res.stdout)
+    assert doc["format"] == "pathlen-measure" and doc["version"] == 1 and doc["units"] == "mm"
+    f = doc["files"][0]
+    assert f["ok"] is True and f["error"] is None
+    assert f["length"] == pytest.approx(expected_square_mm(), rel=1e-14)
+    assert f["layers"]["CUT"]["count"] == 2
+    assert f["contours"] == {"closed": 2, "open": 0}
+    assert doc["total"] == {"length": f["length"], "error_bound": f["error_bound"], "files": 1, "failed": 0}
+    assert 0 < f["error_bound"] < 1e-9 * f["length"]
+
+
+def test_inches_output(runner, square):
+    res = runner.invoke(main, ["measure", str(square), "--format", "json", "--units", "in"])
+    assert json.loads(res.stdout)["files"][0]["length"] == pytest.approx(8 + math.pi, rel=1e-14)
+
+
+def test_csv_rows(runner, square, tmp_path):
+    out = tmp_path / "report.csv"
+    res = runner.invoke(main, ["measure", str(square), "--format", "csv", "--output", str(out), "--units", "in"])
+    assert res.exit_code == 0
+    rows = list(csv.reader(io.StringIO(out.read_text())))
+    assert rows[0] == ["path", "layer", "length_in", "error_bound_in", "count"]
+    assert rows[1][1] == "CUT" and float(rows[1][2]) == pytest.approx(8 + math.pi, rel=1e-14)
+
+
+def test_mixed_batch_reports_bad_file_and_goes_on(runner, square, tmp_path):
+    bad = tmp_path / "broken.dxf"
+    bad.write_bytes(b"\x00garbage\xff")
+    res = runner.invoke(main, ["measure", str(bad), str(square), "--format", "json"])
+    assert res.exit_code == 1
+    doc = json.loads(res.stdout)
+    files = {Path(f["path"]).name: f for f in doc["files"]}
+    assert files["broken.dxf"]["ok"] is False and files["broken.dxf"]["length"] == 0
+    assert "\n" not in files["broken.dxf"]["error"]
+    assert files["square.dxf"]["ok"] is True
+    assert doc["total"]["failed"] == 1
+    assert "Traceback" not in res.output and "broken.dxf" in res.stderr
+
+
+def test_table_shows_units_and_total(runner, square):
+    res = runner.invoke(main, ["measure", str(square)])
+    assert res.exit_code == 0
+    assert "Length (mm)" in res.stdout and "Total" in res.stdout
+    assert f"{expected_square_mm():,.3f}" in res.stdout
+
+
+def test_folder_and_jobs(runner):
+    one = runner.invoke(main, ["measure", str(FIXTURES), "--format", "json"])
+    two = runner.invoke(main, ["measure", str(FIXTURES), "--format", "json", "--jobs", "2"])
+    assert one.exit_code == two.exit_code == 0
+    a, b = json.loads(one.stdout), json.loads(two.stdout)
+    assert [f["path"] for f in a["files"]] == [f["path"] for f in b["files"]]
+    assert a["total"]["length"] == b["total"]["length"] and a["total"]["files"] >= 3
+
+
+@pytest.mark.parametrize("args", [["measure"], ["measure", "x.dxf", "--rtol", "2"], ["measure", "x.dxf", "--units", "ft"],
+                                  ["measure", "x.dxf", "--format", "xml"]])
+def test_usage_errors_exit_2(runner, args):
+    res = runner.invoke(main, args)
+    assert res.exit_code == 2
+    assert "Traceback" not in res.output
+
+
+def test_empty_folder_is_a_usage_error(runner, tmp_path):
+    res = runner.invoke(main, ["measure", str(tmp_path)])
+    assert res.exit_code == 2 and "no .dxf or .svg files" in res.output
