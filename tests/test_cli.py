@@ -88,8 +88,10 @@ def test_folder_and_jobs(runner):
     assert a["total"]["length"] == b["total"]["length"] and a["total"]["files"] >= 3
 
 
-@pytest.mark.parametrize("args", [["measure"], ["measure", "x.dxf", "--rtol", "2"], ["measure", "x.dxf", "--units", "ft"],
-                                  ["measure", "x.dxf", "--format", "xml"]])
+@pytest.mark.parametrize("args", [
+    ["measure"], ["measure", "x.dxf", "--rtol", "2"], ["measure", "x.dxf", "--units", "ft"],
+    ["measure", "x.dxf", "--format", "xml"],
+])
 def test_usage_errors_exit_2(runner, args):
     res = runner.invoke(main, args)
     assert res.exit_code == 2

@@ -1,5 +1,6 @@
 """DXF import: every entity kind, blocks, OCS, units and bad files (drawings written with ezdxf)."""
 
+import itertools
 import math
 
 import ezdxf
@@ -89,7 +90,7 @@ def test_splines_control_point_rational_and_fit_point(tmp_path):
     msp.add_rational_spline([(7, 0), (7, 7), (0, 7)], [1, w, 1], degree=2)
     # a clamped uniform cubic spline: compare with scipy evaluation + mpmath below
     msp.add_open_spline([(0, 0), (1, 2), (3, 2), (4, 0), (6, 1)], degree=3)
-    drawing, m = measured(doc, tmp_path)
+    _drawing, m = measured(doc, tmp_path)
     quarter = m.entity_length[0]
     assert abs(quarter - 7 * math.pi / 2) <= m.entity_bound[0]
     # reference for the open spline: mpmath quadrature of the speed of scipy's B-spline
@@ -101,7 +102,7 @@ def test_splines_control_point_rational_and_fit_point(tmp_path):
     mp.mp.dps = 20
     spans = sorted(set(ent.knots))
     ref = sum(mp.quad(lambda t: mp.sqrt(sum(float(x) ** 2 for x in d(float(t)))), [a, b])
-              for a, b in zip(spans[:-1], spans[1:], strict=True))
+              for a, b in itertools.pairwise(spans))
     assert abs(m.entity_length[1] - float(ref)) <= 1e-9 * float(ref)
 
 
