@@ -204,11 +204,11 @@ def _bulged_path(points: list[tuple[float, float, float]], bulges: list[float], 
 
 
 def _lwpolyline(e: DXFGraphic, coll: SegmentCollector) -> None:
-    pts = e.get_points("xyb")
+    pts = list(e.lwpoints)  # (x, y, start width, end width, bulge)
     if len(pts) < 2:
         return
     z = float(e.dxf.elevation)
-    _bulged_path([(p[0], p[1], z) for p in pts], [float(p[2]) for p in pts], bool(e.closed),
+    _bulged_path([(p[0], p[1], z) for p in pts], [float(p[4]) for p in pts], bool(e.closed),
                  e.ocs(), coll, _entity(e, coll))
 
 

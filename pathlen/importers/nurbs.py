@@ -9,6 +9,8 @@ knot value in the valid domain ``[U[p], U[m-p]]`` is raised to multiplicity
 
 from __future__ import annotations
 
+from collections import Counter
+
 import numpy as np
 
 from pathlen.geometry import FloatArray
@@ -62,13 +64,11 @@ def bezier_pieces(ctrl: FloatArray, knots: FloatArray, degree: int, weights: Flo
     if not hi > lo:
         raise SplineError("empty knot domain")
     homog = np.concatenate([ctrl * w[:, None], w[:, None]], axis=1)
-    for u in np.unique(knots[(knots >= lo) & (knots <= hi)]):
-        mult = int(np.count_nonzero(knots == u))
-        for _ in range(max(p - mult, 0)):
-            homog, knots = insert_knot(homog, knots, p, float(u))
-    pieces = []
-    for k in range(p, len(knots) - p - 1):
-        if knots[k + 1] > knots[k]:
-            pieces.append(homog[k - p: k + 1])
-    h = np.array(pieces)
+    multiplicity = Counter(knots.tolist())
+    for u in sorted(multiplicity):
+        if lo <= u <= hi:
+            for _ in range(max(p - multiplicity[u], 0)):
+                homog, knots = insert_knot(homog, knots, p, u)
+    spans = np.nonzero(knots[p + 1: len(knots) - p] > knots[p: len(knots) - p - 1])[0] + p
+    h = homog[spans[:, None] - p + np.arange(p + 1)]
     return h[:, :, :3] / h[:, :, 3:], h[:, :, 3]
