@@ -48,7 +48,7 @@ class FileResult:
 
 
 def find_drawings(paths: Iterable[str]) -> list[str]:
-    """Expand folders (recursively) into their .dxf/.svg files; keep files as given.
+    """Expand folders (recursively) into their drawing files; keep files as given.
 
     Paths that do not exist are kept, so that they are reported as failed files.
     """
@@ -61,7 +61,7 @@ def find_drawings(paths: Iterable[str]) -> list[str]:
         else:
             out.append(p)
     if not out:
-        raise UsageError("no .dxf or .svg files found in the given paths")
+        raise UsageError(f"no {' or '.join(SUFFIXES)} files found in the given paths")
     return out
 
 

@@ -28,7 +28,7 @@ DRAWING_UNITS = tuple(sorted(k for k in MM_PER_UNIT if k not in ("px", "pt", "pc
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(package_name="pathlen")
 def main() -> None:
-    """pathlen: exact path lengths from DXF and SVG drawings."""
+    """pathlen: exact path lengths from drawings, with error bounds."""
 
 
 @main.command()
@@ -44,20 +44,15 @@ def main() -> None:
 @click.option("--drawing-units", type=click.Choice(DRAWING_UNITS), default=None,
               help="Units of DXF drawing coordinates, overriding $INSUNITS (unitless files are "
                    "otherwise taken as mm).")
-@click.option("--svg-dpi", type=float, default=None,
-              help="SVG user units per inch for files that state no physical size (default 96, "
-                   "the CSS px; some drawing programs wrote 72 or 90).")
 @click.option("--join-tol", type=float, default=0.01, show_default=True,
               help="Distance in mm within which segment ends join into one contour.")
 @click.option("--jobs", "-j", type=click.IntRange(min=0), default=1, show_default=True,
               help="Worker processes (0: one per core).")
 def measure(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rtol: float,
-            drawing_units: str | None, svg_dpi: float | None, join_tol: float, jobs: int) -> None:
-    """Measure every path in the drawings PATHS (files, or folders searched for .dxf/.svg)."""
+            drawing_units: str | None, join_tol: float, jobs: int) -> None:
+    """Measure every path in the drawings PATHS (DXF files, or folders searched for them)."""
     if not 0 < rtol < 1:
         raise click.BadParameter("must lie between 0 and 1", param_hint="--rtol")
-    if svg_dpi is not None and not svg_dpi > 0:
-        raise click.BadParameter("must be positive", param_hint="--svg-dpi")
     if not join_tol >= 0:
         raise click.BadParameter("must not be negative", param_hint="--join-tol")
     try:
@@ -65,7 +60,7 @@ def measure(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rt
     except PathlenError as exc:
         raise click.UsageError(str(exc)) from None
     settings = MeasureSettings(rtol=rtol, join_tol_mm=join_tol,
-                               import_options=ImportOptions(drawing_units, svg_dpi))
+                               import_options=ImportOptions(drawing_units))
     results = _collect(files, settings, jobs)
     err = Console(stderr=True, highlight=False, soft_wrap=True)
     for r in results:
