@@ -20,7 +20,7 @@ def fmt_bound(mm: float, units: str) -> str:
 
 def render(results: list[FileResult], units: str, console: Console) -> None:
     table = Table(title="Path lengths", show_lines=False)
-    table.add_column("File")
+    table.add_column("File", overflow="fold")
     table.add_column("Layer")
     table.add_column("Entities", justify="right")
     table.add_column(f"Length ({units})", justify="right")
