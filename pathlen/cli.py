@@ -79,10 +79,9 @@ def measure(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rt
             _write_atomic(output, text)
         else:
             click.echo(text, nl=False)
-            if fmt == "csv" or fmt == "json":
-                for r in results:
-                    for w in r.warnings:
-                        err.print(f"warning {r.path}: {w}")
+            for r in results:
+                for w in r.warnings:
+                    err.print(f"warning {r.path}: {w}")
     sys.exit(1 if any(not r.ok for r in results) else 0)
 
 
