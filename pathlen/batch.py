@@ -42,6 +42,8 @@ class FileResult:
     length_mm: float = 0.0
     bound_mm: float = 0.0
     layers: dict[str, LayerTotal] = field(default_factory=dict)
+    #: per stroke colour (``#rrggbb``); empty for formats without colours
+    colors: dict[str, LayerTotal] = field(default_factory=dict)
     closed: int = 0
     open: int = 0
     warnings: list[str] = field(default_factory=list)
@@ -80,21 +82,28 @@ def measure_file(path: str, settings: MeasureSettings = MeasureSettings()) -> Fi
     except Exception as exc:  # noqa: BLE001 - one bad file must not stop the batch
         text = str(exc).strip().splitlines()
         return FileResult(path, ok=False, error=f"unexpected {type(exc).__name__}: {text[0] if text else ''}")
-    layers: dict[str, LayerTotal] = {}
-    for i, ent in enumerate(drawing.entities):
-        t = layers.setdefault(ent.layer, LayerTotal(0.0, 0.0, 0))
-        t.length_mm += float(result.entity_length[i])
-        t.bound_mm += float(result.entity_bound[i])
-        t.count += 1
+    layers = _totals_by([e.layer for e in drawing.entities], result.entity_length, result.entity_bound)
+    colors = _totals_by([e.color for e in drawing.entities], result.entity_length, result.entity_bound)
+    colors.pop("", None)
     warnings = list(drawing.warnings)
     if result.unconverged:
         warnings.append(f"{result.unconverged} integration intervals did not reach the tolerance; "
                         "their error is included in the bound")
     return FileResult(
         path, ok=True, length_mm=float(np.sum(result.entity_length)),
-        bound_mm=float(np.sum(result.entity_bound)), layers=dict(sorted(layers.items())),
+        bound_mm=float(np.sum(result.entity_bound)), layers=layers, colors=colors,
         closed=contours.closed, open=contours.open, warnings=warnings,
     )
+
+
+def _totals_by(keys: list[str], length: np.ndarray, bound: np.ndarray) -> dict[str, LayerTotal]:
+    """Per-key sums of entity lengths and bounds, keys sorted (one ``np.bincount`` per column)."""
+    names, index = np.unique(np.array(keys, dtype=object), return_inverse=True) if keys else ([], [])
+    lengths = np.bincount(index, weights=length, minlength=len(names))
+    bounds = np.bincount(index, weights=bound, minlength=len(names))
+    counts = np.bincount(index, minlength=len(names))
+    rows = zip(names, lengths, bounds, counts, strict=True)
+    return {str(n): LayerTotal(float(a), float(b), int(c)) for n, a, b, c in rows}
 
 
 def run_batch(paths: list[str], settings: MeasureSettings, jobs: int = 1) -> Iterator[tuple[int, FileResult]]:

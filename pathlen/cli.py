@@ -44,13 +44,16 @@ def main() -> None:
 @click.option("--drawing-units", type=click.Choice(DRAWING_UNITS), default=None,
               help="Units of DXF drawing coordinates, overriding $INSUNITS (unitless files are "
                    "otherwise taken as mm).")
+@click.option("--svg-dpi", type=click.FloatRange(min=1.0), default=None,
+              help="Pixels per inch of SVG files sized in px or not sized at all (default 96, the CSS "
+                   "value; some drawing programs export at 72 or 90).")
 @click.option("--join-tol", type=float, default=0.01, show_default=True,
               help="Distance in mm within which segment ends join into one contour.")
 @click.option("--jobs", "-j", type=click.IntRange(min=0), default=1, show_default=True,
               help="Worker processes (0: one per core).")
 def measure(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rtol: float,
-            drawing_units: str | None, join_tol: float, jobs: int) -> None:
-    """Measure every path in the drawings PATHS (DXF files, or folders searched for them)."""
+            drawing_units: str | None, svg_dpi: float | None, join_tol: float, jobs: int) -> None:
+    """Measure every path in the drawings PATHS (DXF or SVG files, or folders searched for them)."""
     if not 0 < rtol < 1:
         raise click.BadParameter("must lie between 0 and 1", param_hint="--rtol")
     if not join_tol >= 0:
@@ -60,7 +63,7 @@ def measure(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rt
     except PathlenError as exc:
         raise click.UsageError(str(exc)) from None
     settings = MeasureSettings(rtol=rtol, join_tol_mm=join_tol,
-                               import_options=ImportOptions(drawing_units))
+                               import_options=ImportOptions(drawing_units, svg_dpi))
     results = _collect(files, settings, jobs)
     err = Console(stderr=True, highlight=False, soft_wrap=True)
     for r in results:

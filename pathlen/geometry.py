@@ -152,6 +152,8 @@ class Entity:
     layer: str
     handle: str
     kind: str
+    #: stroke colour as ``#rrggbb`` ("none", "other"); "" where the format has none to report
+    color: str = ""
 
 
 @dataclass
@@ -233,7 +235,7 @@ class SegmentCollector:
         """
         base = len(self.entities)
         self.entities.extend(
-            Entity(layer_of(e.layer), handle_prefix + e.handle, e.kind) for e in sub.entities
+            Entity(layer_of(e.layer), handle_prefix + e.handle, e.kind, e.color) for e in sub.entities
         )
         moved = sub.transformed(m)
         self._chunks.append(_offset_entities(moved, base))

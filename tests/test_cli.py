@@ -100,7 +100,7 @@ def test_usage_errors_exit_2(runner, args):
 
 def test_empty_folder_is_a_usage_error(runner, tmp_path):
     res = runner.invoke(main, ["measure", str(tmp_path)])
-    assert res.exit_code == 2 and "no .dxf files" in res.output
+    assert res.exit_code == 2 and "no .dxf or .svg files" in res.output
 
 
 def test_other_file_types_fail_alone(runner, square, tmp_path):
@@ -109,5 +109,5 @@ def test_other_file_types_fail_alone(runner, square, tmp_path):
     res = runner.invoke(main, ["measure", str(other), str(square), "--format", "json"])
     assert res.exit_code == 1
     files = json.loads(res.stdout)["files"]
-    assert files[0]["error"] == "unsupported file type '.txt': expected .dxf"
+    assert files[0]["error"] == "unsupported file type '.txt': expected .dxf or .svg"
     assert files[1]["ok"] is True

@@ -5,7 +5,7 @@ from __future__ import annotations
 import json
 from typing import Any
 
-from pathlen.batch import FileResult
+from pathlen.batch import FileResult, LayerTotal
 from pathlen.export import from_mm
 
 
@@ -16,13 +16,17 @@ def file_entry(r: FileResult, units: str) -> dict[str, Any]:
         "error": r.error,
         "length": from_mm(r.length_mm, units),
         "error_bound": from_mm(r.bound_mm, units),
-        "layers": {
-            name: {"length": from_mm(t.length_mm, units), "error_bound": from_mm(t.bound_mm, units),
-                   "count": t.count}
-            for name, t in r.layers.items()
-        },
+        "layers": _totals(r.layers, units),
+        "colors": _totals(r.colors, units),
         "contours": {"closed": r.closed, "open": r.open},
         "warnings": r.warnings,
+    }
+
+
+def _totals(groups: dict[str, LayerTotal], units: str) -> dict[str, dict[str, Any]]:
+    return {
+        name: {"length": from_mm(t.length_mm, units), "error_bound": from_mm(t.bound_mm, units), "count": t.count}
+        for name, t in groups.items()
     }
 
 

@@ -13,8 +13,8 @@ from pathlen.geometry import Drawing
 #: Coordinates beyond this many millimetres (1,000 km) are taken as a broken file.
 MAX_COORDINATE_MM = 1.0e9
 
-#: File kinds read so far (SVG is planned: issue "SVG drawings measured exactly").
-SUFFIXES = (".dxf",)
+#: File kinds read.
+SUFFIXES = (".dxf", ".svg")
 
 
 @dataclass(frozen=True)
@@ -22,6 +22,7 @@ class ImportOptions:
     """Options every importer understands."""
 
     drawing_units: str | None = None  # DXF: overrides $INSUNITS
+    svg_dpi: float | None = None  # SVG sized in px or not sized: px per inch (None: 96, with a warning)
 
 
 def read_drawing(path: Path, options: ImportOptions = ImportOptions()) -> Drawing:
@@ -31,8 +32,12 @@ def read_drawing(path: Path, options: ImportOptions = ImportOptions()) -> Drawin
         from pathlen.importers.dxf import read_dxf
 
         drawing = read_dxf(path, options.drawing_units)
+    elif suffix == ".svg":
+        from pathlen.importers.svg import read_svg
+
+        drawing = read_svg(path, options.svg_dpi)
     else:
-        raise InputError(f"unsupported file type {suffix or '(none)'!r}: expected .dxf")
+        raise InputError(f"unsupported file type {suffix or '(none)'!r}: expected {' or '.join(SUFFIXES)}")
     check_geometry(drawing)
     for kind, count in sorted(drawing.skipped.items()):
         drawing.warnings.append(f"{count} {kind} entit{'y' if count == 1 else 'ies'} not measured")

@@ -1,0 +1,472 @@
+"""SVG importer: a file -> :class:`~pathlen.geometry.Drawing` in millimetres.
+
+* Parsed with defusedxml: entity declarations, external references and DTD fetching are refused;
+  files over :data:`MAX_BYTES` and nesting deeper than :data:`MAX_DEPTH` are refused before any
+  geometry is built, and ``<use>`` expansion stops at :data:`MAX_SEGMENTS` segments.
+* Units: the root ``width``/``height`` in CSS absolute units with the ``viewBox`` and
+  ``preserveAspectRatio`` give millimetres per user unit; a drawing sized in px (or not sized) is
+  read at ``dpi`` px per inch (96, the CSS value, unless the user says otherwise).
+* Geometry: ``path`` (all commands), ``rect`` (rounded corners as exact elliptic quarter arcs),
+  ``circle``, ``ellipse``, ``line``, ``polyline``, ``polygon``, ``use`` of elements, groups,
+  symbols and nested ``svg``; transforms are composed exactly and applied to whole arrays.
+* Layer: the ``id`` of the outermost ``<g>`` holding the element ("" when none).  Colour: the
+  stroke, as ``#rrggbb``.  Coordinates keep SVG's orientation (y grows downwards).
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+import xml.etree.ElementTree as ET
+from collections import Counter
+from dataclasses import dataclass, replace
+from functools import lru_cache
+from pathlib import Path
+
+import defusedxml
+import defusedxml.ElementTree as SafeET
+import numpy as np
+
+from pathlen.errors import InputError
+from pathlen.geometry import Drawing, Entity
+from pathlen.importers.svg_css import Rule, cascade, parse_stylesheet
+from pathlen.importers.svg_path import RawSegments, full_ellipse, parse_path, to_drawing
+from pathlen.importers.svg_values import (
+    IDENTITY,
+    PX_PER_UNIT,
+    Affine2,
+    BadValue,
+    compose,
+    normalise_color,
+    parse_length,
+    parse_numbers,
+    parse_transform,
+    translate,
+    viewbox_transform,
+)
+
+#: Largest SVG file read (bytes).  Peak memory stays within about 12x the file size.
+MAX_BYTES = 100_000_000
+#: Deepest element nesting accepted.
+MAX_DEPTH = 256
+#: Deepest chain of ``<use>`` references followed.
+MAX_USE_DEPTH = 32
+#: Most segments one file may expand to (``<use>`` of ``<use>`` can multiply without bound).
+MAX_SEGMENTS = 10_000_000
+
+DEFAULT_DPI = 96.0
+SVG_NS = "{http://www.w3.org/2000/svg}"
+XLINK_HREF = "{http://www.w3.org/1999/xlink}href"
+SHAPES = frozenset({"path", "rect", "circle", "ellipse", "line", "polyline", "polygon"})
+CONTAINERS = frozenset({"g", "a", "svg", "switch"})
+#: Elements whose content is never drawn where it stands.
+DEFINITIONS = frozenset({"defs", "symbol"})
+NOT_DRAWN = frozenset({"clipPath", "mask", "marker", "pattern", "linearGradient", "radialGradient", "filter",
+                       "style", "script", "title", "desc", "metadata", "font", "font-face", "view", "cursor"})
+NOT_MEASURED = frozenset({"text", "image", "foreignObject", "video", "audio", "canvas", "iframe"})
+
+
+@dataclass(frozen=True)
+class _State:
+    """What an element inherits from where it is drawn."""
+
+    transform: int  # index into the transform list (user units -> mm)
+    layer: str | None  # None until the first <g>
+    stroke: str
+    color: str
+    visible: bool
+    viewport: tuple[float, float]  # width, height in the current user units, for percentages
+    uses: tuple[str, ...] = ()  # ids of the <use> targets being expanded, to stop cycles
+
+
+def read_svg(path: Path, dpi: float | None = None) -> Drawing:
+    """Read an SVG file; raises :class:`InputError` for unreadable, unsafe or non-SVG files."""
+    root = parse_safely(path)
+    if local_name(root.tag) != "svg":
+        raise InputError(f"not an SVG file (root element is <{local_name(root.tag)}>)")
+    return _Importer(root, dpi).run()
+
+
+def local_name(tag: object) -> str:
+    """``"{http://www.w3.org/2000/svg}path"`` -> ``"path"``; comments and processing instructions -> ""."""
+    return tag.rpartition("}")[2] if isinstance(tag, str) else ""
+
+
+def parse_safely(path: Path) -> ET.Element:
+    """Parse XML with entities, external references and deep nesting refused (one-line errors)."""
+    try:
+        size = path.stat().st_size
+    except FileNotFoundError:
+        raise InputError("no such file") from None
+    except OSError as exc:
+        raise InputError(f"cannot read file: {exc.strerror}") from None
+    if size > MAX_BYTES:
+        raise InputError(f"SVG file of {size / 1e6:,.0f} MB refused: the limit is {MAX_BYTES / 1e6:,.0f} MB")
+    if size == 0:
+        raise InputError("empty file")
+    root = None
+    depth = 0
+    try:
+        for event, elem in SafeET.iterparse(str(path), events=("start", "end"), forbid_dtd=False):
+            if event == "end":
+                depth -= 1
+                continue
+            depth += 1
+            if root is None:
+                root = elem
+            if depth > MAX_DEPTH:
+                raise InputError(f"elements nested more than {MAX_DEPTH} deep; file refused")
+    except defusedxml.EntitiesForbidden:
+        raise InputError("unsafe XML refused: the file declares entities (expansion is not allowed)") from None
+    except defusedxml.ExternalReferenceForbidden:
+        raise InputError("unsafe XML refused: the file refers to an external resource") from None
+    except defusedxml.DefusedXmlException as exc:
+        raise InputError(f"unsafe XML refused: {type(exc).__name__}") from None
+    except ET.ParseError as exc:
+        raise InputError(f"not well-formed XML: {exc}") from None
+    except OSError as exc:
+        raise InputError(f"cannot read file: {exc.strerror}") from None
+    assert root is not None
+    return root
+
+
+def _paint(st: _State, props: dict[str, str]) -> _State:
+    """``st`` with the stroke, colour and visibility an element specifies ("inherit" keeps the parent's)."""
+    stroke = props.get("stroke", "inherit")
+    color = props.get("color", "inherit")
+    visibility = props.get("visibility", "inherit").lower()
+    return replace(
+        st,
+        stroke=st.stroke if stroke == "inherit" else stroke,
+        color=st.color if color == "inherit" else color,
+        visible=st.visible if visibility == "inherit" else visibility == "visible",
+    )
+
+
+@lru_cache(maxsize=4096)
+def _colour(stroke: str, color: str) -> str:
+    return normalise_color(stroke, normalise_color(color))
+
+
+class _Importer:
+    """One document's walk: element tree -> raw segments -> Drawing."""
+
+    def __init__(self, root: ET.Element, dpi: float | None) -> None:
+        self.root = root
+        self.dpi = dpi
+        self.raw = RawSegments()
+        self.transforms: list[Affine2] = []
+        self.entities: list[Entity] = []
+        self.warnings: list[str] = []
+        self.not_measured: Counter[str] = Counter()
+        self.by_id: dict[str, ET.Element] = {}
+        self.ordinal: dict[int, int] = {}
+        self.drawn: set[int] = set()
+        self.definitions: list[ET.Element] = []
+        self.rules: list[Rule] = []
+
+    # -- set-up ---------------------------------------------------------------------------
+    def run(self) -> Drawing:
+        css_skipped = 0
+        for k, elem in enumerate(self.root.iter()):
+            self.ordinal[id(elem)] = k
+            ident = elem.get("id")
+            if ident is not None:
+                self.by_id.setdefault(ident, elem)
+            if local_name(elem.tag) == "style" and elem.text:
+                rules, skipped = parse_stylesheet(elem.text, len(self.rules))
+                self.rules.extend(rules)
+                css_skipped += skipped
+        self.rules.sort(key=lambda r: r.specificity)
+        if css_skipped:
+            self.warnings.append(f"{css_skipped} CSS selectors too complex to apply were ignored")
+        top, viewport = self.root_transform()
+        props = self.props(self.root)
+        state = _State(self.add_transform(top), None, props.get("stroke", "none"), props.get("color", "black"),
+                       props.get("visibility", "visible") == "visible", viewport)
+        self.walk_children(self.root, state)
+        self.report()
+        drawing = to_drawing(self.raw, np.array(self.transforms, dtype=float).reshape(-1, 6), self.entities)
+        drawing.warnings.extend(self.warnings)
+        return drawing
+
+    def root_transform(self) -> tuple[Affine2, tuple[float, float]]:
+        """User units -> mm for the whole document, and the viewport size in user units."""
+        root = self.root
+        try:
+            viewbox = self.viewbox(root)
+            width = self.size_attribute(root, "width")
+            height = self.size_attribute(root, "height")
+        except BadValue as exc:
+            raise InputError(f"root <svg>: {exc}") from None
+        units = {u for _, u in (width, height) if u is not None}
+        physical = bool(units) and all(u not in ("", "px") for u in units)
+        w, h = width[0], height[0]
+        if viewbox is not None:
+            aspect = viewbox[2] / viewbox[3]
+            if w is None and h is None:
+                w, h = viewbox[2], viewbox[3]
+            elif w is None:
+                w = h * aspect
+            elif h is None:
+                h = w / aspect
+        if w is not None and (w <= 0 or h <= 0):
+            raise InputError("root <svg> has zero or negative width/height: nothing is drawn")
+        if physical:
+            mm_per_px = 25.4 / 96.0  # CSS: 1in = 96px
+        else:
+            mm_per_px = 25.4 / (self.dpi or DEFAULT_DPI)
+            if self.dpi is None:
+                self.warnings.append("drawing has no physical size (width/height in px or absent): "
+                                     "read at 96 px per inch; use --svg-dpi if it was made at another resolution")
+        scale = (mm_per_px, 0.0, 0.0, mm_per_px, 0.0, 0.0)
+        if viewbox is None:
+            return scale, (w or 0.0, h or 0.0)
+        fit = viewbox_transform(viewbox, (0.0, 0.0, w, h), root.get("preserveAspectRatio", ""))
+        return compose(scale, fit), (viewbox[2], viewbox[3])
+
+    @staticmethod
+    def viewbox(elem: ET.Element) -> tuple[float, float, float, float] | None:
+        text = elem.get("viewBox")
+        if text is None:
+            return None
+        v = parse_numbers(text)
+        if len(v) != 4 or v[2] <= 0 or v[3] <= 0:
+            raise BadValue(f"viewBox {text!r} needs four numbers with positive width and height")
+        return (v[0], v[1], v[2], v[3])
+
+    @staticmethod
+    def size_attribute(elem: ET.Element, name: str) -> tuple[float | None, str | None]:
+        """A root width/height in px and its unit; (None, None) when absent, 'auto' or a percentage."""
+        text = elem.get(name)
+        if text is None or text.strip() in ("", "auto") or text.strip().endswith("%"):
+            return None, None
+        return parse_length(text)
+
+    # -- the walk -------------------------------------------------------------------------
+    def props(self, elem: ET.Element) -> dict[str, str]:
+        return cascade(local_name(elem.tag), elem.attrib, self.rules)
+
+    def add_transform(self, m: Affine2) -> int:
+        self.transforms.append(m)
+        return len(self.transforms) - 1
+
+    def walk_children(self, parent: ET.Element, state: _State) -> None:
+        """Draw the children of ``parent`` in document order (iteratively: depth is bounded, not recursion)."""
+        stack: list[tuple[ET.Element, _State]] = [(c, state) for c in reversed(parent)]
+        while stack:
+            elem, st = stack.pop()
+            for child_and_state in reversed(self.visit(elem, st)):
+                stack.append(child_and_state)
+
+    def visit(self, elem: ET.Element, st: _State) -> list[tuple[ET.Element, _State]]:
+        """Handle one element; return the children to visit next, with their state."""
+        if not isinstance(elem.tag, str) or (elem.tag.startswith("{") and not elem.tag.startswith(SVG_NS)):
+            return []  # comments, processing instructions, foreign namespaces
+        tag = local_name(elem.tag)
+        if tag in NOT_DRAWN:
+            return []
+        if tag in DEFINITIONS:
+            self.definitions.append(elem)
+            return []
+        if tag in NOT_MEASURED:
+            self.not_measured[f"<{tag}>"] += 1
+            return []
+        props = self.props(elem)
+        if props.get("display", "").lower() == "none":
+            self.count_hidden(elem)
+            return []
+        try:
+            st = self.inherit(elem, st, props, tag)
+        except BadValue as exc:
+            self.warn_element(elem, tag, str(exc))
+            return []
+        if tag in SHAPES:
+            if st.visible:
+                self.shape(elem, tag, st)
+            else:
+                self.not_measured["hidden"] += 1
+            return []
+        if tag == "use":
+            return self.use(elem, st)
+        if tag in CONTAINERS:
+            children = list(elem)
+            if tag == "switch":
+                children = [c for c in children if isinstance(c.tag, str)][:1]
+            return [(c, st) for c in children]
+        return []  # unknown elements draw nothing
+
+    def inherit(self, elem: ET.Element, st: _State, props: dict[str, str], tag: str) -> _State:
+        """The state for ``elem`` and its children: transform, layer, stroke, colour, visibility."""
+        transform = st.transform
+        viewport = st.viewport
+        local = parse_transform(elem.get("transform", "")) if "transform" in elem.attrib else IDENTITY
+        if tag == "svg":  # a nested viewport
+            local, viewport = self.nested_viewport(elem, local, st.viewport)
+        if local != IDENTITY:
+            transform = self.add_transform(compose(self.transforms[st.transform], local))
+        layer = st.layer
+        if layer is None and tag == "g":
+            layer = elem.get("id", "")
+        return _paint(replace(st, transform=transform, layer=layer, viewport=viewport), props)
+
+    def nested_viewport(self, elem: ET.Element, local: Affine2, outer: tuple[float, float],
+                        size: tuple[str | None, str | None] = (None, None)) -> tuple[Affine2, tuple[float, float]]:
+        """Transform and viewport of a nested ``<svg>`` (or a ``<symbol>`` placed by ``<use>``)."""
+        x = self.length(elem, "x", outer[0])
+        y = self.length(elem, "y", outer[1])
+        w_text = size[0] or elem.get("width") or "100%"
+        h_text = size[1] or elem.get("height") or "100%"
+        w = parse_length(w_text, outer[0])[0]
+        h = parse_length(h_text, outer[1])[0]
+        if w <= 0 or h <= 0:
+            raise BadValue("zero or negative viewport size: nothing drawn")
+        viewbox = self.viewbox(elem)
+        place = translate(x, y)
+        if viewbox is None:
+            return compose(local, place), (w, h)
+        fit = viewbox_transform(viewbox, (0.0, 0.0, w, h), elem.get("preserveAspectRatio", ""))
+        return compose(local, compose(place, fit)), (viewbox[2], viewbox[3])
+
+    def use(self, elem: ET.Element, st: _State) -> list[tuple[ET.Element, _State]]:
+        href = elem.get("href") or elem.get(XLINK_HREF) or ""
+        if not href.startswith("#"):
+            self.warn_element(elem, "use", f"reference {href[:40]!r} is not a local #id; not measured")
+            return []
+        target = self.by_id.get(href[1:])
+        if target is None:
+            self.warn_element(elem, "use", f"refers to missing {href!r}; not measured")
+            return []
+        if href in st.uses or len(st.uses) >= MAX_USE_DEPTH:
+            self.warn_element(elem, "use", f"reference chain through {href!r} loops or is too deep; not expanded")
+            return []
+        try:
+            x = self.length(elem, "x", st.viewport[0])
+            y = self.length(elem, "y", st.viewport[1])
+            m = self.transforms[st.transform]
+            m = compose(m, translate(x, y))
+            viewport = st.viewport
+            target_tag = local_name(target.tag)
+            if target_tag in ("symbol", "svg"):
+                local, viewport = self.nested_viewport(target, IDENTITY, st.viewport,
+                                                       (elem.get("width"), elem.get("height")))
+                if target_tag == "symbol":
+                    local = compose(parse_transform(target.get("transform", "")), local)
+                m = compose(m, local)
+        except BadValue as exc:
+            self.warn_element(elem, "use", str(exc))
+            return []
+        inner = replace(st, transform=self.add_transform(m), viewport=viewport, uses=(*st.uses, href))
+        if target_tag in ("symbol", "svg"):
+            inner = _paint(inner, self.props(target))
+            return [(c, inner) for c in target]
+        return [(target, inner)]
+
+    # -- shapes ---------------------------------------------------------------------------
+    def length(self, elem: ET.Element, name: str, percent_of: float, default: float = 0.0) -> float:
+        text = elem.get(name)
+        if text is None or text.strip() == "auto":
+            return default
+        return parse_length(text, percent_of)[0]
+
+    def shape(self, elem: ET.Element, tag: str, st: _State) -> None:
+        raw = self.raw
+        w, h = st.viewport
+        diagonal = math.hypot(w, h) / math.sqrt(2.0)  # SVG: percentages of radii use the normalised diagonal
+        error = None
+        try:
+            if tag == "path":
+                error = parse_path(elem.get("d", ""), raw)
+            elif tag == "line":
+                raw.rows["line"].extend((self.length(elem, "x1", w), self.length(elem, "y1", h),
+                                         self.length(elem, "x2", w), self.length(elem, "y2", h)))
+            elif tag in ("polyline", "polygon"):
+                error = self.poly(elem.get("points", ""), tag == "polygon")
+            elif tag == "circle":
+                r = self.length(elem, "r", diagonal)
+                if r > 0:
+                    full_ellipse(self.length(elem, "cx", w), self.length(elem, "cy", h), r, r, raw)
+            elif tag == "ellipse":
+                rx = self.length(elem, "rx", w, -1.0)
+                ry = self.length(elem, "ry", h, -1.0)
+                rx, ry = (ry if rx < 0 else rx), (rx if ry < 0 else ry)  # SVG 2: "auto" takes the other radius
+                if rx > 0 and ry > 0:
+                    full_ellipse(self.length(elem, "cx", w), self.length(elem, "cy", h), rx, ry, raw)
+            else:
+                self.rect(elem, w, h)
+        except BadValue as exc:
+            error = f"{exc}; not measured"
+        if error:
+            self.warn_element(elem, tag, error)
+        if raw.tag(len(self.entities), st.transform):
+            self.entities.append(Entity(st.layer or "", self.handle(elem, tag), tag, _colour(st.stroke, st.color)))
+            self.drawn.add(id(elem))
+            if sum(len(a) for a in raw.entity.values()) > MAX_SEGMENTS:
+                raise InputError(f"more than {MAX_SEGMENTS:,} segments after expanding <use>; file refused")
+
+    def poly(self, text: str, closed: bool) -> str | None:
+        error = None
+        try:
+            v = parse_numbers(text)
+        except BadValue as exc:
+            return str(exc)
+        if len(v) % 2:
+            v, error = v[:-1], "odd number of coordinates in points; the last one ignored"
+        pts = list(zip(v[0::2], v[1::2], strict=True))
+        if closed and len(pts) > 2 and pts[0] != pts[-1]:
+            pts.append(pts[0])
+        rows = self.raw.rows["line"]
+        for (x0, y0), (x1, y1) in itertools.pairwise(pts):
+            rows.extend((x0, y0, x1, y1))
+        return error
+
+    def rect(self, elem: ET.Element, vw: float, vh: float) -> None:
+        """A rectangle, its rounded corners as exact quarter ellipses (SVG 2, 10.2, rx/ry rules)."""
+        x, y = self.length(elem, "x", vw), self.length(elem, "y", vh)
+        w, h = self.length(elem, "width", vw), self.length(elem, "height", vh)
+        if w <= 0 or h <= 0:
+            return  # a zero size disables rendering; a negative one is an error, also not drawn
+        rx, ry = self.length(elem, "rx", vw, -1.0), self.length(elem, "ry", vh, -1.0)
+        rx, ry = (ry if rx < 0 else rx), (rx if ry < 0 else ry)
+        rx, ry = min(max(rx, 0.0), w / 2.0), min(max(ry, 0.0), h / 2.0)
+        lines, ellipses = self.raw.rows["line"], self.raw.rows["ellipse"]
+        if rx == 0.0 or ry == 0.0:
+            lines.extend((x, y, x + w, y, x + w, y, x + w, y + h, x + w, y + h, x, y + h, x, y + h, x, y))
+            return
+        half = math.pi / 2.0
+        corners = ((x + w - rx, y + ry), (x + w - rx, y + h - ry), (x + rx, y + h - ry), (x + rx, y + ry))
+        for k, (cx, cy) in enumerate(corners):
+            start = (k - 1) * half  # from -90°: top-right, bottom-right, bottom-left, top-left
+            ellipses.extend((cx, cy, rx, 0.0, 0.0, ry, start, start + half))
+        edges = ((x + rx, y, x + w - rx, y), (x + w, y + ry, x + w, y + h - ry),
+                 (x + w - rx, y + h, x + rx, y + h), (x, y + h - ry, x, y + ry))
+        for x0, y0, x1, y1 in edges:
+            if (x0, y0) != (x1, y1):
+                lines.extend((x0, y0, x1, y1))
+
+    # -- reporting ------------------------------------------------------------------------
+    def handle(self, elem: ET.Element, tag: str) -> str:
+        ident = elem.get("id")
+        return ident if ident else f"{tag}[{self.ordinal.get(id(elem), 0)}]"
+
+    def warn_element(self, elem: ET.Element, tag: str, message: str) -> None:
+        self.warnings.append(f"<{tag}> {self.handle(elem, tag)}: {message}")
+
+    def count_hidden(self, elem: ET.Element) -> None:
+        self.not_measured["hidden"] += sum(1 for e in elem.iter() if local_name(e.tag) in SHAPES)
+
+    def report(self) -> None:
+        unused = sum(1 for d in self.definitions for e in d.iter()
+                     if local_name(e.tag) in SHAPES and id(e) not in self.drawn)
+        notes = []
+        for what, n in sorted(self.not_measured.items()):
+            if what == "hidden":
+                notes.append(f"{n} hidden shape{'s' if n != 1 else ''} (display/visibility) not measured")
+            else:
+                notes.append(f"{n} {what} element{'s' if n != 1 else ''} not measured")
+        if unused:
+            notes.append(f"{unused} shape{'s' if unused != 1 else ''} in <defs>/<symbol> never used, not measured")
+        self.warnings.extend(notes)
+
+
+__all__ = ["DEFAULT_DPI", "MAX_BYTES", "MAX_DEPTH", "PX_PER_UNIT", "read_svg"]
