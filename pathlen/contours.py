@@ -5,11 +5,9 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.sparse import coo_matrix
-from scipy.sparse.csgraph import connected_components
-from scipy.spatial import cKDTree
 
 from pathlen.geometry import Drawing, FloatArray, IntArray
+from pathlen.proximity import close_pairs, components
 
 #: Default join tolerance in millimetres.
 DEFAULT_JOIN_TOL_MM = 0.01
@@ -51,20 +49,14 @@ def count_contours(drawing: Drawing, join_tol: float = DEFAULT_JOIN_TOL_MM) -> C
                          dtype=np.int64)[ent]
     points = np.concatenate([start, end])
     point_layer = np.concatenate([seg_layer, seg_layer])
-    pairs = cKDTree(points).query_pairs(join_tol, output_type="ndarray")
-    pairs = pairs[point_layer[pairs[:, 0]] == point_layer[pairs[:, 1]]]
-    m = 2 * n
-    same = coo_matrix((np.ones(len(pairs)), (pairs[:, 0], pairs[:, 1])), shape=(m, m))
-    _, node = connected_components(same, directed=False)
+    pairs = close_pairs(points, join_tol, point_layer)
+    _, node = np.unique(components(2 * n, pairs[:, 0], pairs[:, 1]), return_inverse=True)
     a, b = node[:n], node[n:]
-    graph = coo_matrix((np.ones(n), (a, b)), shape=(node.max() + 1,) * 2)
-    count, comp = connected_components(graph, directed=False)
+    comp = components(node.max() + 1, a, b)
     degree = np.bincount(a, minlength=node.max() + 1) + np.bincount(b, minlength=node.max() + 1)
     used = degree > 0
-    odd_nodes = used & (degree % 2 == 1)
-    comp_has_odd = np.zeros(count, dtype=bool)
-    comp_has_odd[comp[odd_nodes]] = True
-    comp_used = np.zeros(count, dtype=bool)
-    comp_used[comp[used]] = True
-    closed = int(np.count_nonzero(comp_used & ~comp_has_odd))
-    return ContourCount(closed, int(np.count_nonzero(comp_used)) - closed)
+    odd = np.zeros(node.max() + 1, dtype=bool)
+    odd[comp[used & (degree % 2 == 1)]] = True
+    roots = np.unique(comp[used])
+    closed = int(np.count_nonzero(~odd[roots]))
+    return ContourCount(closed, len(roots) - closed)

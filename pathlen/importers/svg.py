@@ -18,6 +18,7 @@ from __future__ import annotations
 import itertools
 import math
 import xml.etree.ElementTree as ET
+from array import array
 from collections import Counter
 from dataclasses import dataclass, replace
 from functools import lru_cache
@@ -30,7 +31,8 @@ import numpy as np
 from pathlen.errors import InputError
 from pathlen.geometry import Drawing, Entity
 from pathlen.importers.svg_css import Rule, cascade, parse_stylesheet
-from pathlen.importers.svg_path import RawSegments, full_ellipse, parse_path, to_drawing
+from pathlen.importers.svg_path import parse_careful, parse_many
+from pathlen.importers.svg_segments import ROW_WIDTH, RawSegments, full_ellipse, to_drawing
 from pathlen.importers.svg_values import (
     IDENTITY,
     PX_PER_UNIT,
@@ -164,6 +166,8 @@ class _Importer:
         self.drawn: set[int] = set()
         self.definitions: list[ET.Element] = []
         self.rules: list[Rule] = []
+        #: path elements drawn, parsed together at the end: (path data, entity, transform)
+        self.paths: list[tuple[str, int, int]] = []
 
     # -- set-up ---------------------------------------------------------------------------
     def run(self) -> Drawing:
@@ -185,6 +189,8 @@ class _Importer:
         state = _State(self.add_transform(top), None, props.get("stroke", "none"), props.get("color", "black"),
                        props.get("visibility", "visible") == "visible", viewport)
         self.walk_children(self.root, state)
+        self.add_paths()
+        self.drop_empty_entities()
         self.report()
         drawing = to_drawing(self.raw, np.array(self.transforms, dtype=float).reshape(-1, 6), self.entities)
         drawing.warnings.extend(self.warnings)
@@ -374,10 +380,15 @@ class _Importer:
         w, h = st.viewport
         diagonal = math.hypot(w, h) / math.sqrt(2.0)  # SVG: percentages of radii use the normalised diagonal
         error = None
+        if tag == "path":
+            self.paths.append((elem.get("d", ""), len(self.entities), st.transform))
+            self.entities.append(Entity(st.layer or "", self.handle(elem, tag), tag, _colour(st.stroke, st.color)))
+            self.drawn.add(id(elem))
+            if len(self.paths) > MAX_SEGMENTS:
+                raise InputError(f"more than {MAX_SEGMENTS:,} paths after expanding <use>; file refused")
+            return
         try:
-            if tag == "path":
-                error = parse_path(elem.get("d", ""), raw)
-            elif tag == "line":
+            if tag == "line":
                 raw.rows["line"].extend((self.length(elem, "x1", w), self.length(elem, "y1", h),
                                          self.length(elem, "x2", w), self.length(elem, "y2", h)))
             elif tag in ("polyline", "polygon"):
@@ -401,7 +412,7 @@ class _Importer:
         if raw.tag(len(self.entities), st.transform):
             self.entities.append(Entity(st.layer or "", self.handle(elem, tag), tag, _colour(st.stroke, st.color)))
             self.drawn.add(id(elem))
-            if sum(len(a) for a in raw.entity.values()) > MAX_SEGMENTS:
+            if self.raw_count() > MAX_SEGMENTS:
                 raise InputError(f"more than {MAX_SEGMENTS:,} segments after expanding <use>; file refused")
 
     def poly(self, text: str, closed: bool) -> str | None:
@@ -443,6 +454,56 @@ class _Importer:
         for x0, y0, x1, y1 in edges:
             if (x0, y0) != (x1, y1):
                 lines.extend((x0, y0, x1, y1))
+
+    def add_paths(self) -> None:
+        """Parse every distinct path once, all together, then place each drawn copy (entity, transform)."""
+        if not self.paths:
+            return
+        distinct: dict[str, int] = {}
+        copy_of = np.array([distinct.setdefault(d, len(distinct)) for d, _, _ in self.paths], dtype=np.int64)
+        entity = np.array([e for _, e, _ in self.paths], dtype=np.int64)
+        transform = np.array([t for _, _, t in self.paths], dtype=np.int64)
+        texts = list(distinct)
+        rows, ok = parse_many(texts)
+        for u in np.flatnonzero(~ok).tolist():
+            one = RawSegments()
+            error = parse_careful(texts[u], one)
+            if error:
+                first = self.entities[int(entity[np.argmax(copy_of == u)])]
+                self.warnings.append(f"<path> {first.handle}: {error}")
+            for kind, width in ROW_WIDTH.items():
+                extra = np.frombuffer(one.rows[kind], dtype=np.float64).reshape(-1, width)
+                if len(extra):
+                    r, owner = rows.get(kind, (np.zeros((0, width)), np.zeros(0, dtype=np.int64)))
+                    rows[kind] = (np.concatenate([r, extra]), np.concatenate([owner, np.full(len(extra), u)]))
+        per_copy = {kind: np.bincount(owner, minlength=len(texts))[copy_of] for kind, (_, owner) in rows.items()}
+        if sum(int(n.sum()) for n in per_copy.values()) + self.raw_count() > MAX_SEGMENTS:
+            raise InputError(f"more than {MAX_SEGMENTS:,} segments after expanding <use>; file refused")
+        for kind, (r, owner) in rows.items():
+            order = np.argsort(owner, kind="stable")
+            r, counts = r[order], np.bincount(owner, minlength=len(texts))
+            first = np.cumsum(counts) - counts
+            n = per_copy[kind]
+            within = np.arange(int(n.sum())) - np.repeat(np.cumsum(n) - n, n)
+            self.raw.add(kind, r[np.repeat(first[copy_of], n) + within])
+            self.raw.entity[kind].frombytes(np.repeat(entity, n).tobytes())
+            self.raw.transform[kind].frombytes(np.repeat(transform, n).tobytes())
+
+    def raw_count(self) -> int:
+        return sum(len(a) for a in self.raw.entity.values())
+
+    def drop_empty_entities(self) -> None:
+        """Forget entities that gave no segment (an empty path), renumbering the rest."""
+        tags = {k: np.frombuffer(a, dtype=np.int64) for k, a in self.raw.entity.items()}
+        used = np.zeros(len(self.entities), dtype=bool)
+        for t in tags.values():
+            used[t] = True
+        if used.all():
+            return
+        renumber = np.cumsum(used) - 1
+        for k, t in tags.items():
+            self.raw.entity[k] = array("q", renumber[t].tobytes())
+        self.entities = [e for e, keep in zip(self.entities, used.tolist(), strict=True) if keep]
 
     # -- reporting ------------------------------------------------------------------------
     def handle(self, elem: ET.Element, tag: str) -> str:

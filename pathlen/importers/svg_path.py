@@ -1,63 +1,50 @@
-"""SVG path data (``d``) -> raw 2-D segments, and raw segments -> a :class:`~pathlen.geometry.Drawing`.
+"""SVG path data (``d``) -> raw 2-D segments.
 
-The parser follows the path grammar of SVG 1.1 (section 8.3, "Path data") and SVG 2:
-absolute and relative ``M L H V C S Q T A Z``, implicit repeats (extra pairs after ``M`` are
-line-tos), smooth-curve reflection only after a curve of the same family, closepath back to the
-subpath start, compact arc flags (``a1 1 0 00 1 1``).  On an error the path is kept up to the
-last complete segment, as the spec's error handling asks, and the error is reported.
+Follows the path grammar of SVG 1.1 (section 8.3, "Path data") and SVG 2: absolute and relative
+``M L H V C S Q T A Z``, implicit repeats (extra pairs after ``M`` are line-tos), smooth-curve
+reflection only after a curve of the same family, closepath back to the subpath start, packed
+numbers (``1-2.5.5``) and compact arc flags (``a1 1 0 00 1 1``).
 
-Segments are stored in flat ``array('d')`` rows per kind, in user units, each row tagged with an
-entity index and a transform index; :func:`to_drawing` converts arcs from endpoint to centre form
-and applies all transforms in one vectorised step per kind.
+Two parsers give the same segments: :func:`parse_fast` does the per-segment work in numpy and
+keeps only the running current point in a tight Python loop; it declines anything unusual (an
+error, a partial group) and :func:`parse_careful` then walks the path command by command,
+keeping the path up to the first error as the spec's error handling asks, and says what was wrong.
 """
 
 from __future__ import annotations
 
-import math
+import itertools
 import re
-from array import array
 
 import numpy as np
 
-from pathlen.geometry import Beziers, Drawing, EllipticArcs, Entity, Lines
+from pathlen.importers.svg_segments import RawSegments
 from pathlen.importers.svg_values import NUMBER
 
-#: Numbers per row: line x0 y0 x1 y1; quad 3 points; cubic 4 points; arc in endpoint form
-#: x1 y1 rx ry phi(deg) large sweep x2 y2; ellipse in centre form cx cy ux uy vx vy t0 t1.
-ROW_WIDTH = {"line": 4, "quad": 6, "cubic": 8, "arc": 9, "ellipse": 8}
-
-
-class RawSegments:
-    """Segments in user units, before transforms, with per-row entity and transform tags."""
-
-    def __init__(self) -> None:
-        self.rows = {k: array("d") for k in ROW_WIDTH}
-        self.entity = {k: array("q") for k in ROW_WIDTH}
-        self.transform = {k: array("q") for k in ROW_WIDTH}
-
-    def tag(self, entity: int, transform: int) -> int:
-        """Tag every untagged row with ``entity`` and ``transform``; returns how many rows that was."""
-        added = 0
-        for kind, width in ROW_WIDTH.items():
-            n = len(self.rows[kind]) // width - len(self.entity[kind])
-            if n:
-                self.entity[kind].extend(array("q", [entity]) * n)
-                self.transform[kind].extend(array("q", [transform]) * n)
-                added += n
-        return added
-
-
 _COMMANDS = "MmZzLlHhVvCcSsQqTtAa"
-_CHUNK = re.compile(rf"([{_COMMANDS}])([^{_COMMANDS}]*)")
+_SPLIT = re.compile(rf"([{_COMMANDS}])")
 _NUM = re.compile(NUMBER)
 _SEP = r"\s*+(?:,\s*+)?+"  # possessive: linear time on any input
 _ARGS = re.compile(rf"\s*+(?:{NUMBER}{_SEP})*+")
 _ONE = re.compile(rf"\s*+({NUMBER}){_SEP}")
-_ARC = re.compile(rf"\s*+({NUMBER}){_SEP}({NUMBER}){_SEP}({NUMBER}){_SEP}([01]){_SEP}([01]){_SEP}"
-                  rf"({NUMBER}){_SEP}({NUMBER}){_SEP}")
+_ARC_ONE = (rf"\s*+({NUMBER}){_SEP}({NUMBER}){_SEP}({NUMBER}){_SEP}([01]){_SEP}([01]){_SEP}"
+            rf"({NUMBER}){_SEP}({NUMBER}){_SEP}")
+_ARC = re.compile(_ARC_ONE)
+_ARCS = re.compile(rf"(?:{_ARC_ONE})*+\s*+")
 _ARITY = {"M": 2, "L": 2, "H": 1, "V": 1, "C": 6, "S": 4, "Q": 4, "T": 2, "A": 7, "Z": 0}
 
 
+def parse_path(d: str, out: RawSegments) -> str | None:
+    """Append the segments of path data ``d`` to ``out``; return an error message or None."""
+    rows, ok = parse_many([d])
+    if ok[0]:
+        for kind, (r, _) in rows.items():
+            out.add(kind, r)
+        return None
+    return parse_careful(d, out)
+
+
+# -- the careful parser: one command at a time ----------------------------------------------------
 def _numbers(args: str) -> tuple[list[float], bool]:
     """The numbers of one command's arguments and whether they all parsed."""
     if _ARGS.fullmatch(args):
@@ -70,6 +57,7 @@ def _numbers(args: str) -> tuple[list[float], bool]:
 
 
 def _arc_numbers(args: str) -> tuple[list[float], bool]:
+    """Arc arguments: flags are single characters and may touch the next number ("a1 1 0 011 1")."""
     out: list[float] = []
     pos = 0
     while pos < len(args) and (m := _ARC.match(args, pos)):
@@ -78,21 +66,17 @@ def _arc_numbers(args: str) -> tuple[list[float], bool]:
     return out, args[pos:].strip() == ""
 
 
-def parse_path(d: str, out: RawSegments) -> str | None:
-    """Append the segments of path data ``d`` to ``out``; return an error message or None."""
-    lines, quads, cubics, arcs = out.rows["line"], out.rows["quad"], out.rows["cubic"], out.rows["arc"]
+def parse_careful(d: str, out: RawSegments) -> str | None:
+    """The reference parser: exact error handling, one Python step per segment."""
+    lines, quads, cubics, arcs = (out.rows[k] for k in ("line", "quad", "cubic", "arc"))
     x = y = 0.0  # current point
     sx = sy = 0.0  # start of the current subpath
     qx = qy = 0.0  # last control point, for S/T reflection
     last = ""  # previous command family, upper case
-    pos = 0
-    if not d.strip():
-        return None
-    for m in _CHUNK.finditer(d):
-        if d[pos:m.start()].strip():
-            return f"unexpected {d[pos:m.start()].strip()[:20]!r} in path data"
-        pos = m.end()
-        cmd, args = m.group(1), m.group(2)
+    parts = _SPLIT.split(d)
+    if parts[0].strip():
+        return f"unexpected {parts[0].strip()[:20]!r} in path data"
+    for cmd, args in zip(parts[1::2], parts[2::2], strict=True):
         up = cmd.upper()
         rel = cmd != up
         if last == "" and up != "M":
@@ -111,16 +95,9 @@ def parse_path(d: str, out: RawSegments) -> str | None:
             return f"command {cmd} without its {k} numbers"
         for i in range(0, count * k, k):
             ox, oy = (x, y) if rel else (0.0, 0.0)
-            if up == "M":
-                if i == 0:
-                    x, y = v[0] + ox, v[1] + oy
-                    sx, sy = x, y
-                    last = "M"
-                    continue
-                nx, ny = v[i] + ox, v[i + 1] + oy
-                lines.extend((x, y, nx, ny))
-                x, y, last = nx, ny, "L"
-            elif up == "L":
+            if up == "M" and i == 0:
+                x, y = sx, sy = v[0] + ox, v[1] + oy
+            elif up in "ML":
                 nx, ny = v[i] + ox, v[i + 1] + oy
                 lines.extend((x, y, nx, ny))
                 x, y = nx, ny
@@ -132,23 +109,22 @@ def parse_path(d: str, out: RawSegments) -> str | None:
                 ny = v[i] + oy
                 lines.extend((x, y, x, ny))
                 y = ny
-            elif up == "C":
-                x1, y1, qx, qy = v[i] + ox, v[i + 1] + oy, v[i + 2] + ox, v[i + 3] + oy
-                nx, ny = v[i + 4] + ox, v[i + 5] + oy
+            elif up in "CS":
+                j = i + 2 if up == "C" else i
+                if up == "C":
+                    x1, y1 = v[i] + ox, v[i + 1] + oy
+                else:
+                    x1, y1 = (2 * x - qx, 2 * y - qy) if last == "C" else (x, y)
+                qx, qy, nx, ny = v[j] + ox, v[j + 1] + oy, v[j + 2] + ox, v[j + 3] + oy
                 cubics.extend((x, y, x1, y1, qx, qy, nx, ny))
                 x, y = nx, ny
-            elif up == "S":
-                x1, y1 = (2 * x - qx, 2 * y - qy) if last == "C" else (x, y)
-                qx, qy, nx, ny = v[i] + ox, v[i + 1] + oy, v[i + 2] + ox, v[i + 3] + oy
-                cubics.extend((x, y, x1, y1, qx, qy, nx, ny))
-                x, y = nx, ny
-            elif up == "Q":
-                qx, qy, nx, ny = v[i] + ox, v[i + 1] + oy, v[i + 2] + ox, v[i + 3] + oy
-                quads.extend((x, y, qx, qy, nx, ny))
-                x, y = nx, ny
-            elif up == "T":
-                qx, qy = (2 * x - qx, 2 * y - qy) if last == "Q" else (x, y)
-                nx, ny = v[i] + ox, v[i + 1] + oy
+            elif up in "QT":
+                j = i + 2 if up == "Q" else i
+                if up == "Q":
+                    qx, qy = v[i] + ox, v[i + 1] + oy
+                else:
+                    qx, qy = (2 * x - qx, 2 * y - qy) if last == "Q" else (x, y)
+                nx, ny = v[j] + ox, v[j + 1] + oy
                 quads.extend((x, y, qx, qy, nx, ny))
                 x, y = nx, ny
             else:  # A
@@ -161,99 +137,171 @@ def parse_path(d: str, out: RawSegments) -> str | None:
                 else:
                     arcs.extend((x, y, abs(rx), abs(ry), phi, large, sweep, nx, ny))
                 x, y = nx, ny
-            if up != "M":
-                last = "C" if up in "CS" else "Q" if up in "QT" else up
+            last = "C" if up in "CS" else "Q" if up in "QT" else "L" if up in "MHV" else up
         if not ok or len(v) % k:
             return f"bad numbers after command {cmd}; path measured up to there"
-    if d[pos:].strip():
-        return f"unexpected {d[pos:].strip()[:20]!r} in path data"
     return None
 
 
-def endpoint_to_centre(rows: np.ndarray) -> tuple[np.ndarray, ...]:
-    """Arcs in endpoint form -> ``(centre, u, v, t0, t1)`` with point(t) = c + u cos t + v sin t.
+# -- the fast parser: numpy per segment kind, a tight loop for the current point --------------------
+_KINDS = "MLHVCSQTAZ"
+M, L, H, V, C, S, Q, T, A, Z = range(10)
+_KIND_OF = np.full(128, -1, dtype=np.int64)
+for _k, _c in enumerate(_KINDS):
+    _KIND_OF[ord(_c)] = _KIND_OF[ord(_c.lower())] = _k
+_ARITY_OF = np.array([_ARITY[c] for c in _KINDS])
+#: offset of the end point's x and y among a segment's numbers (-1: not given)
+_END_X = np.array([0, 0, 0, -1, 4, 2, 2, 0, 5, -1])
+_END_Y = np.array([1, 1, -1, 0, 5, 3, 3, 1, 6, -1])
 
-    ``rows`` is ``[n, 9]``: x1 y1 rx ry phi(deg) large sweep x2 y2, radii positive, endpoints
-    distinct.  Implements SVG 1.1 appendix F.6.5 (conversion to centre parameters) with the
-    radius correction of F.6.6 (radii too small to reach are scaled up by sqrt(Λ)).  The
-    direction of travel is kept: a negative sweep flips ``v`` and the parameter's sign, so t
-    always increases from the start point to the end point.
+
+def parse_many(paths: list[str]) -> tuple[dict[str, tuple[np.ndarray, np.ndarray]], np.ndarray]:
+    """Parse many well-formed paths at once.
+
+    Returns ``({kind: (rows, path index of each row)}, ok)``; a path with anything unusual
+    (an error, a partial group, packed numbers) gets ``ok = False`` and no rows: give it to
+    :func:`parse_careful`.
     """
-    x1, y1, rx, ry, phi, large, sweep, x2, y2 = rows.T
-    phi = np.radians(phi % 360.0)
-    cos, sin = np.cos(phi), np.sin(phi)
-    dx, dy = (x1 - x2) / 2.0, (y1 - y2) / 2.0
-    x1p = cos * dx + sin * dy
-    y1p = -sin * dx + cos * dy
-    lam = (x1p / rx) ** 2 + (y1p / ry) ** 2
-    grow = np.sqrt(np.maximum(lam, 1.0))
-    rx, ry = rx * grow, ry * grow
-    # F.6.5.2: sqrt((rx²ry² − rx²y1'² − ry²x1'²)/(rx²y1'² + ry²x1'²)) = sqrt(1/Λ − 1), 0 when scaled up
-    coef = np.sqrt(np.maximum(1.0 / lam - 1.0, 0.0)) * np.where(large != sweep, 1.0, -1.0)
-    cxp = coef * rx * y1p / ry
-    cyp = -coef * ry * x1p / rx
-    cx = cos * cxp - sin * cyp + (x1 + x2) / 2.0
-    cy = sin * cxp + cos * cyp + (y1 + y2) / 2.0
-    th1 = np.arctan2((y1p - cyp) / ry, (x1p - cxp) / rx)
-    th2 = np.arctan2((-y1p - cyp) / ry, (-x1p - cxp) / rx)
-    dth = np.mod(th2 - th1, 2.0 * np.pi)
-    dth = np.where((sweep == 0) & (dth > 0), dth - 2.0 * np.pi, dth)
-    u = np.stack([rx * cos, rx * sin], axis=1)
-    v = np.stack([-ry * sin, ry * cos], axis=1)
-    back = dth < 0
-    v[back] *= -1.0
-    t0 = np.where(back, -th1, th1)
-    t1 = t0 + np.abs(dth)
-    return np.stack([cx, cy], axis=1), u, v, t0, t1
+    ok = np.ones(len(paths), dtype=bool)
+    cmds: list[str] = []
+    tokens: list[list[str]] = []
+    owner: list[int] = []
+    for p, d in enumerate(paths):
+        parts = _SPLIT.split(d)
+        if parts[0].strip() or len(parts) < 3 or parts[1] not in "Mm":
+            ok[p] = False
+            continue
+        mine = []
+        for c, a in zip(parts[1::2], parts[2::2], strict=True):
+            if c in "Aa":
+                if not _ARCS.fullmatch(a):
+                    ok[p] = False
+                    break
+                mine.append([x for arc in _ARC.findall(a) for x in arc])
+            else:
+                mine.append(a.replace(",", " ").split())
+        if ok[p]:
+            cmds.extend(parts[1::2])
+            tokens.extend(mine)
+            owner.extend([p] * len(mine))
+    counts = np.fromiter(map(len, tokens), dtype=np.int64, count=len(tokens))
+    cmd_path = np.array(owner, dtype=np.int64)
+    nums = _to_floats(tokens, counts, cmd_path, ok)
+    code = np.frombuffer("".join(cmds).encode("ascii"), dtype=np.uint8)
+    kind = _KIND_OF[code]
+    arity = _ARITY_OF[kind]
+    closing = kind == Z
+    bad = np.where(closing, counts != 0, (counts == 0) | (counts % np.maximum(arity, 1) != 0))
+    ok[cmd_path[bad]] = False
+    keep = ok[cmd_path]  # commands of paths still fine
+    groups = np.where(closing, 1, counts // np.maximum(arity, 1)) * keep
+    first_group = np.cumsum(groups) - groups
+    seg_cmd = np.repeat(np.arange(len(cmds)), groups)
+    within = np.arange(len(seg_cmd)) - first_group[seg_cmd]
+    seg_kind = kind[seg_cmd]
+    seg_kind[(seg_kind == M) & (within > 0)] = L  # extra pairs after a moveto are line-tos
+    seg_rel = (code >= ord("a"))[seg_cmd]
+    seg_path = cmd_path[seg_cmd]
+    path_start = np.r_[True, seg_path[1:] != seg_path[:-1]] if len(seg_path) else np.zeros(0, dtype=bool)
+    seg_rel[path_start] = False  # a path's first moveto is relative to (0, 0): absolute
+    start = (np.cumsum(counts) - counts)[seg_cmd] + within * arity[seg_cmd]
+    end_x, end_y = _current_points(nums, seg_kind, seg_rel, start)
+    prev_x = np.r_[0.0, end_x[:-1]]
+    prev_y = np.r_[0.0, end_y[:-1]]
+    return _emit(nums, seg_kind, seg_rel, start, prev_x, prev_y, end_x, end_y, seg_path), ok
 
 
-def to_drawing(raw: RawSegments, transforms: np.ndarray, entities: list[Entity]) -> Drawing:
-    """Apply each row's transform (``transforms[k]`` = a b c d e f, user units -> mm) and build a Drawing."""
-    def table(kind: str) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        width = ROW_WIDTH[kind]
-        rows = np.frombuffer(raw.rows[kind], dtype=float).reshape(-1, width)
-        ent = np.frombuffer(raw.entity[kind], dtype=np.int64)
-        m = transforms[np.frombuffer(raw.transform[kind], dtype=np.int64)]
-        return rows, ent, m
-
-    rows, ent, m = table("line")
-    lines = Lines(_points(m, rows[:, 0:2]), _points(m, rows[:, 2:4]), ent.copy())
-
-    beziers = {}
-    for kind, degree in (("quad", 2), ("cubic", 3)):
-        rows, ent, m = table(kind)
-        if len(rows):
-            ctrl = np.stack([_points(m, rows[:, 2 * j:2 * j + 2]) for j in range(degree + 1)], axis=1)
-            beziers[degree] = Beziers(ctrl, np.ones((len(rows), degree + 1)), ent.copy())
-
-    rows, ent_a, m_a = table("arc")
-    c, u, v, t0, t1 = endpoint_to_centre(rows)
-    rows_e, ent_e, m_e = table("ellipse")
-    m = np.concatenate([m_a, m_e])
-    arcs = EllipticArcs(
-        _points(m, np.concatenate([c, rows_e[:, 0:2]])),
-        _vectors(m, np.concatenate([u, rows_e[:, 2:4]])),
-        _vectors(m, np.concatenate([v, rows_e[:, 4:6]])),
-        np.concatenate([t0, rows_e[:, 6]]), np.concatenate([t1, rows_e[:, 7]]),
-        np.concatenate([ent_a, ent_e]),
-    )
-    return Drawing(lines, arcs, beziers, entities)
-
-
-def _vectors(m: np.ndarray, p: np.ndarray) -> np.ndarray:
-    out = np.zeros((len(p), 3))
-    out[:, 0] = m[:, 0] * p[:, 0] + m[:, 2] * p[:, 1]
-    out[:, 1] = m[:, 1] * p[:, 0] + m[:, 3] * p[:, 1]
+def _to_floats(tokens: list[list[str]], counts: np.ndarray, cmd_path: np.ndarray, ok: np.ndarray) -> np.ndarray:
+    """All numbers as one array; paths whose numbers do not convert (packed "1-2") are marked not ok."""
+    try:
+        return np.array(list(itertools.chain.from_iterable(tokens)), dtype=np.float64)
+    except ValueError:
+        pass
+    out = np.zeros(int(counts.sum()))
+    pos = 0
+    for t, p in zip(tokens, cmd_path.tolist(), strict=True):
+        try:
+            out[pos:pos + len(t)] = [float(x) for x in t]
+        except ValueError:
+            ok[p] = False
+        pos += len(t)
     return out
 
 
-def _points(m: np.ndarray, p: np.ndarray) -> np.ndarray:
-    out = _vectors(m, p)
-    out[:, 0] += m[:, 4]
-    out[:, 1] += m[:, 5]
+def _current_points(nums: np.ndarray, kind: np.ndarray, rel: np.ndarray,
+                    start: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The current point after each segment: a running sum with resets, so one sequential loop."""
+    gx, gy = _END_X[kind], _END_Y[kind]
+    vx = np.where(gx >= 0, nums[np.minimum(start + gx, len(nums) - 1)] if len(nums) else 0.0, 0.0)
+    vy = np.where(gy >= 0, nums[np.minimum(start + gy, len(nums) - 1)] if len(nums) else 0.0, 0.0)
+    abs_x = (gx >= 0) & ~rel  # H/V keep the other coordinate: a relative move by 0
+    abs_y = (gy >= 0) & ~rel
+    ex, ey = [0.0] * len(kind), [0.0] * len(kind)
+    x = y = sx = sy = 0.0
+    for i, (k, ax, px, ay, py) in enumerate(zip(kind.tolist(), abs_x.tolist(), vx.tolist(), abs_y.tolist(),
+                                                vy.tolist(), strict=True)):
+        if k == Z:
+            x, y = sx, sy
+        else:
+            x = px if ax else x + px
+            y = py if ay else y + py
+            if k == M:
+                sx, sy = x, y
+        ex[i] = x
+        ey[i] = y
+    return np.array(ex), np.array(ey)
+
+
+def _emit(nums: np.ndarray, kind: np.ndarray, rel: np.ndarray, start: np.ndarray, px: np.ndarray, py: np.ndarray,
+          ex: np.ndarray, ey: np.ndarray, path: np.ndarray) -> dict[str, tuple[np.ndarray, np.ndarray]]:
+    """Rows of every kind with the path each row belongs to, from the segment table and current points."""
+    def point(rows: np.ndarray, offset: int) -> tuple[np.ndarray, np.ndarray]:
+        """An absolute point given at ``offset`` among each row's numbers."""
+        r = rel[rows]
+        return (nums[start[rows] + offset] + np.where(r, px[rows], 0.0),
+                nums[start[rows] + offset + 1] + np.where(r, py[rows], 0.0))
+
+    straight = np.isin(kind, (L, H, V)) | ((kind == Z) & ((px != ex) | (py != ey)))
+    lines = [np.stack([px[straight], py[straight], ex[straight], ey[straight]], axis=1)]
+    line_path = [path[straight]]
+    out: dict[str, tuple[np.ndarray, np.ndarray]] = {}
+
+    cubic = np.flatnonzero((kind == C) | (kind == S))
+    c2x, c2y = np.zeros(len(kind)), np.zeros(len(kind))
+    is_c = kind[cubic] == C
+    c2x[cubic], c2y[cubic] = point(cubic, np.where(is_c, 2, 0))
+    c1x, c1y = px[cubic].copy(), py[cubic].copy()
+    explicit = cubic[is_c]
+    c1x[is_c], c1y[is_c] = point(explicit, 0)
+    smooth = cubic[~is_c]
+    follows = (smooth > 0) & np.isin(kind[np.maximum(smooth - 1, 0)], (C, S))
+    refl = smooth[follows]
+    sel = np.flatnonzero(~is_c)[follows]
+    c1x[sel] = 2 * px[refl] - c2x[refl - 1]
+    c1y[sel] = 2 * py[refl] - c2y[refl - 1]
+    out["cubic"] = (np.stack([px[cubic], py[cubic], c1x, c1y, c2x[cubic], c2y[cubic], ex[cubic], ey[cubic]],
+                             axis=1), path[cubic])
+
+    quad = np.flatnonzero((kind == Q) | (kind == T))
+    qx, qy = np.zeros(len(kind)), np.zeros(len(kind))
+    explicit = quad[kind[quad] == Q]
+    qx[explicit], qy[explicit] = point(explicit, 0)
+    for i in quad[kind[quad] == T].tolist():  # each smooth control point reflects the previous one
+        if i > 0 and kind[i - 1] in (Q, T):
+            qx[i], qy[i] = 2 * px[i] - qx[i - 1], 2 * py[i] - qy[i - 1]
+        else:
+            qx[i], qy[i] = px[i], py[i]
+    out["quad"] = (np.stack([px[quad], py[quad], qx[quad], qy[quad], ex[quad], ey[quad]], axis=1), path[quad])
+
+    arc = np.flatnonzero(kind == A)
+    moved = (ex[arc] != px[arc]) | (ey[arc] != py[arc])  # SVG 1.1 F.6.2: identical endpoints -> omitted
+    arc = arc[moved]
+    rx, ry = np.abs(nums[start[arc]]), np.abs(nums[start[arc] + 1])
+    flat = (rx == 0) | (ry == 0)  # F.6.2: a zero radius -> straight line
+    lines.append(np.stack([px[arc[flat]], py[arc[flat]], ex[arc[flat]], ey[arc[flat]]], axis=1))
+    line_path.append(path[arc[flat]])
+    a = arc[~flat]
+    out["arc"] = (np.stack([px[a], py[a], rx[~flat], ry[~flat], nums[start[a] + 2], nums[start[a] + 3],
+                            nums[start[a] + 4], ex[a], ey[a]], axis=1), path[a])
+    out["line"] = (np.concatenate(lines), np.concatenate(line_path))
     return out
-
-
-def full_ellipse(cx: float, cy: float, rx: float, ry: float, out: RawSegments) -> None:
-    """A whole ellipse (or circle) with axes along x and y, starting at (cx + rx, cy)."""
-    out.rows["ellipse"].extend((cx, cy, rx, 0.0, 0.0, ry, 0.0, 2.0 * math.pi))

@@ -1,0 +1,133 @@
+"""Raw 2-D segments of an SVG document and their conversion to a :class:`~pathlen.geometry.Drawing`.
+
+Segments are stored in flat ``array('d')`` rows per kind, in user units, each row tagged with an
+entity index and a transform index; :func:`to_drawing` converts arcs from endpoint to centre form
+and applies all transforms in one vectorised step per kind.
+"""
+
+from __future__ import annotations
+
+import math
+from array import array
+
+import numpy as np
+
+from pathlen.geometry import Beziers, Drawing, EllipticArcs, Entity, Lines
+
+#: Numbers per row: line x0 y0 x1 y1; quad 3 points; cubic 4 points; arc in endpoint form
+#: x1 y1 rx ry phi(deg) large sweep x2 y2; ellipse in centre form cx cy ux uy vx vy t0 t1.
+ROW_WIDTH = {"line": 4, "quad": 6, "cubic": 8, "arc": 9, "ellipse": 8}
+
+
+class RawSegments:
+    """Segments in user units, before transforms, with per-row entity and transform tags."""
+
+    def __init__(self) -> None:
+        self.rows = {k: array("d") for k in ROW_WIDTH}
+        self.entity = {k: array("q") for k in ROW_WIDTH}
+        self.transform = {k: array("q") for k in ROW_WIDTH}
+
+    def add(self, kind: str, rows: np.ndarray) -> None:
+        """Append rows ``[n, ROW_WIDTH[kind]]`` in one step."""
+        if len(rows):
+            self.rows[kind].frombytes(np.ascontiguousarray(rows, dtype=np.float64).tobytes())
+
+    def tag(self, entity: int, transform: int) -> int:
+        """Tag every untagged row with ``entity`` and ``transform``; returns how many rows that was."""
+        added = 0
+        for kind, width in ROW_WIDTH.items():
+            n = len(self.rows[kind]) // width - len(self.entity[kind])
+            if n:
+                self.entity[kind].extend(array("q", [entity]) * n)
+                self.transform[kind].extend(array("q", [transform]) * n)
+                added += n
+        return added
+
+
+def endpoint_to_centre(rows: np.ndarray) -> tuple[np.ndarray, ...]:
+    """Arcs in endpoint form -> ``(centre, u, v, t0, t1)`` with point(t) = c + u cos t + v sin t.
+
+    ``rows`` is ``[n, 9]``: x1 y1 rx ry phi(deg) large sweep x2 y2, radii positive, endpoints
+    distinct.  Implements SVG 1.1 appendix F.6.5 (conversion to centre parameters) with the
+    radius correction of F.6.6 (radii too small to reach are scaled up by sqrt(Λ)).  The
+    direction of travel is kept: a negative sweep flips ``v`` and the parameter's sign, so t
+    always increases from the start point to the end point.
+    """
+    x1, y1, rx, ry, phi, large, sweep, x2, y2 = rows.T
+    phi = np.radians(phi % 360.0)
+    cos, sin = np.cos(phi), np.sin(phi)
+    dx, dy = (x1 - x2) / 2.0, (y1 - y2) / 2.0
+    x1p = cos * dx + sin * dy
+    y1p = -sin * dx + cos * dy
+    lam = (x1p / rx) ** 2 + (y1p / ry) ** 2
+    grow = np.sqrt(np.maximum(lam, 1.0))
+    rx, ry = rx * grow, ry * grow
+    # F.6.5.2: sqrt((rx²ry² − rx²y1'² − ry²x1'²)/(rx²y1'² + ry²x1'²)) = sqrt(1/Λ − 1), 0 when scaled up
+    coef = np.sqrt(np.maximum(1.0 / lam - 1.0, 0.0)) * np.where(large != sweep, 1.0, -1.0)
+    cxp = coef * rx * y1p / ry
+    cyp = -coef * ry * x1p / rx
+    cx = cos * cxp - sin * cyp + (x1 + x2) / 2.0
+    cy = sin * cxp + cos * cyp + (y1 + y2) / 2.0
+    th1 = np.arctan2((y1p - cyp) / ry, (x1p - cxp) / rx)
+    th2 = np.arctan2((-y1p - cyp) / ry, (-x1p - cxp) / rx)
+    dth = np.mod(th2 - th1, 2.0 * np.pi)
+    dth = np.where((sweep == 0) & (dth > 0), dth - 2.0 * np.pi, dth)
+    u = np.stack([rx * cos, rx * sin], axis=1)
+    v = np.stack([-ry * sin, ry * cos], axis=1)
+    back = dth < 0
+    v[back] *= -1.0
+    t0 = np.where(back, -th1, th1)
+    t1 = t0 + np.abs(dth)
+    return np.stack([cx, cy], axis=1), u, v, t0, t1
+
+
+def to_drawing(raw: RawSegments, transforms: np.ndarray, entities: list[Entity]) -> Drawing:
+    """Apply each row's transform (``transforms[k]`` = a b c d e f, user units -> mm) and build a Drawing."""
+    def table(kind: str) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        width = ROW_WIDTH[kind]
+        rows = np.frombuffer(raw.rows[kind], dtype=float).reshape(-1, width)
+        ent = np.frombuffer(raw.entity[kind], dtype=np.int64)
+        m = transforms[np.frombuffer(raw.transform[kind], dtype=np.int64)]
+        return rows, ent, m
+
+    rows, ent, m = table("line")
+    lines = Lines(_points(m, rows[:, 0:2]), _points(m, rows[:, 2:4]), ent.copy())
+
+    beziers = {}
+    for kind, degree in (("quad", 2), ("cubic", 3)):
+        rows, ent, m = table(kind)
+        if len(rows):
+            ctrl = np.stack([_points(m, rows[:, 2 * j:2 * j + 2]) for j in range(degree + 1)], axis=1)
+            beziers[degree] = Beziers(ctrl, np.ones((len(rows), degree + 1)), ent.copy())
+
+    rows, ent_a, m_a = table("arc")
+    c, u, v, t0, t1 = endpoint_to_centre(rows)
+    rows_e, ent_e, m_e = table("ellipse")
+    m = np.concatenate([m_a, m_e])
+    arcs = EllipticArcs(
+        _points(m, np.concatenate([c, rows_e[:, 0:2]])),
+        _vectors(m, np.concatenate([u, rows_e[:, 2:4]])),
+        _vectors(m, np.concatenate([v, rows_e[:, 4:6]])),
+        np.concatenate([t0, rows_e[:, 6]]), np.concatenate([t1, rows_e[:, 7]]),
+        np.concatenate([ent_a, ent_e]),
+    )
+    return Drawing(lines, arcs, beziers, entities)
+
+
+def _vectors(m: np.ndarray, p: np.ndarray) -> np.ndarray:
+    out = np.zeros((len(p), 3))
+    out[:, 0] = m[:, 0] * p[:, 0] + m[:, 2] * p[:, 1]
+    out[:, 1] = m[:, 1] * p[:, 0] + m[:, 3] * p[:, 1]
+    return out
+
+
+def _points(m: np.ndarray, p: np.ndarray) -> np.ndarray:
+    out = _vectors(m, p)
+    out[:, 0] += m[:, 4]
+    out[:, 1] += m[:, 5]
+    return out
+
+
+def full_ellipse(cx: float, cy: float, rx: float, ry: float, out: RawSegments) -> None:
+    """A whole ellipse (or circle) with axes along x and y, starting at (cx + rx, cy)."""
+    out.rows["ellipse"].extend((cx, cy, rx, 0.0, 0.0, ry, 0.0, 2.0 * math.pi))

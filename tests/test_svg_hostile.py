@@ -1,0 +1,127 @@
+"""Hostile and broken SVG files: each fails alone with one line, nothing leaks, the batch goes on."""
+
+import json
+
+import pytest
+
+from pathlen.batch import measure_file
+from pathlen.cli import main
+from pathlen.importers import svg as svg_module
+
+GOOD = '<svg xmlns="http://www.w3.org/2000/svg" width="10mm" height="10mm" viewBox="0 0 10 10"><line x2="10"/></svg>'
+
+
+def check_fails(path, *words):
+    result = measure_file(str(path))
+    assert result.ok is False
+    assert "\n" not in result.error and "Traceback" not in result.error
+    for w in words:
+        assert w in result.error
+    return result
+
+
+def test_billion_laughs_is_refused(tmp_path):
+    # The classic entity-expansion bomb (10 levels of 10 references: 10^9 "lol"s if expanded).
+    levels = ['<!ENTITY lol "lol">'] + [
+        f'<!ENTITY lol{i} "{("&lol" + (str(i - 1) if i > 1 else "") + ";") * 10}">' for i in range(1, 10)]
+    bomb = tmp_path / "bomb.svg"
+    bomb.write_text(f'<?xml version="1.0"?><!DOCTYPE svg [{"".join(levels)}]>'
+                    '<svg xmlns="http://www.w3.org/2000/svg"><text>&lol9;</text></svg>')
+    check_fails(bomb, "unsafe XML", "entities")
+
+
+def test_external_entity_is_refused_and_never_read(tmp_path, runner):
+    secret = tmp_path / "secret.txt"
+    secret.write_text("TOP-SECRET-PASSPHRASE")
+    xxe = tmp_path / "xxe.svg"
+    xxe.write_text(f'<?xml version="1.0"?><!DOCTYPE svg [<!ENTITY leak SYSTEM "file://{secret}">]>'
+                   '<svg xmlns="http://www.w3.org/2000/svg" id="&leak;"><g id="&leak;"><line x2="5"/></g></svg>')
+    good = tmp_path / "good.svg"
+    good.write_text(GOOD)
+    for fmt in ("json", "csv", "table"):
+        res = runner.invoke(main, ["measure", str(xxe), str(good), "--format", fmt])
+        assert res.exit_code == 1
+        assert "TOP-SECRET" not in res.output
+    res = runner.invoke(main, ["measure", str(xxe), str(good), "--format", "json"])
+    files = json.loads(res.stdout)["files"]
+    assert files[0]["ok"] is False and "unsafe XML" in files[0]["error"]
+    assert files[1]["ok"] is True and files[1]["length"] == pytest.approx(10.0)
+
+
+@pytest.mark.parametrize("text", ["<svg xmlns='http://www.w3.org/2000/svg'><g></svg>", "<svg", "\x00\x01binary",
+                                  "just words"])
+def test_malformed_xml(tmp_path, text):
+    path = tmp_path / "bad.svg"
+    path.write_text(text)
+    check_fails(path, "XML")
+
+
+def test_not_svg_and_empty(tmp_path):
+    html = tmp_path / "page.svg"
+    html.write_text("<html><body/></html>")
+    check_fails(html, "not an SVG file", "<html>")
+    empty = tmp_path / "empty.svg"
+    empty.write_text("")
+    check_fails(empty, "empty file")
+    check_fails(tmp_path / "missing.svg", "no such file")
+
+
+def test_deep_nesting_is_refused(tmp_path):
+    deep = tmp_path / "deep.svg"
+    deep.write_text('<svg xmlns="http://www.w3.org/2000/svg">' + "<g>" * 10_000 + '<line x2="1"/>' + "</g>" * 10_000
+                    + "</svg>")
+    check_fails(deep, "nested more than")
+
+
+def test_deep_but_allowed_nesting_is_measured(tmp_path):
+    depth = svg_module.MAX_DEPTH - 3
+    ok = tmp_path / "ok.svg"
+    ok.write_text('<svg xmlns="http://www.w3.org/2000/svg" width="10mm" height="10mm" viewBox="0 0 10 10">'
+                  + "<g>" * depth + '<line x2="3"/>' + "</g>" * depth + "</svg>")
+    assert measure_file(str(ok)).length_mm == pytest.approx(3.0)
+
+
+def test_huge_file_is_refused_before_reading(tmp_path):
+    # A sparse 200 MB file: refused on its size, so nothing is read into memory.
+    big = tmp_path / "big.svg"
+    with big.open("wb") as f:
+        f.truncate(200 * 1024 * 1024)
+    check_fails(big, "refused", "MB")
+
+
+def test_use_bomb_is_refused(tmp_path, monkeypatch):
+    # <use> of <use>: every level multiplies the copies (10 levels of 10 -> 10^10 segments if expanded).
+    monkeypatch.setattr(svg_module, "MAX_SEGMENTS", 50_000)
+    levels = ['<g id="u0"><line x2="1"/></g>'] + [
+        f'<g id="u{i}">' + f'<use href="#u{i - 1}"/>' * 10 + "</g>" for i in range(1, 10)]
+    bomb = tmp_path / "usebomb.svg"
+    bomb.write_text(f'<svg xmlns="http://www.w3.org/2000/svg"><defs>{"".join(levels)}</defs>'
+                    '<use href="#u9"/></svg>')
+    check_fails(bomb, "segments", "refused")
+
+
+def test_pathological_path_data_is_linear(tmp_path):
+    # A long run of digits then junk would make a backtracking number pattern explode; here it must not.
+    path = tmp_path / "redos.svg"
+    path.write_text('<svg xmlns="http://www.w3.org/2000/svg" width="1mm" height="1mm"><path d="M0 0 L'
+                    + "1" * 20_000 + ' x"/><line x2="1"/></svg>')
+    result = measure_file(str(path))
+    assert result.ok and any("path" in w for w in result.warnings)
+
+
+@pytest.mark.parametrize(("attrs", "words"), [
+    ('width="10mm" height="10mm" viewBox="0 0 0 10"', ("viewBox",)),
+    ('width="0mm" height="10mm"', ("zero or negative",)),
+    ('width="10furlongs" height="10mm"', ("unit",)),
+])
+def test_bad_root_sizes(tmp_path, attrs, words):
+    path = tmp_path / "size.svg"
+    path.write_text(f'<svg xmlns="http://www.w3.org/2000/svg" {attrs}><line x2="1"/></svg>')
+    check_fails(path, *words)
+
+
+def test_non_finite_and_absurd_coordinates(tmp_path):
+    path = tmp_path / "far.svg"
+    path.write_text('<svg xmlns="http://www.w3.org/2000/svg" width="1mm" height="1mm">'
+                    '<line id="far" x2="1e300"/></svg>')
+    check_fails(path, "line #far", "coordinates")
