@@ -9,13 +9,15 @@ as whole processes on the same file:
 2. ``svgpathtools.svg2paths(FILE)`` and the sum of every segment's ``.length()``.
 
 Both totals are printed; they must agree (svgpathtools is right on this file: no transforms,
-viewBox equal to the size in px).  Also prints where pathlen's time goes (import, measure).
+viewBox equal to the size in px).  Also prints where pathlen's time goes (import, measure) and
+the peak memory of the pathlen process.
 """
 
 from __future__ import annotations
 
 import argparse
 import json
+import resource
 import subprocess
 import sys
 import tempfile
@@ -90,11 +92,14 @@ def main() -> None:
         t_ours, out = timed([sys.executable, "-m", "pathlen", "measure", str(svg), "--format", "json",
                              "--svg-dpi", "25.4"])
         ours = json.loads(out)["total"]
+        peak_mb = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024  # Linux: kB
         t_ref, out = timed([sys.executable, "-c", SVGPATHTOOLS_SCRIPT, str(svg)])
         ref = float(out)
         print(f"{'method (whole process)':34s} {'wall s':>8s}  {'total length':>22s}")
         print(f"{'pathlen measure':34s} {t_ours:8.2f}  {ours['length']:22.12f} ± {ours['error_bound']:.1e}")
         print(f"{'svgpathtools svg2paths + length()':34s} {t_ref:8.2f}  {ref:22.12f}")
+        print(f"pathlen peak memory {peak_mb:.0f} MB ({peak_mb * 2**20 / svg.stat().st_size:.0f}x "
+              f"the file size)")
         print(f"speed-up {t_ref / t_ours:.1f}x; totals differ by {abs(ref - ours['length']) / ref:.1e} relative "
               f"(pathlen in-process total {result.length:.12f})")
 

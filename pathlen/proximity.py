@@ -31,19 +31,23 @@ def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -
     keys = _cell_keys(cell, group)
     order = np.argsort(keys, kind="stable")
     keys, cell, grp = keys[order], cell[order], group[order]
-    found = [_pairs_in_same_cell(keys)]
+    sorted_points = points[order]
+
+    def near(pairs: IntArray) -> IntArray:
+        """Keep candidate pairs (positions in sorted order) within ``tol`` and in one group."""
+        d = sorted_points[pairs[:, 0]] - sorted_points[pairs[:, 1]]
+        keep = (np.einsum("ij,ij->i", d, d) <= tol * tol) & (grp[pairs[:, 0]] == grp[pairs[:, 1]])
+        return pairs[keep]
+
+    found = [near(_pairs_in_same_cell(keys))]
     flat = not cell[:, 2].any()  # a 2-D drawing: neighbours above and below are empty
+    rows = np.arange(n)
     for off in _FORWARD[_FORWARD[:, 2] == 0] if flat else _FORWARD:
         probe = _cell_keys(cell + off, grp)
         lo = np.searchsorted(keys, probe, side="left")
         hi = np.searchsorted(keys, probe, side="right")
-        found.append(_expand(np.arange(n), lo, hi))
-    pairs = np.concatenate(found)
-    pairs = order[pairs]
-    d = points[pairs[:, 0]] - points[pairs[:, 1]]
-    keep = (np.einsum("ij,ij->i", d, d) <= tol * tol) & (group[pairs[:, 0]] == group[pairs[:, 1]])
-    pairs = np.sort(pairs[keep], axis=1)
-    return pairs
+        found.append(near(_expand(rows, lo, hi)))
+    return np.sort(order[np.concatenate(found)], axis=1)
 
 
 def _cell_keys(cell: IntArray, group: IntArray) -> np.ndarray:

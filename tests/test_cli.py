@@ -111,3 +111,51 @@ def test_other_file_types_fail_alone(runner, square, tmp_path):
     files = json.loads(res.stdout)["files"]
     assert files[0]["error"] == "unsupported file type '.txt': expected .dxf or .svg"
     assert files[1]["ok"] is True
+
+
+def test_demo_svg_lamp_panel(runner):
+    # fixtures/kl412_lamp_panel.svg: 180 mm wide showing 360 user units (0.5 mm each).  Expected CUT
+    # length from classical results: rounded rectangle = straight sides + one ellipse of semi-axes
+    # (24, 16); two circles r = 9; an ellipse (70, 40), rotated; two slots from a symbol scaled x2,
+    # each 2 * (10 + 10) straight + two semicircles of r = 10. Ellipse perimeters: 4 a E(1 - b²/a²)
+    # with mpmath.ellipe (complete elliptic integral of the second kind).
+    import mpmath as mp
+
+    def perimeter(a, b):
+        return 4 * a * float(mp.ellipe(1 - (b / a) ** 2))
+
+    res = runner.invoke(main, ["measure", str(FIXTURES / "kl412_lamp_panel.svg"), "--format", "json"])
+    assert res.exit_code == 0, res.output
+    f = json.loads(res.stdout)["files"][0]
+    cut_units = (2 * (340 - 48) + 2 * (220 - 32) + perimeter(24, 16) + 2 * 2 * math.pi * 9 + perimeter(70, 40)
+                 + 2 * (2 * 20 + 2 * math.pi * 10))
+    assert f["layers"]["CUT"]["length"] == pytest.approx(cut_units / 2, rel=1e-12)
+    assert f["colors"]["#ff0000"]["length"] == pytest.approx(f["layers"]["CUT"]["length"], rel=1e-15)
+    assert f["colors"]["#0000ff"]["count"] == 3
+    assert f["contours"] == {"closed": 6, "open": 3}
+    assert f["warnings"] == ["1 <text> element not measured"]
+
+
+def test_mixed_dxf_and_svg_batch(runner, square, tmp_path):
+    svg = tmp_path / "ring.svg"
+    svg.write_text('<svg xmlns="http://www.w3.org/2000/svg" width="2in" height="2in" viewBox="0 0 2 2">'
+                   '<circle cx="1" cy="1" r="0.5"/></svg>')
+    bad = tmp_path / "broken.svg"
+    bad.write_text("<svg")
+    res = runner.invoke(main, ["measure", str(tmp_path), "--format", "json", "--units", "in"])
+    assert res.exit_code == 1
+    files = {Path(f["path"]).name: f for f in json.loads(res.stdout)["files"]}
+    assert files["broken.svg"]["ok"] is False
+    assert files["ring.svg"]["length"] == pytest.approx(math.pi, rel=1e-14)  # circle 2πr, r = 0.5 in
+    assert files["square.dxf"]["length"] == pytest.approx(8 + math.pi, rel=1e-14)
+    assert files["square.dxf"]["colors"] == {}
+
+
+def test_svg_dpi_option(runner, tmp_path):
+    svg = tmp_path / "px.svg"
+    svg.write_text('<svg xmlns="http://www.w3.org/2000/svg" width="300" height="300"><line x2="90"/></svg>')
+    res = runner.invoke(main, ["measure", str(svg), "--format", "json", "--svg-dpi", "90"])
+    f = json.loads(res.stdout)["files"][0]
+    assert f["length"] == pytest.approx(25.4, rel=1e-14) and f["warnings"] == []  # 90 px at 90 px/in = 1 in
+    res = runner.invoke(main, ["measure", str(svg), "--svg-dpi", "0"])
+    assert res.exit_code == 2

@@ -1,0 +1,39 @@
+"""Grid-hash neighbour search and components against scipy's KD-tree and graph routines."""
+
+import numpy as np
+import pytest
+from scipy.sparse import coo_matrix
+from scipy.sparse.csgraph import connected_components
+from scipy.spatial import cKDTree
+
+from pathlen.proximity import close_pairs, components
+
+
+@pytest.mark.parametrize(("n", "tol", "dims", "seed"), [(500, 0.3, 3, 1), (3000, 0.05, 2, 2), (2000, 0.0, 2, 3),
+                                                        (50, 100.0, 3, 4), (1, 1.0, 2, 5)])
+def test_close_pairs_match_kdtree(n, tol, dims, seed):
+    # Reference: scipy.spatial.cKDTree.query_pairs (all pairs within a distance), filtered by group.
+    rng = np.random.default_rng(seed)
+    p = np.zeros((n, 3))
+    p[:, :dims] = rng.uniform(-20, 20, (n, dims))
+    p = np.concatenate([p, p[: n // 2] + rng.normal(0, max(tol, 1e-3) / 2, (n // 2, 3)) * (np.arange(3) < dims)])
+    p[:10] = p[10:20] if len(p) >= 20 else p[:10]  # exact duplicates too
+    group = rng.integers(0, 4, len(p))
+    ours = {tuple(x) for x in close_pairs(p, tol, group)}
+    ref = cKDTree(p).query_pairs(tol, output_type="ndarray")
+    ref = {tuple(sorted(x)) for x in ref if group[x[0]] == group[x[1]]}
+    assert ours == ref
+
+
+def test_components_match_scipy():
+    # Reference: scipy.sparse.csgraph.connected_components on the same undirected edges.
+    rng = np.random.default_rng(7)
+    n = 5000
+    a, b = rng.integers(0, n, 4000), rng.integers(0, n, 4000)
+    ours = components(n, a, b)
+    count, ref = connected_components(coo_matrix((np.ones(len(a)), (a, b)), shape=(n, n)), directed=False)
+    assert len(np.unique(ours)) == count
+    # the same partition: a bijection between labels
+    pairs = set(zip(ours.tolist(), ref.tolist(), strict=True))
+    assert len(pairs) == count
+    assert np.all(ours <= np.arange(n))  # each label is the smallest member
