@@ -1,0 +1,219 @@
+"""Cutting order: which contour next, so the head travels little and holes come before their part.
+
+Each contour is entered at its pierce point and left at its last point (the same point for a
+closed contour; an open contour may be cut either way round).  The order starts at ``home`` and
+is built by nearest neighbour among the contours that are *ready* (every contour inside them is
+done: holes before the outer profile, or a part falls out before its holes are cut), then
+improved by 2-opt (reverse a stretch of the order when that shortens it and keeps every hole
+before its container) until no move helps.  Long jobs use a window of the nearest few positions,
+so a pass costs ``O(n · window)``.  The file's own order is kept when it is valid and shorter.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.spatial import cKDTree
+
+from pathlen.geometry import FloatArray, IntArray
+
+#: Largest number of contours for which 2-opt compares every pair of positions.
+FULL_2OPT = 400
+#: Positions compared by windowed 2-opt on longer jobs.
+WINDOW = 12
+#: Rounds of windowed 2-opt on longer jobs (each applies every non-overlapping improving move).
+WINDOW_ROUNDS = 6
+#: Largest job started by nearest neighbour; longer ones start from a Hilbert-curve order,
+#: which costs O(n log n) instead of a k-d tree query per contour.
+NEAREST_NEIGHBOUR_MAX = 4000
+
+
+@dataclass(frozen=True)
+class Tour:
+    order: IntArray  # contour indices in cutting order
+    reverse: np.ndarray  # per contour (indexed by contour): cut from its end to its start
+    rapid_moves: FloatArray  # length of each rapid move, mm (home to first pierce, then between contours)
+
+    @property
+    def rapid_length(self) -> float:
+        return float(self.rapid_moves.sum())
+
+
+def plan_tour(start: FloatArray, end: FloatArray, closed: np.ndarray, parent: IntArray,
+              home: tuple[float, float] = (0.0, 0.0)) -> Tour:
+    """Order contours (2-D points ``start``/``end`` [n, 2], ``parent`` = innermost container or -1)."""
+    n = len(start)
+    home_pt = np.asarray(home, dtype=float)
+    if n == 0:
+        return Tour(np.zeros(0, dtype=np.int64), np.zeros(0, dtype=bool), np.zeros(0))
+    if n <= NEAREST_NEIGHBOUR_MAX:
+        order = _nearest_neighbour(start, parent, home_pt)
+    else:
+        order = _holes_first(_hilbert_order(start), parent)
+    order = _two_opt(start, order, parent, home_pt)
+    best = _orient(start, end, closed, order, home_pt)
+    file_order = np.arange(n)
+    if _valid(file_order, parent):
+        naive = _orient(start, end, closed, file_order, home_pt)
+        if naive.rapid_length < best.rapid_length:
+            best = naive
+    return best
+
+
+def tour_length(points: FloatArray, order: IntArray, home: FloatArray) -> float:
+    """Open path from ``home`` through ``points[order]`` (mm)."""
+    path = np.vstack([home[None, :], points[order]])
+    return float(np.linalg.norm(np.diff(path, axis=0), axis=1).sum())
+
+
+def _children_count(parent: IntArray) -> IntArray:
+    n = len(parent)
+    return np.bincount(parent[parent >= 0], minlength=n) if n else np.zeros(0, dtype=np.int64)
+
+
+def _valid(order: IntArray, parent: IntArray) -> bool:
+    pos = np.empty(len(order), dtype=np.int64)
+    pos[order] = np.arange(len(order))
+    has = parent >= 0
+    return bool(np.all(pos[has] < pos[parent[has]]))
+
+
+def _nearest_neighbour(points: FloatArray, parent: IntArray, home: FloatArray) -> IntArray:
+    """Greedy: from the current point, the nearest contour that is ready (a k-d tree, lazily skipping)."""
+    n = len(points)
+    tree = cKDTree(points)
+    waiting = _children_count(parent).tolist()
+    parent_l = parent.tolist()
+    done = bytearray(n)
+    order: list[int] = []
+    at = home
+    while len(order) < n:
+        k = 8
+        pick = -1
+        while pick < 0:
+            _, idx = tree.query(at, k=min(k, n))
+            for i in np.atleast_1d(idx).tolist():
+                if i < n and not done[i] and waiting[i] == 0:
+                    pick = i
+                    break
+            if pick < 0:
+                if k >= n:  # nothing ready near: take the first ready one anywhere
+                    pick = next(i for i in range(n) if not done[i] and waiting[i] == 0)
+                k *= 4
+        done[pick] = 1
+        order.append(pick)
+        if parent_l[pick] >= 0:
+            waiting[parent_l[pick]] -= 1
+        at = points[pick]
+    return np.array(order, dtype=np.int64)
+
+
+def _hilbert_order(points: FloatArray, bits: int = 16) -> IntArray:
+    """Points sorted along a Hilbert curve over their bounding box (nearby points stay nearby)."""
+    lo = points.min(axis=0)
+    span = max(float((points.max(axis=0) - lo).max()), 1e-300)
+    side = 1 << bits
+    x = np.minimum(((points[:, 0] - lo[0]) / span * (side - 1)).astype(np.int64), side - 1)
+    y = np.minimum(((points[:, 1] - lo[1]) / span * (side - 1)).astype(np.int64), side - 1)
+    d = np.zeros(len(points), dtype=np.int64)
+    s = side >> 1
+    while s > 0:  # the classic bit-by-bit index, vectorised over all points
+        rx = (x & s) > 0
+        ry = (y & s) > 0
+        d += s * s * ((3 * rx) ^ ry)
+        flip = ~ry
+        swap_x = np.where(flip & rx, s - 1 - x, x)
+        swap_y = np.where(flip & rx, s - 1 - y, y)
+        x, y = np.where(flip, swap_y, swap_x), np.where(flip, swap_x, swap_y)
+        s >>= 1
+    return np.argsort(d, kind="stable")
+
+
+def _holes_first(order: IntArray, parent: IntArray) -> IntArray:
+    """``order`` with each container moved to just after its last remaining hole."""
+    waiting = _children_count(parent).tolist()
+    parent_l = parent.tolist()
+    held = bytearray(len(order))
+    out: list[int] = []
+    for i in order.tolist():
+        if waiting[i]:
+            held[i] = 1
+            continue
+        while i >= 0:
+            out.append(i)
+            p = parent_l[i]
+            if p < 0:
+                break
+            waiting[p] -= 1
+            i = p if (waiting[p] == 0 and held[p]) else -1
+    return np.array(out, dtype=np.int64)
+
+
+def _two_opt(points: FloatArray, order: IntArray, parent: IntArray, home: FloatArray) -> IntArray:
+    """Reverse stretches of the order while that shortens the open path and keeps holes first.
+
+    Path position 0 is home and position k the k-th contour; reversing positions i+1 .. j swaps
+    the edges (i, i+1) and (j, j+1) for (i, j) and (i+1, j+1) (no edge after the last position).
+    Every round scores all moves within the window at once and applies the best ones that do not
+    overlap; rounds repeat until no move shortens the path.
+    """
+    n = len(order)
+    if n < 3:
+        return order
+    width = n if n <= FULL_2OPT else WINDOW
+    order = order.copy()
+    i = np.arange(n - 1)[:, None]
+    j = i + np.arange(2, width + 1)[None, :]
+    valid = j <= n
+    jc = np.minimum(j, n)
+    inner = j < n
+    after = np.minimum(j + 1, n)
+    for _ in range(10 * n if n <= FULL_2OPT else WINDOW_ROUNDS):
+        path = np.vstack([home[None, :], points[order]])
+        edge = np.linalg.norm(np.diff(path, axis=0), axis=1)
+        new = np.linalg.norm(path[jc] - path[i], axis=2) + np.where(
+            inner, np.linalg.norm(path[after] - path[i + 1], axis=2), 0.0)
+        old = edge[i] + np.where(inner, edge[np.minimum(j, n - 1)], 0.0)
+        delta = np.where(valid, new - old, 0.0)
+        best = np.argmin(delta, axis=1)
+        gain = delta[np.arange(n - 1), best]
+        rows = np.flatnonzero(gain < -1e-9 * (1.0 + edge[:-1]))
+        if len(rows) == 0:
+            break
+        taken = np.zeros(n + 2, dtype=bool)
+        applied = 0
+        for r in rows[np.argsort(gain[rows])].tolist():
+            end = int(j[r, best[r]])
+            if taken[r:end + 2].any() or not _stretch_keeps_holes_first(order[r:end], parent):
+                continue
+            order[r:end] = order[r:end][::-1].copy()
+            taken[r:end + 2] = True
+            applied += 1
+        if applied == 0:
+            break
+    return order
+
+
+def _stretch_keeps_holes_first(stretch: IntArray, parent: IntArray) -> bool:
+    """Reversing ``stretch`` is allowed when no contour in it has its container in it too."""
+    inside = np.zeros(len(parent), dtype=bool)
+    inside[stretch] = True
+    p = parent[stretch]
+    return not np.any((p >= 0) & inside[np.maximum(p, 0)])
+
+
+def _orient(start: FloatArray, end: FloatArray, closed: np.ndarray, order: IntArray, home: FloatArray) -> Tour:
+    """Choose, in order, which way round to cut each open contour (the nearer end first)."""
+    reverse = np.zeros(len(start), dtype=bool)
+    moves = np.zeros(len(order))
+    at = home
+    for k, i in enumerate(order.tolist()):
+        d_start = float(np.linalg.norm(start[i] - at))
+        if not closed[i]:
+            d_end = float(np.linalg.norm(end[i] - at))
+            if d_end < d_start:
+                reverse[i] = True
+        moves[k] = float(np.linalg.norm((end[i] if reverse[i] else start[i]) - at))
+        at = start[i] if (reverse[i] or closed[i]) else end[i]
+    return Tour(order, reverse, moves)

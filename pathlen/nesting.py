@@ -1,0 +1,72 @@
+"""Which closed contours lie inside which, and kerf offsets of closed contours (shapely geometry).
+
+Polygons here are built from the segment table's sample points: good for containment and for the
+*change* of length under an offset, never for a length itself (lengths come from ``measure``).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import shapely
+
+from pathlen.contours import Contour
+from pathlen.geometry import IntArray
+from pathlen.segments import SegmentTable
+
+#: Segments per quarter circle of the round joins that shapely's buffer draws.
+OFFSET_QUAD_SEGS = 64
+
+
+def contour_polygon(table: SegmentTable, contour: Contour) -> shapely.Polygon:
+    """The closed contour as a polygon through its sample points (x, y)."""
+    pieces = [table.samples[i] if f else table.samples[i][::-1] for i, f in
+              zip(contour.segments.tolist(), contour.forward.tolist(), strict=True)]
+    ring = np.concatenate(pieces)[:, :2]
+    return shapely.Polygon(ring).buffer(0) if len(ring) >= 4 else shapely.Polygon()
+
+
+def nesting_depth(table: SegmentTable, contours: list[Contour]) -> tuple[IntArray, IntArray, list[shapely.Polygon]]:
+    """For each contour: how many closed contours contain it, and the innermost one (-1: none).
+
+    A contour is inside another when its start point lies strictly inside the other's polygon
+    (any layer).  Even depth: an outer profile; odd depth: a hole.
+    """
+    n = len(contours)
+    polygons = [contour_polygon(table, c) if c.closed else shapely.Polygon() for c in contours]
+    depth = np.zeros(n, dtype=np.int64)
+    parent = np.full(n, -1, dtype=np.int64)
+    if n == 0:
+        return depth, parent, polygons
+    closed = np.array([c.closed and not p.is_empty for c, p in zip(contours, polygons, strict=True)])
+    idx = np.flatnonzero(closed)
+    if len(idx) == 0:
+        return depth, parent, polygons
+    tree = shapely.STRtree([polygons[i] for i in idx])
+    starts = shapely.points(np.array([c.start[:2] for c in contours]))
+    point_i, poly_j = tree.query(starts, predicate="within")
+    container = idx[poly_j]
+    keep = container != point_i
+    point_i, container = point_i[keep], container[keep]
+    np.add.at(depth, point_i, 1)
+    area = np.array([p.area for p in polygons])
+    order = np.lexsort((-area[container], point_i))  # per contour, smallest container last
+    last = np.r_[point_i[order][1:] != point_i[order][:-1], True]
+    parent[point_i[order][last]] = container[order][last]
+    return depth, parent, polygons
+
+
+def offset_length_change(polygon: shapely.Polygon, distance: float) -> float | None:
+    """Change of perimeter (mm) when the contour is offset by ``distance`` (mm; > 0 outwards).
+
+    Computed as the difference of two perimeters of the same sampled polygon, so the sampling
+    error of the contour largely cancels.  Round joins: the tool centre goes round every corner of
+    material on the scrap side and the offset curves meet sharp where material is concave.  None
+    when the inward offset leaves nothing (a hole narrower than the kerf).
+    """
+    if distance == 0 or polygon.is_empty:
+        return 0.0
+    moved = polygon.buffer(distance, quad_segs=OFFSET_QUAD_SEGS, join_style="round")
+    if moved.is_empty:
+        return None
+    return float(moved.exterior.length if moved.geom_type == "Polygon" else
+                 sum(g.exterior.length for g in moved.geoms)) - float(polygon.exterior.length)
