@@ -3,10 +3,11 @@
 from __future__ import annotations
 
 import os
-from collections.abc import Iterable, Iterator
+from collections.abc import Callable, Iterable, Iterator
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
@@ -106,21 +107,25 @@ def _totals_by(keys: list[str], length: np.ndarray, bound: np.ndarray) -> dict[s
     return {str(n): LayerTotal(float(a), float(b), int(c)) for n, a, b, c in rows}
 
 
-def run_batch(paths: list[str], settings: MeasureSettings, jobs: int = 1) -> Iterator[tuple[int, FileResult]]:
-    """Yield ``(index, result)`` for every path as results finish.
+def run_batch(paths: list[str], settings: Any, jobs: int = 1,
+              work: Callable[[str, Any], Any] = measure_file,
+              failed: Callable[..., Any] = FileResult) -> Iterator[tuple[int, Any]]:
+    """Yield ``(index, work(path, settings))`` for every path as results finish.
 
-    ``jobs > 1`` measures on a process pool; ``jobs = 0`` uses every core.
+    ``work`` never raises for bad input (it returns a failed result); ``jobs > 1`` runs on a
+    process pool, ``jobs = 0`` uses every core.  A worker that dies fails its file only, with
+    ``failed(path, ok=False, error=...)`` as its result.
     """
     workers = (os.cpu_count() or 1) if jobs == 0 else jobs
     if workers <= 1 or len(paths) == 1:
         for i, p in enumerate(paths):
-            yield i, measure_file(p, settings)
+            yield i, work(p, settings)
         return
     with ProcessPoolExecutor(max_workers=min(workers, len(paths))) as pool:
-        futures = {pool.submit(measure_file, p, settings): i for i, p in enumerate(paths)}
+        futures = {pool.submit(work, p, settings): i for i, p in enumerate(paths)}
         for fut in as_completed(futures):
             i = futures[fut]
             try:
                 yield i, fut.result()
             except Exception as exc:  # noqa: BLE001 - a dead worker fails its file only
-                yield i, FileResult(paths[i], ok=False, error=f"worker failed: {type(exc).__name__}")
+                yield i, failed(paths[i], ok=False, error=f"worker failed: {type(exc).__name__}")

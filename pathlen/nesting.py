@@ -70,3 +70,52 @@ def offset_length_change(polygon: shapely.Polygon, distance: float) -> float | N
         return None
     return float(moved.exterior.length if moved.geom_type == "Polygon" else
                  sum(g.exterior.length for g in moved.geoms)) - float(polygon.exterior.length)
+
+
+def _signed_angle(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Signed angle (rad, left turn positive) from directions ``a`` to ``b`` ([..., 2])."""
+    cross = a[..., 0] * b[..., 1] - a[..., 1] * b[..., 0]
+    dot = a[..., 0] * b[..., 0] + a[..., 1] * b[..., 1]
+    return np.arctan2(cross, dot)
+
+
+def contour_turning(table: SegmentTable, contour: Contour) -> tuple[float, np.ndarray]:
+    """Total tangent turning along the smooth parts (rad) and the turning at each corner, for the
+    closed contour as traversed (left turns positive).
+
+    A segment's turning is the angle from its start tangent to its first sample chord, through
+    every chord, to its end tangent: exact while the tangent turns less than half a turn between
+    samples (true for the sample density of the table).  Corners include the last-to-first joint.
+    """
+    idx, fwd = contour.segments, contour.forward
+    pts = table.samples[idx][:, :, :2]
+    pts = np.where(fwd[:, None, None], pts, pts[:, ::-1])
+    t_in = np.where(fwd[:, None], table.start_dir[idx], -table.end_dir[idx])[:, :2]
+    t_out = np.where(fwd[:, None], table.end_dir[idx], -table.start_dir[idx])[:, :2]
+    chords = np.diff(pts, axis=1)
+    moving = np.linalg.norm(chords, axis=2) > 0
+    smooth = 0.0
+    for k in range(len(idx)):  # per segment: tangent, chords (skipping repeated samples), tangent
+        steps = np.vstack([t_in[k][None, :], chords[k][moving[k]], t_out[k][None, :]])
+        smooth += float(_signed_angle(steps[:-1], steps[1:]).sum())
+    corners = _signed_angle(t_out, np.roll(t_in, -1, axis=0))
+    return smooth, corners
+
+
+def kerf_length_change(table: SegmentTable, contour: Contour, outward: float) -> float:
+    """Exact change of length (mm) of a closed contour offset by ``outward`` mm (negative: inwards).
+
+    With the contour traversed so that it turns left overall (counter-clockwise), an outward offset
+    by d is an offset to its right: smooth parts change by d ∫κ ds (their turning), a corner that
+    turns left by φ gains a round join of length d φ, and a corner that turns right by φ loses
+    2 d tan(φ/2) where the two offset sides meet.  (Steiner: a convex contour grows by 2π d.)
+    Valid while the offset curve does not cross itself (features larger than d).
+    """
+    smooth, corners = contour_turning(table, contour)
+    total = smooth + float(corners.sum())
+    side = np.sign(total) if total != 0 else 1.0  # +1 counter-clockwise
+    d = abs(outward)
+    sign = side if outward > 0 else -side  # turning as seen by an offset to the right
+    k, phi = sign * smooth, sign * corners
+    joins = np.where(phi > 0, d * phi, -2.0 * d * np.tan(np.abs(phi) / 2.0))
+    return float(d * k + joins.sum())

@@ -1,0 +1,141 @@
+"""Command line: ``pathlen cut PATH... --profile NAME`` and ``pathlen profiles``."""
+
+from __future__ import annotations
+
+import io
+import sys
+from pathlib import Path
+
+import click
+from rich.console import Console
+from rich.table import Table
+
+from pathlen.cli import check_reading_options, collect, drawing_files, main, reading_options, write_atomic
+from pathlen.errors import PathlenError
+from pathlen.estimates.cut import CutEstimate, CutSettings, cautions, cutting_feed_mm_min, estimate_file
+from pathlen.estimates.waterjet import WaterjetInputs, calibrated_machinability
+from pathlen.export import cut as cut_out
+from pathlen.importers import ImportOptions
+from pathlen.profiles import BUILTIN, Profile, load_profiles, write_setting
+
+
+def _layer_list(text: str | None) -> tuple[str, ...]:
+    return tuple(x.strip() for x in (text or "").split(",") if x.strip())
+
+
+def _profiles_or_exit(files: tuple[str, ...]) -> dict[str, Profile]:
+    try:
+        return load_profiles([Path(f) for f in files])
+    except PathlenError as exc:
+        raise click.UsageError(str(exc)) from None
+
+
+def _pick(profiles: dict[str, Profile], name: str | None) -> Profile:
+    if not name:
+        raise click.UsageError(f"--profile is required; one of: {', '.join(profiles)} (see 'pathlen profiles')")
+    if name not in profiles:
+        raise click.UsageError(f"no profile {name!r}; known: {', '.join(profiles)}")
+    return profiles[name]
+
+
+@main.command()
+@reading_options
+@click.option("--profile", "profile_name", metavar="NAME", help="Process profile (see 'pathlen profiles').")
+@click.option("--profiles", "profile_files", multiple=True, type=click.Path(dir_okay=False),
+              help="A TOML file of your own profiles (repeatable); its names replace built-in ones.")
+@click.option("--quantity", "-q", type=click.IntRange(min=1), default=1, show_default=True,
+              help="Parts of each drawing to cut.")
+@click.option("--layers", help="Comma-separated layers (or #rrggbb SVG stroke colours) to cut; default: all others.")
+@click.option("--engrave", help="Layers/colours marked at the profile's engrave feed, without piercing.")
+@click.option("--ignore", help="Layers/colours left out.")
+@click.option("--dedupe", is_flag=True, help="Cut segments drawn twice only once.")
+@click.option("--calibrate", "calibrate_speed", type=click.FloatRange(min=0, min_open=True), metavar="MM_MIN",
+              help="Waterjet: fit the profile's machinability to a test cut at this speed (mm/min) and write it "
+                   "back to the profile's file; PATHS are then not needed.")
+@click.option("--test-thickness", type=click.FloatRange(min=0, min_open=True), metavar="MM",
+              help="With --calibrate: thickness of the test cut (default: the profile's).")
+@click.option("--test-quality", type=click.FloatRange(1, 5), metavar="Q",
+              help="With --calibrate: quality level 1-5 of the test cut (default: the profile's).")
+def cut(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rtol: float, drawing_units: str | None,
+        svg_dpi: float | None, join_tol: float, jobs: int, profile_name: str | None, profile_files: tuple[str, ...],
+        quantity: int, layers: str | None, engrave: str | None, ignore: str | None, dedupe: bool,
+        calibrate_speed: float | None, test_thickness: float | None, test_quality: float | None) -> None:
+    """Estimate cutting time and cost of the drawings PATHS with a process profile."""
+    profiles = _profiles_or_exit(profile_files)
+    profile = _pick(profiles, profile_name)
+    if calibrate_speed is not None:
+        _calibrate(profile, calibrate_speed, test_thickness, test_quality)
+        return
+    check_reading_options(rtol, join_tol)
+    if engrave and profile.values.get("engrave_feed_mm_min") is None:
+        raise click.UsageError(f"profile {profile.name!r} has no engrave_feed_mm_min, needed for --engrave")
+    files = drawing_files(paths)
+    settings = CutSettings(profile, quantity, _layer_list(layers), _layer_list(engrave), _layer_list(ignore), dedupe,
+                           join_tol, rtol=rtol, import_options=ImportOptions(drawing_units, svg_dpi))
+    results: list[CutEstimate] = collect(files, settings, jobs, estimate_file, CutEstimate, "estimating")
+    notes = cautions(profile)
+    err = Console(stderr=True, highlight=False, soft_wrap=True)
+    for r in results:
+        if not r.ok:
+            err.print(f"[red]error[/red] {r.path}: {r.error}")
+    if fmt == "table":
+        if output:
+            buf = io.StringIO()
+            cut_out.render_table(results, units, profile, notes, Console(file=buf, width=120, color_system=None))
+            write_atomic(output, buf.getvalue())
+        else:
+            cut_out.render_table(results, units, profile, notes, Console(soft_wrap=False))
+    else:
+        text = (cut_out.render_json(results, units, profile, notes) if fmt == "json"
+                else cut_out.render_csv(results, units))
+        if output:
+            write_atomic(output, text)
+        else:
+            click.echo(text, nl=False)
+        for r in results:
+            for w in r.warnings:
+                err.print(f"warning {r.path}: {w}")
+        for c in notes:
+            err.print(f"caution: {c}")
+    sys.exit(1 if any(not r.ok for r in results) else 0)
+
+
+def _calibrate(profile: Profile, speed: float, thickness: float | None, quality: float | None) -> None:
+    v = profile.values
+    if v["process"] != "waterjet" or not profile.uses_waterjet_model:
+        raise click.UsageError(f"--calibrate needs a waterjet profile that uses the speed model ({profile.name!r} "
+                               "does not)")
+    if Path(profile.source).resolve() == BUILTIN.resolve():
+        raise click.UsageError(f"profile {profile.name!r} is built in: copy it into your own file and pass that "
+                               "file with --profiles, so the calibration can be written there")
+    inputs = WaterjetInputs(v["pressure_mpa"], v["orifice_mm"], v["focus_tube_mm"], v["abrasive_kg_min"],
+                            v["machinability"], v["model_constant"], v["abrasive_factor"])
+    h = thickness or v["thickness_mm"]
+    q = quality or v["quality"]
+    new = calibrated_machinability(inputs, h, q, speed)
+    try:
+        write_setting(Path(profile.source), profile.name, "machinability", new)
+    except (PathlenError, OSError) as exc:
+        raise click.UsageError(f"cannot write {profile.source}: {exc}") from None
+    click.echo(f"{profile.name}: machinability {v['machinability']:g} -> {new:.6g} "
+               f"(test cut {speed:g} mm/min at {h:g} mm, quality {q:g}); written to {profile.source}")
+
+
+@main.command()
+@click.option("--profiles", "profile_files", multiple=True, type=click.Path(dir_okay=False),
+              help="A TOML file of your own profiles to check and list (repeatable).")
+def profiles(profile_files: tuple[str, ...]) -> None:
+    """List the process profiles and check them (one line per problem, exit status 2)."""
+    known = _profiles_or_exit(profile_files)
+    table = Table(title="Process profiles")
+    for name, justify in (("Name", "left"), ("Process", "left"), ("Material", "left"), ("Thickness (mm)", "right"),
+                          ("Feed (mm/min)", "right"), ("Rate per hour", "right"), ("From", "left")):
+        table.add_column(name, justify=justify, overflow="fold")  # type: ignore[arg-type]
+    for p in known.values():
+        v = p.values
+        feed = cutting_feed_mm_min(p)
+        origin = "built in" if Path(p.source).resolve() == BUILTIN.resolve() else p.source
+        table.add_row(p.name, v["process"], v["material"], f"{v['thickness_mm']:g}",
+                      f"{feed:,.0f}" + (" (model)" if p.uses_waterjet_model else ""),
+                      f"{v['rate_per_hour']:g} {v['currency']}".strip(), origin)
+    Console(soft_wrap=False).print(table)

@@ -1,0 +1,283 @@
+"""Cut time and cost of one drawing with a process profile (laser, plasma, waterjet).
+
+Per part: every contour of the cut layers is pierced once (engraved/marked layers are not),
+cut along its measured length (plus lead-in and lead-out, plus the kerf offset when the profile
+asks for it) at the profile's feed (reduced on small holes), with the motion model of
+:mod:`pathlen.estimates.kinematics`; between contours the head travels at rapid speed in the order
+of :mod:`pathlen.estimates.tour`.  Job = quantity x part + setup.  Cost = machine time x rate,
+plus consumables per minute of cutting and per pierce, at least the minimum charge.
+Units: mm, s, money as in the profile.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from pathlen.contours import (
+    DEFAULT_GAP_REPORT_MM,
+    DEFAULT_JOIN_TOL_MM,
+    Contour,
+    chain_contours,
+    duplicate_segments,
+    gap_warnings,
+)
+from pathlen.errors import InputError, UsageError
+from pathlen.estimates.kinematics import junction_speed, move_times, sequence_time
+from pathlen.estimates.tour import plan_tour
+from pathlen.estimates.waterjet import WaterjetInputs, waterjet_feed_mm_min
+from pathlen.importers import ImportOptions, read_drawing
+from pathlen.measure import DEFAULT_RTOL, measure
+from pathlen.nesting import kerf_length_change, nesting_depth, offset_length_change
+from pathlen.profiles import Profile
+from pathlen.segments import SegmentTable, segment_layers, segment_table
+
+
+@dataclass(frozen=True)
+class CutSettings:
+    """What decides a file's estimate besides the drawing."""
+
+    profile: Profile
+    quantity: int = 1
+    cut: tuple[str, ...] = ()  # layers (or #rrggbb stroke colours) to cut; empty: every other layer
+    engrave: tuple[str, ...] = ()  # layers/colours marked at the engrave feed, no pierce
+    ignore: tuple[str, ...] = ()  # layers/colours left out
+    dedupe: bool = False
+    join_tol_mm: float = DEFAULT_JOIN_TOL_MM
+    gap_report_mm: float = DEFAULT_GAP_REPORT_MM
+    rtol: float = DEFAULT_RTOL
+    home: tuple[float, float] = (0.0, 0.0)
+    import_options: ImportOptions = field(default_factory=ImportOptions)
+
+
+@dataclass
+class CutEstimate:
+    """One file's estimate (mm, s, money) or its one-line error."""
+
+    path: str
+    ok: bool
+    error: str | None = None
+    quantity: int = 1
+    closed: int = 0
+    open: int = 0
+    pierces: int = 0
+    cut_length_mm: float = 0.0  # per part, with leads and kerf offset
+    engrave_length_mm: float = 0.0
+    lead_length_mm: float = 0.0
+    kerf_change_mm: float = 0.0
+    rapid_length_mm: float = 0.0
+    bound_mm: float = 0.0  # error bound of the measured path length
+    feed_mm_min: float = 0.0
+    time_s: dict[str, float] = field(default_factory=dict)  # whole job
+    cost: dict[str, float] = field(default_factory=dict)  # whole job
+    part_time_s: float = 0.0
+    warnings: list[str] = field(default_factory=list)
+
+
+def cutting_feed_mm_min(profile: Profile) -> float:
+    """The profile's feed, or the waterjet model's speed at its thickness and quality."""
+    if profile.uses_waterjet_model:
+        v = profile.values
+        inputs = WaterjetInputs(v["pressure_mpa"], v["orifice_mm"], v["focus_tube_mm"], v["abrasive_kg_min"],
+                                v["machinability"], v["model_constant"], v["abrasive_factor"])
+        return waterjet_feed_mm_min(inputs, v["thickness_mm"], v["quality"])
+    return float(profile.feed_mm_min)
+
+
+def estimate_file(path: str, settings: CutSettings) -> CutEstimate:
+    """Estimate one file; never raises for bad input (the error goes in the result)."""
+    try:
+        return _estimate(path, settings)
+    except InputError as exc:
+        return CutEstimate(path, ok=False, error=str(exc), quantity=settings.quantity)
+    except UsageError as exc:
+        return CutEstimate(path, ok=False, error=str(exc), quantity=settings.quantity)
+    except MemoryError:
+        return CutEstimate(path, ok=False, error="out of memory while reading this file")
+    except Exception as exc:  # noqa: BLE001 - one bad file must not stop the batch
+        text = str(exc).strip().splitlines()
+        return CutEstimate(path, ok=False, error=f"unexpected {type(exc).__name__}: {text[0] if text else ''}")
+
+
+def _role_of_entities(drawing_entities: list, s: CutSettings) -> np.ndarray:
+    """0 ignored, 1 cut, 2 engraved, per entity (a selector is a layer name or a #rrggbb colour)."""
+    def hit(e: object, selectors: tuple[str, ...]) -> bool:
+        return e.layer in selectors or (bool(e.color) and e.color in selectors)  # type: ignore[attr-defined]
+
+    roles = np.zeros(len(drawing_entities), dtype=np.int64)
+    for i, e in enumerate(drawing_entities):
+        if hit(e, s.ignore):
+            continue
+        if hit(e, s.engrave):
+            roles[i] = 2
+        elif not s.cut or hit(e, s.cut):
+            roles[i] = 1
+    return roles
+
+
+def _estimate(path: str, s: CutSettings) -> CutEstimate:
+    p = s.profile
+    drawing = read_drawing(Path(path), s.import_options)
+    measured = measure(drawing, s.rtol)
+    table = segment_table(drawing, measured)
+    layer_names, layer = segment_layers(drawing, table)
+    role = _role_of_entities(drawing.entities, s)[table.entity] if len(table) else np.zeros(0, dtype=np.int64)
+    warnings = list(drawing.warnings)
+    keep = role > 0
+    duplicates = duplicate_segments(table, layer, s.join_tol_mm)
+    duplicates = duplicates[keep[duplicates]]
+    if len(duplicates):
+        extra = float(table.length[duplicates].sum())
+        if s.dedupe:
+            keep[duplicates] = False
+            warnings.append(f"{len(duplicates)} segments drawn twice: cut once (--dedupe), {extra:.3f} mm saved")
+        else:
+            warnings.append(f"{len(duplicates)} segments drawn twice ({extra:.3f} mm): cut twice; "
+                            "--dedupe cuts them once")
+    if (role == 2).any() and p.values.get("engrave_feed_mm_min") is None:
+        raise UsageError(f"profile {p.name!r} has no engrave_feed_mm_min, needed for the engraved layers")
+    contours = chain_contours(table, layer, s.join_tol_mm, keep)
+    warnings += gap_warnings(contours, layer_names, s.join_tol_mm, s.gap_report_mm)
+    engraved = np.array([role[c.segments[0]] == 2 for c in contours], dtype=bool)
+    depth, parent, polygons = nesting_depth(table, contours)
+    feed = cutting_feed_mm_min(p)
+    result = CutEstimate(path, ok=True, quantity=s.quantity, feed_mm_min=feed, warnings=warnings)
+    motion_s = cutting_s = 0.0
+    small_holes = narrow_holes = rough_offsets = open_cut = 0
+    for k, c in enumerate(contours):
+        if engraved[k]:
+            f = float(p.engrave_feed_mm_min)
+            lead_in = lead_out = 0.0
+            change = 0.0
+            result.engrave_length_mm += c.length
+        else:
+            f = feed
+            lead_in, lead_out = p.lead_in_mm, p.lead_out_mm
+            change = 0.0
+            hole = c.closed and depth[k] % 2 == 1
+            if hole and _small_hole(polygons[k], p):
+                f *= p.small_hole_feed_factor
+                small_holes += 1
+            if c.closed and p.kerf_offset and p.kerf_mm > 0:
+                change, trouble = _kerf_change(table, c, polygons[k], (-0.5 if hole else 0.5) * p.kerf_mm)
+                narrow_holes += trouble == "narrow"
+                rough_offsets += trouble == "rough"
+            open_cut += not c.closed
+            result.pierces += 1
+            result.kerf_change_mm += change
+            result.lead_length_mm += lead_in + lead_out
+            result.cut_length_mm += c.length + change + lead_in + lead_out
+        result.bound_mm += c.bound
+        total_length = c.length + change + lead_in + lead_out
+        cutting_s += total_length / (f / 60.0)
+        motion_s += _contour_motion_s(table, c, f / 60.0, p, lead_in, lead_out, change)
+    result.closed = sum(c.closed for c in contours)
+    result.open = len(contours) - result.closed
+    if small_holes:
+        warnings.append(f"{small_holes} small holes cut at {p.small_hole_feed_factor:g} x feed")
+    if narrow_holes:
+        warnings.append(f"{narrow_holes} holes narrower than the kerf: cut without offset, check them")
+    if rough_offsets:
+        warnings.append(f"{rough_offsets} contours have features smaller than half the kerf: their offset "
+                        "length is approximate")
+    if open_cut:
+        warnings.append(f"{open_cut} open contours cut as drawn: check the drawing if they should be closed")
+    tour = plan_tour(np.array([c.start[:2] for c in contours]).reshape(-1, 2),
+                     np.array([c.end[:2] for c in contours]).reshape(-1, 2),
+                     np.array([c.closed for c in contours], dtype=bool),
+                     np.where(np.isin(parent, np.flatnonzero(~engraved)), parent, -1), s.home)
+    rapid_v = p.rapid_mm_min / 60.0
+    result.rapid_length_mm = tour.rapid_length
+    rapids_s = tour.rapid_length / rapid_v
+    rapid_motion_s = float(move_times(tour.rapid_moves, np.full(len(tour.rapid_moves), rapid_v), p.accel_mm_s2,
+                                      np.zeros(len(tour.rapid_moves)), np.zeros(len(tour.rapid_moves))).sum())
+    piercing_s = result.pierces * (p.pierce_s + p.head_updown_s)
+    losses_s = (motion_s - cutting_s) + (rapid_motion_s - rapids_s)
+    part_s = cutting_s + piercing_s + rapids_s + losses_s
+    q = s.quantity
+    setup_s = p.setup_min * 60.0
+    result.part_time_s = part_s
+    result.time_s = {"total": q * part_s + setup_s, "cutting": q * cutting_s, "piercing": q * piercing_s,
+                     "rapids": q * rapids_s, "motion_losses": q * losses_s, "setup": setup_s}
+    rate = p.rate_per_hour / 3600.0
+    machine = q * part_s * rate
+    consumables = (p.consumables_per_min * q * motion_s / 60.0  # per minute the beam/jet is cutting
+                   + p.consumables_per_pierce * q * result.pierces)
+    setup = setup_s * rate
+    subtotal = machine + consumables + setup
+    result.cost = {"total": max(subtotal, p.minimum_charge), "machine": machine, "consumables": consumables,
+                   "setup": setup, "minimum_charge_applied": float(subtotal < p.minimum_charge)}
+    return result
+
+
+def _kerf_change(table: SegmentTable, c: Contour, polygon: object, outward: float) -> tuple[float, str]:
+    """Length change of a closed contour under the kerf offset, and what went wrong ("", narrow, rough).
+
+    The exact turning formula is checked against shapely's offset of the sampled polygon; where
+    they disagree by more than the sampling can explain, the offset crosses itself (a feature
+    smaller than the offset) and shapely's figure is used.
+    """
+    rough = offset_length_change(polygon, outward)  # type: ignore[arg-type]
+    if rough is None:
+        return 0.0, "narrow"
+    exact = kerf_length_change(table, c, outward)
+    if abs(exact - rough) > 0.05 * abs(outward) * (2 * math.pi + len(c.segments)):
+        return rough, "rough"
+    return exact, ""
+
+
+def _small_hole(polygon: object, p: Profile) -> bool:
+    """A hole whose equivalent diameter (4 x area / perimeter) is under small_hole_ratio x thickness."""
+    area, perimeter = polygon.area, polygon.length  # type: ignore[attr-defined]
+    return perimeter > 0 and 4.0 * area / perimeter < p.small_hole_ratio * p.thickness_mm
+
+
+def _contour_motion_s(table: SegmentTable, c: Contour, feed: float, p: Profile, lead_in: float, lead_out: float,
+                      change: float) -> float:
+    """Time (s) to cut one contour from rest to rest: leads straight and tangent, corners and arcs limited."""
+    idx, fwd = c.segments, c.forward
+    scale = (c.length + change) / c.length if c.length > 0 else 1.0
+    length = table.length[idx] * scale
+    radius = table.min_radius[idx]
+    top = np.minimum(feed, np.sqrt(p.accel_mm_s2 * radius))  # centripetal limit v <= sqrt(a r)
+    d_out = np.where(fwd[:, None], table.end_dir[idx], -table.start_dir[idx])
+    d_in = np.where(fwd[:, None], table.start_dir[idx], -table.end_dir[idx])
+    corner = np.empty(len(idx))
+    corner[0] = math.inf
+    if len(idx) > 1:
+        corner[1:] = junction_speed(d_out[:-1], d_in[1:], p.accel_mm_s2, p.junction_deviation_mm)
+    moves_l, moves_top, moves_corner = [length], [top], [corner]
+    if lead_in > 0:
+        moves_l.insert(0, np.array([lead_in]))
+        moves_top.insert(0, np.array([feed]))
+        moves_corner.insert(0, np.array([math.inf]))  # tangent lead-in
+    if lead_out > 0:
+        moves_l.append(np.array([lead_out]))
+        moves_top.append(np.array([feed]))
+        moves_corner.append(np.array([math.inf]))
+    return sequence_time(np.concatenate(moves_l), np.concatenate(moves_top), np.concatenate(moves_corner),
+                         p.accel_mm_s2)
+
+
+def cautions(profile: Profile) -> list[str]:
+    """The safety notes printed with every estimate for this process and material."""
+    material = (profile.material or "").lower()
+    out = []
+    if profile.process == "laser":
+        if any(w in material for w in ("pvc", "vinyl", "polyvinyl")):
+            out.append("DO NOT laser-cut PVC or vinyl: it gives off hydrogen chloride, which harms people and the "
+                       "machine.")
+        out.append("Laser: some plastics give off hydrogen cyanide or other toxic fumes; use fume extraction, "
+                   "eyewear rated for the laser's wavelength, and never leave a cut unattended (fire).")
+    elif profile.process == "plasma":
+        out.append("Plasma: electric shock, UV radiation (filter shade by current) and metal fume; ventilate and "
+                   "wear the right eye and skin protection.")
+    else:
+        out.append("Waterjet: the stream can inject water and abrasive through skin even at low pressure; treat "
+                   "any such injury as a surgical emergency and keep hands away from the jet.")
+    out.append("These are estimates, not instructions: follow the machine maker's data and manual, the "
+               "material's safety data sheet and local rules.")
+    return out

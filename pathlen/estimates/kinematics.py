@@ -1,0 +1,76 @@
+"""Machine motion: how long a sequence of moves takes with limited speed and acceleration.
+
+Units: mm, s, mm/s, mm/s².  Each move has a length and a top speed; the machine starts and ends
+every sequence at rest and changes speed at a constant acceleration ``a`` (trapezoidal profile:
+accelerate, cruise, decelerate; triangular when the move is too short to reach its top speed).
+Where two moves meet, the speed is limited by the junction-deviation model of open-source CNC
+motion planners, and a forward and a backward pass make every speed change reachable.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from pathlen.geometry import FloatArray
+
+
+def move_times(length: FloatArray, top: FloatArray, accel: float, v_in: FloatArray, v_out: FloatArray) -> FloatArray:
+    """Time of each move from speed ``v_in`` to ``v_out`` (both reachable within the move).
+
+    Trapezoid: t = (V - v_in)/a + (V - v_out)/a + (L - d_acc - d_dec)/V with d = (V² - v²)/(2a);
+    when d_acc + d_dec > L the peak is v_p = sqrt((2aL + v_in² + v_out²)/2) and
+    t = (v_p - v_in)/a + (v_p - v_out)/a.  ``accel = inf`` gives L / V.
+    """
+    length, top = np.asarray(length, dtype=float), np.asarray(top, dtype=float)
+    if math.isinf(accel):
+        return np.divide(length, top, out=np.zeros_like(length), where=length > 0)
+    v_in, v_out = np.asarray(v_in, dtype=float), np.asarray(v_out, dtype=float)
+    d_acc = (top**2 - v_in**2) / (2 * accel)
+    d_dec = (top**2 - v_out**2) / (2 * accel)
+    cruise = d_acc + d_dec <= length
+    peak = np.sqrt(np.maximum((2 * accel * length + v_in**2 + v_out**2) / 2, 0.0))
+    v = np.where(cruise, top, np.minimum(peak, top))
+    t = (v - v_in) / accel + (v - v_out) / accel
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t += np.where(cruise, (length - d_acc - d_dec) / top, 0.0)
+    return t
+
+
+def junction_speed(d_in: FloatArray, d_out: FloatArray, accel: float, deviation: float) -> FloatArray:
+    """Highest speed through a corner from unit direction ``d_in`` to ``d_out`` (junction deviation).
+
+    With θ the angle between the reversed incoming and the outgoing direction (θ = 180° going
+    straight on, 90° at a square corner, 0 on a reversal): v² = a·δ·sin(θ/2) / (1 - sin(θ/2)).
+    Straight on gives no limit (inf).
+    """
+    cos_theta = np.clip(-np.einsum("ij,ij->i", d_in, d_out), -1.0, 1.0)
+    sin_half = np.sqrt(0.5 * (1.0 - cos_theta))
+    with np.errstate(divide="ignore"):
+        v2 = accel * deviation * sin_half / (1.0 - sin_half)
+    return np.where(sin_half >= 1.0 - 1e-12, np.inf, np.sqrt(v2))
+
+
+def plan_speeds(length: list[float], top: list[float], corner: list[float], accel: float) -> list[float]:
+    """Speeds at the n + 1 boundaries of n moves: zero at both ends, at most ``corner[k]`` between
+    move k - 1 and move k (and each side's top speed), and reachable: |v²_k+1 - v²_k| <= 2 a L_k."""
+    n = len(length)
+    v = [0.0] * (n + 1)
+    for k in range(1, n):
+        v[k] = min(corner[k], top[k - 1], top[k])
+    if math.isinf(accel):
+        return v
+    for k in range(n - 1, -1, -1):  # backward: able to slow down in time
+        v[k] = min(v[k], math.sqrt(v[k + 1] ** 2 + 2 * accel * length[k]))
+    for k in range(n):  # forward: able to speed up in time
+        v[k + 1] = min(v[k + 1], math.sqrt(v[k] ** 2 + 2 * accel * length[k]))
+    return v
+
+
+def sequence_time(length: FloatArray, top: FloatArray, corner: FloatArray, accel: float) -> float:
+    """Time (s) of moves cut one after another from rest to rest."""
+    if len(length) == 0:
+        return 0.0
+    v = np.array(plan_speeds(list(length), list(top), list(corner), accel))
+    return float(move_times(length, top, accel, v[:-1], v[1:]).sum())

@@ -1,0 +1,127 @@
+"""Cut estimate reports: JSON (``"format": "pathlen-cut"``), CSV (one row per file) and a table.
+
+Lengths in the chosen units, times in seconds, money in the profile's currency.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+from typing import Any
+
+from rich.console import Console
+from rich.table import Table
+
+from pathlen.estimates.cut import CutEstimate
+from pathlen.export import from_mm
+from pathlen.profiles import Profile
+
+TIME_KEYS = ("total", "cutting", "piercing", "rapids", "motion_losses", "setup")
+COST_KEYS = ("total", "machine", "consumables", "setup")
+
+
+def _file_entry(r: CutEstimate, units: str) -> dict[str, Any]:
+    return {
+        "path": r.path, "ok": r.ok, "error": r.error, "quantity": r.quantity,
+        "contours": {"closed": r.closed, "open": r.open},
+        "pierces": r.pierces,
+        "cut_length": from_mm(r.cut_length_mm, units),
+        "engrave_length": from_mm(r.engrave_length_mm, units),
+        "lead_length": from_mm(r.lead_length_mm, units),
+        "kerf_change": from_mm(r.kerf_change_mm, units),
+        "rapid_length": from_mm(r.rapid_length_mm, units),
+        "error_bound": from_mm(r.bound_mm, units),
+        "feed_mm_min": r.feed_mm_min,
+        "part_time_s": r.part_time_s,
+        "time_s": {k: r.time_s.get(k, 0.0) for k in TIME_KEYS},
+        "cost": {**{k: r.cost.get(k, 0.0) for k in COST_KEYS},
+                 "minimum_charge_applied": bool(r.cost.get("minimum_charge_applied", 0.0))},
+        "warnings": r.warnings,
+    }
+
+
+def _total(results: list[CutEstimate], units: str) -> dict[str, Any]:
+    ok = [r for r in results if r.ok]
+    return {
+        "files": len(results), "failed": len(results) - len(ok),
+        "quantity": sum(r.quantity for r in ok),
+        "contours": {"closed": sum(r.closed * r.quantity for r in ok), "open": sum(r.open * r.quantity for r in ok)},
+        "pierces": sum(r.pierces * r.quantity for r in ok),
+        "cut_length": from_mm(sum(r.cut_length_mm * r.quantity for r in ok), units),
+        "rapid_length": from_mm(sum(r.rapid_length_mm * r.quantity for r in ok), units),
+        "time_s": {k: sum(r.time_s.get(k, 0.0) for r in ok) for k in TIME_KEYS},
+        "cost": {k: sum(r.cost.get(k, 0.0) for r in ok) for k in COST_KEYS},
+    }
+
+
+def cut_document(results: list[CutEstimate], units: str, profile: Profile, cautions: list[str]) -> dict[str, Any]:
+    v = profile.values
+    return {
+        "format": "pathlen-cut", "version": 1, "units": units,
+        "profile": {"name": profile.name, "process": v["process"], "material": v["material"],
+                    "thickness_mm": v["thickness_mm"], "currency": v["currency"]},
+        "cautions": cautions,
+        "files": [_file_entry(r, units) for r in results],
+        "total": _total(results, units),
+    }
+
+
+def render_json(results: list[CutEstimate], units: str, profile: Profile, cautions: list[str]) -> str:
+    return json.dumps(cut_document(results, units, profile, cautions), indent=2) + "\n"
+
+
+def render_csv(results: list[CutEstimate], units: str) -> str:
+    """One row per file; totals for the whole quantity; failed files have ok=false and their error."""
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(["path", "ok", "error", "quantity", "contours_closed", "contours_open", "pierces",
+                f"cut_length_{units}", f"rapid_length_{units}", *(f"time_{k}_s" for k in TIME_KEYS),
+                *(f"cost_{k}" for k in COST_KEYS)])
+    for r in results:
+        w.writerow([r.path, str(r.ok).lower(), r.error or "", r.quantity, r.closed, r.open, r.pierces,
+                    repr(from_mm(r.cut_length_mm, units)), repr(from_mm(r.rapid_length_mm, units)),
+                    *(repr(r.time_s.get(k, 0.0)) for k in TIME_KEYS), *(repr(r.cost.get(k, 0.0)) for k in COST_KEYS)])
+    return buf.getvalue()
+
+
+def _clock(seconds: float) -> str:
+    s = round(seconds)
+    return f"{s // 3600}:{s % 3600 // 60:02d}:{s % 60:02d}"
+
+
+def render_table(results: list[CutEstimate], units: str, profile: Profile, cautions: list[str],
+                 console: Console) -> None:
+    v = profile.values
+    money = v["currency"] or "money"
+    title = (f"Cut estimate: {profile.name} ({v['process']}, {v['material']}, {v['thickness_mm']:g} mm, "
+             f"feed {results[0].feed_mm_min if results else 0:,.0f} mm/min)")
+    table = Table(title=title)
+    for name, justify in (("File", "left"), ("Qty", "right"), ("Contours closed/open", "right"),
+                          ("Pierces", "right"), (f"Cut ({units})", "right"), (f"Rapid ({units})", "right"),
+                          ("Time h:mm:ss", "right"), (f"Cost ({money})", "right")):
+        table.add_column(name, justify=justify, overflow="fold")  # type: ignore[arg-type]
+    digits = 1 if units == "mm" else 2
+    for r in results:
+        if not r.ok:
+            table.add_row(r.path, str(r.quantity), "", "", "[red]failed[/red]", "", "", "")
+            continue
+        cut_len, rapid_len = from_mm(r.cut_length_mm, units), from_mm(r.rapid_length_mm, units)
+        table.add_row(r.path, str(r.quantity), f"{r.closed}/{r.open}", str(r.pierces), f"{cut_len:,.{digits}f}",
+                      f"{rapid_len:,.{digits}f}", _clock(r.time_s["total"]), f"{r.cost['total']:,.2f}")
+    t = _total(results, units)
+    table.add_section()
+    table.add_row(f"[b]Total ({t['files']} files, {t['failed']} failed)[/b]", str(t["quantity"]), "",
+                  str(t["pierces"]), f"{t['cut_length']:,.{digits}f}", f"{t['rapid_length']:,.{digits}f}",
+                  f"[b]{_clock(t['time_s']['total'])}[/b]", f"[b]{t['cost']['total']:,.2f}[/b]")
+    console.print(table)
+    ts = t["time_s"]
+    console.print(f"Time: cutting {_clock(ts['cutting'])}, piercing {_clock(ts['piercing'])}, rapids "
+                  f"{_clock(ts['rapids'])}, acceleration and corners {_clock(ts['motion_losses'])}, setup "
+                  f"{_clock(ts['setup'])}.  Cost ({money}): machine {t['cost']['machine']:,.2f}, consumables "
+                  f"{t['cost']['consumables']:,.2f}, setup {t['cost']['setup']:,.2f}.", highlight=False)
+    for r in results:
+        for w in r.warnings:
+            console.print(f"[yellow]warning[/yellow] {r.path}: {w}", highlight=False)
+    for c in cautions:
+        console.print(f"[bold red]caution[/bold red] {c}", highlight=False)
