@@ -33,10 +33,14 @@ def main() -> None:
     """pathlen: exact path lengths from drawings, with error bounds."""
 
 
-def reading_options(f: Callable[..., Any]) -> Callable[..., Any]:
+def reading_options(paths_required: bool = True) -> Callable[[Callable[..., Any]], Callable[..., Any]]:
     """Options shared by every command that reads drawings."""
+    return lambda f: _with_options(f, paths_required)
+
+
+def _with_options(f: Callable[..., Any], paths_required: bool) -> Callable[..., Any]:
     options = [
-        click.argument("paths", nargs=-1, required=True),
+        click.argument("paths", nargs=-1, required=paths_required),
         click.option("--format", "fmt", type=click.Choice(["table", "json", "csv"]), default="table",
                      show_default=True, help="Output format."),
         click.option("--output", "-o", type=click.Path(dir_okay=False, writable=True), default=None,
@@ -76,7 +80,7 @@ def drawing_files(paths: tuple[str, ...]) -> list[str]:
 
 
 @main.command()
-@reading_options
+@reading_options()
 def measure(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rtol: float,
             drawing_units: str | None, svg_dpi: float | None, join_tol: float, jobs: int) -> None:
     """Measure every path in the drawings PATHS (DXF or SVG files, or folders searched for them)."""

@@ -39,7 +39,7 @@ def _pick(profiles: dict[str, Profile], name: str | None) -> Profile:
 
 
 @main.command()
-@reading_options
+@reading_options(paths_required=False)
 @click.option("--profile", "profile_name", metavar="NAME", help="Process profile (see 'pathlen profiles').")
 @click.option("--profiles", "profile_files", multiple=True, type=click.Path(dir_okay=False),
               help="A TOML file of your own profiles (repeatable); its names replace built-in ones.")
@@ -60,12 +60,15 @@ def cut(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rtol: 
         svg_dpi: float | None, join_tol: float, jobs: int, profile_name: str | None, profile_files: tuple[str, ...],
         quantity: int, layers: str | None, engrave: str | None, ignore: str | None, dedupe: bool,
         calibrate_speed: float | None, test_thickness: float | None, test_quality: float | None) -> None:
-    """Estimate cutting time and cost of the drawings PATHS with a process profile."""
+    """Estimate cutting time and cost of the drawings PATHS (DXF or SVG files, or folders) with a process
+    profile; or, with --calibrate, fit a waterjet profile to a test cut."""
     profiles = _profiles_or_exit(profile_files)
     profile = _pick(profiles, profile_name)
     if calibrate_speed is not None:
         _calibrate(profile, calibrate_speed, test_thickness, test_quality)
         return
+    if not paths:
+        raise click.UsageError("Missing argument 'PATHS...': drawings or folders to estimate")
     check_reading_options(rtol, join_tol)
     if engrave and profile.values.get("engrave_feed_mm_min") is None:
         raise click.UsageError(f"profile {profile.name!r} has no engrave_feed_mm_min, needed for --engrave")
@@ -128,7 +131,8 @@ def profiles(profile_files: tuple[str, ...]) -> None:
     """List the process profiles and check them (one line per problem, exit status 2)."""
     known = _profiles_or_exit(profile_files)
     table = Table(title="Process profiles")
-    for name, justify in (("Name", "left"), ("Process", "left"), ("Material", "left"), ("Thickness (mm)", "right"),
+    table.add_column("Name", no_wrap=True)
+    for name, justify in (("Process", "left"), ("Material", "left"), ("Thickness (mm)", "right"),
                           ("Feed (mm/min)", "right"), ("Rate per hour", "right"), ("From", "left")):
         table.add_column(name, justify=justify, overflow="fold")  # type: ignore[arg-type]
     for p in known.values():

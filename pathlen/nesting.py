@@ -47,6 +47,8 @@ def nesting_depth(table: SegmentTable, contours: list[Contour]) -> tuple[IntArra
     container = idx[poly_j]
     keep = container != point_i
     point_i, container = point_i[keep], container[keep]
+    if len(point_i) == 0:
+        return depth, parent, polygons
     np.add.at(depth, point_i, 1)
     area = np.array([p.area for p in polygons])
     order = np.lexsort((-area[container], point_i))  # per contour, smallest container last

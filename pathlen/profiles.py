@@ -70,8 +70,8 @@ KEYS: dict[str, Key] = {
     "abrasive_factor": Key(float, 1.0, above_minimum=True),
 }
 WATERJET_MODEL = ("pressure_mpa", "orifice_mm", "focus_tube_mm", "abrasive_kg_min", "machinability")
-_UNIT_SUFFIX = re.compile(r"_(mm|in|m|cm|s|min|h|mpa|psi|bar|ksi|kg|lb|mm_min|m_min|in_min|mm_s|mm_s2|m_s2|"
-                          r"kg_min|lb_min|per_hour|per_min|per_pierce)$")
+_UNIT_SUFFIX = re.compile(r"_(mm|in|m|cm|s|ms|sec|min|h|mpa|psi|bar|ksi|kg|lb|mm_min|m_min|in_min|mm_s|mm_s2|m_s2|"
+                          r"kg_min|lb_min|cm_min|m_s|in_s|in_s2|per_hour|per_min|per_pierce)$")
 
 
 @dataclass(frozen=True)

@@ -123,3 +123,13 @@ def test_cubic_minima_are_speed_minima():
     rows, t = cubic_speed_minima(np.array([ADVERSARIAL[0]], dtype=float))
     assert rows.tolist() == [0]
     assert t[0] == pytest.approx(0.5, abs=1e-12)
+
+
+def test_denormal_scale_control_points_do_not_overflow():
+    # Found by hypothesis: a control point at 1.5e-157 made a speed-minimum root overflow (a warning, an
+    # error under pytest).  z(t) = (1-t)³ + t³ falls from 1 to 1/4 and back: length 3/2 (by hand), and
+    # the mpmath reference agrees.
+    ctrl = np.array([[(0.0, 0.0, 1.0), (0.0, 0.0, 0.0), (0.0, 0.0, 0.0), (0.0, 1.4588876746115643e-157, 1.0)]])
+    length, bound, _ = bezier_lengths(Beziers(ctrl, np.ones((1, 4)), np.zeros(1, dtype=np.int64)), 1e-9)
+    assert length[0] == pytest.approx(1.5, rel=1e-12)
+    assert abs(length[0] - float(bezier_length(ctrl[0]))) <= bound[0]

@@ -116,7 +116,7 @@ def cubic_speed_minima(ctrl: FloatArray) -> tuple[IntArray, FloatArray]:
     disc = qb * qb - 4 * qa * qc
     sq = np.sqrt(np.maximum(disc, 0.0))
     q = -0.5 * (qb + np.copysign(sq, qb))
-    with np.errstate(divide="ignore", invalid="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):  # huge roots are clipped to [0, 1]
         r1 = np.where(qa != 0, q / qa, np.where(qb != 0, -qc / qb, np.nan))
         r2 = np.where(q != 0, qc / q, np.nan)
     r1 = np.where(disc >= 0, r1, np.nan)

@@ -1,0 +1,159 @@
+"""Contour chaining, gaps, duplicates, nesting and exact kerf offsets."""
+
+import math
+
+import mpmath as mp
+import numpy as np
+import pytest
+import shapely
+
+from pathlen.contours import chain_contours, count_contours, duplicate_segments, gap_warnings
+from pathlen.geometry import SegmentCollector
+from pathlen.measure import measure
+from pathlen.nesting import kerf_length_change, nesting_depth
+from pathlen.segments import segment_layers, segment_table
+
+
+def build(shapes):
+    """shapes: list of (layer, kind, data) with kind line/polyline/arc/bezier."""
+    c = SegmentCollector()
+    for layer, kind, data in shapes:
+        e = c.entity(layer, str(len(c.entities)), kind)
+        if kind == "polyline":
+            c.add_polyline([(*p, 0.0) for p in data], e)
+        elif kind == "arc":
+            (cx, cy), (ux, uy), (vx, vy), t0, t1 = data
+            c.add_arc((cx, cy, 0), (ux, uy, 0), (vx, vy, 0), t0, t1, e)
+        elif kind == "bezier":
+            c.add_bezier([(*p, 0.0) for p in data], None, e)
+    d = c.drawing()
+    table = segment_table(d, measure(d))
+    names, layer = segment_layers(d, table)
+    return d, table, names, layer
+
+
+def square(x, y, s, reverse=False):
+    pts = [(x, y), (x + s, y), (x + s, y + s), (x, y + s), (x, y)]
+    return pts[::-1] if reverse else pts
+
+
+def circle(cx, cy, r):
+    return ((cx, cy), (r, 0), (0, r), 0.0, 2 * math.pi)
+
+
+def test_reversed_segments_chain_into_one_closed_contour():
+    # The four sides of a square drawn as separate lines, two of them backwards.
+    sides = [[(0, 0), (10, 0)], [(10, 10), (10, 0)], [(10, 10), (0, 10)], [(0, 0), (0, 10)]]
+    _, table, _names, layer = build([("CUT", "polyline", s) for s in sides])
+    contours = chain_contours(table, layer)
+    assert len(contours) == 1 and contours[0].closed
+    assert contours[0].length == pytest.approx(40.0)
+    assert sorted(contours[0].segments.tolist()) == [0, 1, 2, 3]
+    assert contours[0].forward.tolist().count(False) == 2
+
+
+def test_gaps_below_and_above_the_tolerance():
+    below = [[(0, 0), (10, 0), (10, 10)], [(10, 10.005), (0, 10), (0, 0)]]  # 0.005 mm: joined at 0.01
+    above = [[(20, 0), (30, 0), (30, 10)], [(30, 10.2), (20, 10), (20, 0)]]  # 0.2 mm: a gap
+    _, table, names, layer = build([("CUT", "polyline", s) for s in below + above])
+    contours = chain_contours(table, layer, 0.01)
+    assert sorted(c.closed for c in contours) == [False, True]
+    warnings = gap_warnings(contours, names, 0.01, 0.5)
+    assert len(warnings) == 1 and "0.2000 mm" in warnings[0] and "'CUT'" in warnings[0]
+    assert count_contours(build([("CUT", "polyline", s) for s in below + above])[0], 0.01).closed == 1
+
+
+def test_layers_do_not_join():
+    _, table, _, layer = build([("A", "polyline", [(0, 0), (5, 0)]), ("B", "polyline", [(5, 0), (5, 5)])])
+    assert len(chain_contours(table, layer)) == 2
+
+
+def test_branch_point_splits_chains():
+    # A "T": three segments meet at one node; chains stop where no unused segment is left.
+    tee = [[(0, 0), (5, 0)], [(5, 0), (10, 0)], [(5, 0), (5, 5)]]
+    _, table, _, layer = build([("CUT", "polyline", s) for s in tee])
+    contours = chain_contours(table, layer)
+    assert sum(len(c.segments) for c in contours) == 3 and len(contours) == 2
+    assert not any(c.closed for c in contours)
+
+
+def test_duplicates_found_either_way_round():
+    shapes = [("CUT", "polyline", [(0, 0), (10, 0)]), ("CUT", "polyline", [(10, 0), (0, 0)]),
+              ("CUT", "arc", circle(5, 5, 2)), ("CUT", "arc", circle(5, 5, 2)),
+              ("ENGRAVE", "polyline", [(0, 0), (10, 0)]),  # another layer: not a duplicate
+              ("CUT", "polyline", [(0, 1), (10, 1)])]
+    _, table, _, layer = build(shapes)
+    dup = duplicate_segments(table, layer)
+    assert sorted(dup.tolist()) == [1, 5]  # rows: lines 0, 1, 2 (ENGRAVE), 3, then the arcs 4, 5
+    assert table.length[dup].sum() == pytest.approx(10 + 4 * math.pi)
+
+
+def test_nesting_depth_and_parent():
+    shapes = [("CUT", "polyline", square(0, 0, 100)), ("CUT", "polyline", square(10, 10, 50)),
+              ("CUT", "polyline", square(20, 20, 10)), ("CUT", "arc", circle(80, 80, 5)),
+              ("CUT", "polyline", square(200, 0, 10))]
+    _, table, _, layer = build(shapes)
+    contours = chain_contours(table, layer)
+    depth, parent, _ = nesting_depth(table, contours)
+    by_start = {tuple(np.round(c.start[:2], 6)): k for k, c in enumerate(contours)}
+    outer, mid, inner = by_start[(0, 0)], by_start[(10, 10)], by_start[(20, 20)]
+    hole = by_start[(85, 80)]
+    assert depth[outer] == 0 and depth[mid] == 1 and depth[inner] == 2 and depth[hole] == 1
+    assert parent[inner] == mid and parent[mid] == outer and parent[hole] == outer
+    assert parent[by_start[(200, 0)]] == -1
+
+
+def one_contour(shapes):
+    _, table, _, layer = build(shapes)
+    contours = chain_contours(table, layer)
+    assert len(contours) == 1 and contours[0].closed
+    return table, contours[0]
+
+
+@pytest.mark.parametrize("shape", [
+    [("CUT", "arc", circle(0, 0, 7))],
+    [("CUT", "polyline", [(0, 0), (40, 0), (40, 20), (0, 20), (0, 0)])],
+    [("CUT", "polyline", [(math.cos(k * math.pi / 3) * 9, math.sin(k * math.pi / 3) * 9) for k in range(7)][::-1])],
+    [("CUT", "arc", ((0, 0), (12, 0), (0, 5), 0, 2 * math.pi))],
+    [("CUT", "polyline", [(4, 0), (36, 0)]), ("CUT", "arc", ((36, 4), (0, -4), (4, 0), 0, math.pi / 2)),
+     ("CUT", "polyline", [(40, 4), (40, 16)]), ("CUT", "arc", ((36, 16), (4, 0), (0, 4), 0, math.pi / 2)),
+     ("CUT", "polyline", [(36, 20), (4, 20)]), ("CUT", "arc", ((4, 16), (0, 4), (-4, 0), 0, math.pi / 2)),
+     ("CUT", "polyline", [(0, 16), (0, 4)]), ("CUT", "arc", ((4, 4), (-4, 0), (0, -4), 0, math.pi / 2))],
+])
+@pytest.mark.parametrize("kerf", [0.1, 0.3])
+def test_steiner_outward_offset_of_convex_contours(shape, kerf):
+    # Steiner's formula: offsetting a closed convex curve outwards by k/2 adds 2π·k/2 = π·k to its length,
+    # whichever way round it is drawn.
+    table, contour = one_contour(shape)
+    assert kerf_length_change(table, contour, kerf / 2) == pytest.approx(math.pi * kerf, rel=1e-12)
+
+
+def test_inward_offsets_by_hand():
+    # A circle of radius r offset inwards by d has length 2π(r - d); a square of side s becomes a square of
+    # side s - 2d (its corners stay sharp): -8d.
+    table, contour = one_contour([("CUT", "arc", circle(0, 0, 5))])
+    assert kerf_length_change(table, contour, -0.2) == pytest.approx(-2 * math.pi * 0.2, rel=1e-12)
+    table, contour = one_contour([("CUT", "polyline", square(0, 0, 30, reverse=True))])
+    assert kerf_length_change(table, contour, -0.2) == pytest.approx(-8 * 0.2, rel=1e-12)
+
+
+def test_concave_outline_against_shapely():
+    # An L-shaped plate: five convex corners gain quarter-circle joins, the inside corner loses 2d
+    # (geometry by hand); checked also against shapely's round-join buffer of the exact polygon.
+    d = 0.25
+    pts = [(0, 0), (60, 0), (60, 20), (20, 20), (20, 50), (0, 50), (0, 0)]
+    table, contour = one_contour([("CUT", "polyline", pts)])
+    by_hand = 5 * (math.pi / 2) * d - 2 * d
+    assert kerf_length_change(table, contour, d) == pytest.approx(by_hand, rel=1e-12)
+    poly = shapely.Polygon(pts)
+    ref = poly.buffer(d, quad_segs=4096).exterior.length - poly.exterior.length
+    assert by_hand == pytest.approx(ref, rel=1e-6)
+
+
+def test_offset_of_an_ellipse_against_mpmath():
+    # The outward offset of an ellipse (a smooth convex curve) at distance d has length P + 2πd, P the
+    # perimeter 4 a E(1 - b²/a²) (mpmath.ellipe): the turning formula must agree with Steiner here too.
+    a, b, d = 30.0, 10.0, 1.5
+    table, contour = one_contour([("CUT", "arc", ((0, 0), (a, 0), (0, b), 0, 2 * math.pi))])
+    assert contour.length == pytest.approx(float(4 * a * mp.ellipe(1 - (b / a) ** 2)), rel=1e-12)
+    assert kerf_length_change(table, contour, d) == pytest.approx(2 * math.pi * d, rel=1e-12)

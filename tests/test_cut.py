@@ -1,0 +1,205 @@
+"""pathlen cut: the time and cost model end to end, as a user runs it."""
+
+import csv
+import io
+import json
+import math
+
+import ezdxf
+import pytest
+
+from pathlen.cli import main
+from pathlen.estimates.cut import CutSettings, estimate_file
+from pathlen.profiles import read_profile_file
+
+PROFILE = """
+[profile.ideal]
+process = "laser"
+material = "mild steel"
+thickness_mm = 2.0
+feed_mm_min = 1200.0
+engrave_feed_mm_min = 6000.0
+pierce_s = 0.7
+rapid_mm_min = 30000.0
+accel_mm_s2 = 1e12
+rate_per_hour = 60.0
+"""
+
+
+@pytest.fixture
+def plate(tmp_path):
+    """A 100 x 50 mm plate with two holes of radius 5 mm and a 30 mm engraved line."""
+    doc = ezdxf.new("R2010", setup=False)
+    doc.header["$INSUNITS"] = 4
+    msp = doc.modelspace()
+    msp.add_lwpolyline([(0, 0), (100, 0), (100, 50), (0, 50)], close=True, dxfattribs={"layer": "CUT"})
+    msp.add_circle((20, 25), 5, dxfattribs={"layer": "CUT"})
+    msp.add_circle((80, 25), 5, dxfattribs={"layer": "CUT"})
+    msp.add_line((35, 25), (65, 25), dxfattribs={"layer": "ENGRAVE"})
+    path = tmp_path / "plate.dxf"
+    doc.saveas(path)
+    return path
+
+
+@pytest.fixture
+def profile_file(tmp_path):
+    path = tmp_path / "shop.toml"
+    path.write_text(PROFILE)
+    return path
+
+
+def profile(profile_file, **changes):
+    text = profile_file.read_text()
+    for key, value in changes.items():
+        text += f"{key} = {value}\n"
+    profile_file.write_text(text)
+    return read_profile_file(profile_file)["ideal"]
+
+
+def test_reduces_to_length_over_feed(plate, profile_file):
+    # With no leads, no kerf and (nearly) unlimited acceleration the model must reduce to
+    # cut_length/feed + pierces·pierce_s + rapid_length/rapid_speed (issue contract).
+    p = profile(profile_file)
+    r = estimate_file(str(plate), CutSettings(p, engrave=("ENGRAVE",)))
+    assert r.ok, r.error
+    assert r.pierces == 3 and (r.closed, r.open) == (3, 1)
+    assert r.cut_length_mm == pytest.approx(300 + 2 * 2 * math.pi * 5, rel=1e-12)
+    assert r.engrave_length_mm == pytest.approx(30.0, rel=1e-12)
+    expected = (r.cut_length_mm / (1200 / 60) + 30.0 / (6000 / 60) + 3 * 0.7 + r.rapid_length_mm / (30000 / 60))
+    assert r.time_s["total"] == pytest.approx(expected, rel=1e-9)
+    assert abs(r.time_s["motion_losses"]) < 1e-6
+
+
+def test_rapid_path_goes_through_every_pierce(plate, profile_file):
+    # Home (0,0) -> holes first -> plate outline: the order must visit the holes before the outline
+    # (at (0, 0)), so the rapid path is at least home -> nearer hole -> other hole -> outline start.
+    r = estimate_file(str(plate), CutSettings(profile(profile_file), ignore=("ENGRAVE",)))
+    hole_a, hole_b = (25.0, 25.0), (85.0, 25.0)  # circle start points (centre + r on the x axis)
+    lower = math.dist((0, 0), hole_a) + math.dist(hole_a, hole_b) + math.dist(hole_b, (0, 0))
+    assert r.rapid_length_mm == pytest.approx(lower, rel=1e-9)
+
+
+def test_acceleration_adds_time_and_corners_slow_down(plate, profile_file):
+    fast = estimate_file(str(plate), CutSettings(profile(profile_file), ignore=("ENGRAVE",)))
+    text = profile_file.read_text().replace("accel_mm_s2 = 1e12", "accel_mm_s2 = 500.0")
+    profile_file.write_text(text)
+    slow = estimate_file(str(plate), CutSettings(read_profile_file(profile_file)["ideal"], ignore=("ENGRAVE",)))
+    assert slow.time_s["motion_losses"] > 0.1
+    assert slow.time_s["total"] > fast.time_s["total"] + 0.1
+    assert slow.time_s["cutting"] == pytest.approx(fast.time_s["cutting"], rel=1e-12)
+
+
+def test_quantity_setup_and_cost(plate, profile_file):
+    p = profile(profile_file, setup_min=12.0, consumables_per_pierce=0.5, minimum_charge=1000.0)
+    one = estimate_file(str(plate), CutSettings(p, ignore=("ENGRAVE",)))
+    ten = estimate_file(str(plate), CutSettings(p, quantity=10, ignore=("ENGRAVE",)))
+    assert ten.time_s["total"] == pytest.approx(10 * one.part_time_s + 720.0, rel=1e-12)
+    assert ten.cost["machine"] == pytest.approx(10 * one.part_time_s * 60.0 / 3600, rel=1e-12)
+    assert ten.cost["setup"] == pytest.approx(12.0, rel=1e-12)  # 12 min at 60 per hour
+    assert ten.cost["consumables"] == pytest.approx(10 * 3 * 0.5, rel=1e-12)
+    assert ten.cost["total"] == 1000.0 and ten.cost["minimum_charge_applied"] == 1.0
+
+
+def test_kerf_offset_and_leads(plate, profile_file):
+    # Outline outwards (+π·k, Steiner for a convex outline), each round hole inwards (-π·k); leads add length.
+    p = profile(profile_file, kerf_mm=0.3, kerf_offset="true", lead_in_mm=2.0, lead_out_mm=1.0)
+    r = estimate_file(str(plate), CutSettings(p, ignore=("ENGRAVE",)))
+    assert r.kerf_change_mm == pytest.approx(math.pi * 0.3 * (1 - 2), rel=1e-12)
+    assert r.lead_length_mm == pytest.approx(3 * 3.0)
+    assert r.cut_length_mm == pytest.approx(300 + 20 * math.pi - 0.3 * math.pi + 9.0, rel=1e-12)
+
+
+def test_duplicates_cut_once_with_dedupe(tmp_path, profile_file):
+    doc = ezdxf.new("R2010", setup=False)
+    doc.header["$INSUNITS"] = 4
+    msp = doc.modelspace()
+    msp.add_circle((10, 10), 4)
+    msp.add_circle((10, 10), 4)  # drawn twice
+    path = tmp_path / "twice.dxf"
+    doc.saveas(path)
+    p = profile(profile_file)
+    twice = estimate_file(str(path), CutSettings(p))
+    once = estimate_file(str(path), CutSettings(p, dedupe=True))
+    assert twice.cut_length_mm == pytest.approx(2 * 8 * math.pi)  # the copies chain: one pierce, two laps
+    assert twice.pierces == 1
+    assert once.cut_length_mm == pytest.approx(8 * math.pi) and once.pierces == 1
+    assert any("drawn twice" in w for w in twice.warnings + once.warnings)
+
+
+def test_cli_json_contract_and_cautions(runner, plate, profile_file, tmp_path):
+    bad = tmp_path / "broken.dxf"
+    bad.write_text("not a drawing")
+    res = runner.invoke(main, ["cut", str(plate), str(bad), "--profile", "ideal", "--profiles", str(profile_file),
+                               "--engrave", "ENGRAVE", "--quantity", "4", "--format", "json"])
+    assert res.exit_code == 1, res.output
+    doc = json.loads(res.stdout)
+    assert doc["format"] == "pathlen-cut" and doc["version"] == 1 and doc["units"] == "mm"
+    assert any("hydrogen cyanide" in c for c in doc["cautions"])
+    assert any("not instructions" in c for c in doc["cautions"])
+    good, failed = doc["files"]
+    assert failed["ok"] is False and failed["error"]
+    assert good["contours"] == {"closed": 3, "open": 1} and good["pierces"] == 3 and good["quantity"] == 4
+    assert set(good["time_s"]) == {"total", "cutting", "piercing", "rapids", "motion_losses", "setup"}
+    assert set(good["cost"]) >= {"total", "machine", "consumables", "setup"}
+    assert doc["total"]["pierces"] == 12 and doc["total"]["failed"] == 1
+    assert doc["total"]["time_s"]["total"] == pytest.approx(good["time_s"]["total"])
+
+
+def test_cli_csv_and_table(runner, plate, profile_file):
+    res = runner.invoke(main, ["cut", str(plate), "--profile", "ideal", "--profiles", str(profile_file),
+                               "--ignore", "ENGRAVE", "--format", "csv", "--units", "in"])
+    assert res.exit_code == 0, res.output
+    rows = list(csv.DictReader(io.StringIO(res.stdout)))
+    assert len(rows) == 1 and rows[0]["ok"] == "true" and rows[0]["pierces"] == "3"
+    assert float(rows[0]["cut_length_in"]) == pytest.approx((300 + 20 * math.pi) / 25.4, rel=1e-12)
+    res = runner.invoke(main, ["cut", str(plate), "--profile", "ideal", "--profiles", str(profile_file),
+                               "--ignore", "ENGRAVE"])
+    assert res.exit_code == 0 and "caution" in res.output and "Cut estimate" in res.output
+
+
+def test_cli_usage_errors(runner, plate, profile_file):
+    assert runner.invoke(main, ["cut", str(plate)]).exit_code == 2  # no profile
+    assert runner.invoke(main, ["cut", str(plate), "--profile", "nope"]).exit_code == 2
+    res = runner.invoke(main, ["cut", str(plate), "--profile", "steel-6mm-plasma", "--engrave", "ENGRAVE"])
+    assert res.exit_code == 2 and "engrave_feed_mm_min" in res.output
+
+
+def test_pvc_caution(runner, plate, profile_file):
+    text = profile_file.read_text().replace('material = "mild steel"', 'material = "PVC foam board"')
+    profile_file.write_text(text)
+    res = runner.invoke(main, ["cut", str(plate), "--profile", "ideal", "--profiles", str(profile_file),
+                               "--format", "json", "--ignore", "ENGRAVE"])
+    assert any(c.startswith("DO NOT laser-cut PVC") for c in json.loads(res.stdout)["cautions"])
+
+
+def test_calibrate_writes_back(runner, tmp_path):
+    jet = tmp_path / "jet.toml"
+    jet.write_text("""[profile.alu-jet]
+process = "waterjet"
+material = "aluminium"
+thickness_mm = 10.0
+pressure_mpa = 380.0
+orifice_mm = 0.33
+focus_tube_mm = 1.02
+abrasive_kg_min = 0.4
+machinability = 215.0
+quality = 3.0
+pierce_s = 8.0
+rapid_mm_min = 10000.0
+accel_mm_s2 = 1000.0
+rate_per_hour = 120.0
+""")
+    res = runner.invoke(main, ["cut", "--profile", "alu-jet", "--profiles", str(jet), "--calibrate", "250",
+                               "--test-thickness", "8", "--test-quality", "2"])
+    assert res.exit_code == 0, res.output
+    from pathlen.cli_cut import cutting_feed_mm_min  # the profile's own speed after calibration
+    from pathlen.estimates.waterjet import WaterjetInputs, waterjet_feed_mm_min
+
+    v = read_profile_file(jet)["alu-jet"].values
+    assert v["machinability"] != 215.0
+    inputs = WaterjetInputs(v["pressure_mpa"], v["orifice_mm"], v["focus_tube_mm"], v["abrasive_kg_min"],
+                            v["machinability"])
+    assert waterjet_feed_mm_min(inputs, 8.0, 2.0) == pytest.approx(250.0, rel=1e-5)  # written to 6 digits
+    assert cutting_feed_mm_min(read_profile_file(jet)["alu-jet"]) > 0
+    builtin = runner.invoke(main, ["cut", "--profile", "aluminium-10mm-waterjet", "--calibrate", "250"])
+    assert builtin.exit_code == 2 and "built in" in builtin.output

@@ -1,0 +1,78 @@
+"""Cutting order: never worse than the file's order, near an exact tour on small jobs, holes first."""
+
+import itertools
+
+import numpy as np
+import pytest
+
+from pathlen.estimates import tour as tour_module
+from pathlen.estimates.tour import plan_tour, tour_length
+
+HOME = np.zeros(2)
+
+
+def points_tour(p, parent=None):
+    n = len(p)
+    return plan_tour(p, p, np.ones(n, dtype=bool), np.full(n, -1) if parent is None else parent)
+
+
+@pytest.mark.parametrize("seed", range(25))
+def test_never_longer_than_file_order(seed):
+    rng = np.random.default_rng(seed)
+    p = rng.uniform(0, 500, (int(rng.integers(2, 60)), 2))
+    t = points_tour(p)
+    assert sorted(t.order.tolist()) == list(range(len(p)))
+    assert t.rapid_length <= tour_length(p, np.arange(len(p)), HOME) + 1e-9
+    assert t.rapid_length == pytest.approx(tour_length(p, t.order, HOME), rel=1e-12)
+
+
+def test_close_to_exact_tour_on_small_jobs():
+    # Reference: the exact shortest open tour from home, by brute force over all 7! orders.
+    rng = np.random.default_rng(11)
+    ratios = []
+    for _ in range(40):
+        p = rng.uniform(0, 100, (7, 2))
+        exact = min(tour_length(p, np.array(perm), HOME) for perm in itertools.permutations(range(7)))
+        ratios.append(points_tour(p).rapid_length / exact)
+    assert min(ratios) >= 1 - 1e-12
+    assert np.mean(ratios) <= 1.03
+    assert max(ratios) <= 1.15
+
+
+def nested_squares(n_parts, rng):
+    """Parts with two holes each, listed outer profile first (the wrong order for cutting)."""
+    starts, parent = [], []
+    for _k in range(n_parts):
+        x, y = rng.uniform(0, 2000, 2)
+        base = len(starts)
+        starts += [(x, y), (x + 5, y + 5), (x + 10, y + 5)]
+        parent += [-1, base, base]
+    return np.array(starts), np.array(parent)
+
+
+@pytest.mark.parametrize("parts", [5, 2000])
+def test_holes_before_their_part(parts):
+    rng = np.random.default_rng(2)
+    p, parent = nested_squares(parts, rng)
+    t = points_tour(p, parent)
+    pos = np.empty(len(p), dtype=int)
+    pos[t.order] = np.arange(len(p))
+    inner = parent >= 0
+    assert np.all(pos[inner] < pos[parent[inner]])
+    assert sorted(t.order.tolist()) == list(range(len(p)))
+
+
+def test_open_contours_are_entered_at_the_nearer_end():
+    start = np.array([[100.0, 0.0]])
+    end = np.array([[1.0, 0.0]])
+    t = plan_tour(start, end, np.array([False]), np.array([-1]))
+    assert t.reverse[0] and t.rapid_length == pytest.approx(1.0)
+
+
+def test_hilbert_start_is_a_permutation():
+    rng = np.random.default_rng(5)
+    p = rng.uniform(-50, 50, (3000, 2))
+    order = tour_module._hilbert_order(p)
+    assert sorted(order.tolist()) == list(range(3000))
+    # a space-filling curve keeps neighbours near: far shorter than a random order
+    assert tour_length(p, order, HOME) < 0.2 * tour_length(p, rng.permutation(3000), HOME)
