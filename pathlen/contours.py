@@ -7,6 +7,7 @@ orders the segments of each contour for cutting; :func:`gap_warnings` and
 
 from __future__ import annotations
 
+from collections.abc import Iterator
 from dataclasses import dataclass
 
 import numpy as np
@@ -85,30 +86,160 @@ class Contour:
     end: FloatArray  # [3] mm
 
 
-def chain_contours(table: SegmentTable, layer: IntArray, join_tol: float = DEFAULT_JOIN_TOL_MM,
-                   keep: NDArray[np.bool_] | None = None) -> list[Contour]:
-    """Chain the segments (rows where ``keep``) into contours, per layer.
+@dataclass(frozen=True)
+class ContourSet:
+    """All contours of a drawing as flat arrays: contour k is ``steps[first[k] : first[k] + size[k]]``.
 
-    Ends within ``join_tol`` (mm) on one layer meet at a node.  From each unused segment, in row
-    order, the chain is extended forwards and backwards through nodes, taking either direction of
-    a segment; a chain that comes back to its first node is closed.  Where more than two ends
-    meet (a branch), a chain stops when the node has no unused segment, and the rest starts new
-    chains.  Time is linear in the number of segments.
+    Indexing and iterating give :class:`Contour` views; bulk work uses the arrays.
+    """
+
+    steps: IntArray  # segment table rows, contour after contour, in cutting order
+    forward: NDArray[np.bool_]  # per step
+    first: IntArray  # per contour: its first step
+    size: IntArray  # per contour: its number of steps
+    closed: NDArray[np.bool_]
+    layer: IntArray
+    length: FloatArray  # mm
+    bound: FloatArray  # mm
+    start: FloatArray  # [n, 3] mm
+    end: FloatArray  # [n, 3] mm
+
+    def __len__(self) -> int:
+        return len(self.first)
+
+    def __getitem__(self, k: int) -> Contour:
+        a, m = int(self.first[k]), int(self.size[k])
+        return Contour(self.steps[a:a + m], self.forward[a:a + m], bool(self.closed[k]), int(self.layer[k]),
+                       float(self.length[k]), float(self.bound[k]), self.start[k], self.end[k])
+
+    def __iter__(self) -> Iterator[Contour]:
+        return (self[k] for k in range(len(self)))
+
+
+def chain_contours(table: SegmentTable, layer: IntArray, join_tol: float = DEFAULT_JOIN_TOL_MM,
+                   keep: NDArray[np.bool_] | None = None) -> ContourSet:
+    """Chain the segments (rows where ``keep``) into contours, per layer, ordered by first row.
+
+    Ends within ``join_tol`` (mm) on one layer meet at a node.  A connected piece whose nodes
+    join at most two ends (the usual case: loops and open runs) is one contour, ordered by list
+    ranking in numpy, starting from its lowest row cut forwards (an open run starts at the end
+    behind that row).  A piece with a branch (three or more ends at a node) is walked: from each
+    unused segment in row order the chain is extended forwards and backwards while the node has
+    an unused segment, and the rest starts new chains.  A chain back at its first node is closed.
     """
     n = len(table)
     rows = np.flatnonzero(keep) if keep is not None else np.arange(n)
     if len(rows) == 0:
-        return []
-    points = np.concatenate([table.start[rows], table.end[rows]])
-    groups = np.concatenate([layer[rows], layer[rows]])
-    pairs = close_pairs(points, join_tol, groups)
-    _, node = np.unique(components(len(points), pairs[:, 0], pairs[:, 1]), return_inverse=True)
+        none = np.zeros(0, dtype=np.int64)
+        return ContourSet(none, none.astype(bool), none, none, none.astype(bool), none, np.zeros(0), np.zeros(0),
+                          np.zeros((0, 3)), np.zeros((0, 3)))
     k = len(rows)
+    node = join_nodes(np.concatenate([table.start[rows], table.end[rows]]),
+                      np.concatenate([layer[rows], layer[rows]]), join_tol)
     node_of = np.stack([node[:k], node[k:]], axis=1)  # [k, 2]: node at start, at end
-    ends = np.argsort(node_of.ravel(), kind="stable")  # end ids (2 * i + which) grouped by node
-    ptr = np.searchsorted(node_of.ravel()[ends], np.arange(node.max() + 2))
+    nodes = int(node.max()) + 1
+    degree = np.bincount(node, minlength=nodes)
+    piece = components(nodes, node_of[:, 0], node_of[:, 1])[node_of[:, 0]]  # per segment
+    branched_piece = np.zeros(nodes, dtype=bool)
+    branched_piece[piece[(degree[node_of] > 2).any(axis=1)]] = True
+    branched = branched_piece[piece]
+    key_a, local_a, fwd_a = _simple_chains(node_of, ~branched, piece)
+    key_b, local_b, fwd_b = _walked_chains(node_of, branched)
+    key = np.concatenate([key_a, key_b])
+    local = np.concatenate([local_a, local_b])
+    fwd = np.concatenate([fwd_a, fwd_b])
+    order = np.argsort(key, kind="stable")  # chains by first row; steps keep their order
+    key, local, fwd = key[order], local[order], fwd[order]
+    sizes = np.diff(np.flatnonzero(np.r_[True, key[1:] != key[:-1], True]))
+    return _contours_from_chains(table, layer, rows, node_of, local, fwd, sizes)
+
+
+def join_nodes(points: FloatArray, groups: IntArray, tol: float) -> IntArray:
+    """Node number of each point: points of one group within ``tol`` (chained) share a node.
+
+    Identical points are merged first (sorted by a hash of their bits: a collision only leaves two
+    entries for one place, which the neighbour search then joins), so the search sees each place once.
+    """
+    bits = np.ascontiguousarray(points).view(np.uint64)
+    key = (bits[:, 0] * np.uint64(0x9E3779B97F4A7C15)) ^ (bits[:, 1] * np.uint64(0xC2B2AE3D27D4EB4F)) ^ (
+        bits[:, 2] * np.uint64(0x165667B19E3779F9)) ^ groups.astype(np.uint64)
+    order = np.argsort(key)
+    p, g = points[order], groups[order]
+    new = np.r_[True, np.any(p[1:] != p[:-1], axis=1) | (g[1:] != g[:-1])]
+    place = np.cumsum(new) - 1
+    first = np.flatnonzero(new)
+    pairs = close_pairs(p[first], tol, g[first])
+    _, label = np.unique(components(len(first), pairs[:, 0], pairs[:, 1]), return_inverse=True)
+    node = np.empty(len(points), dtype=np.int64)
+    node[order] = label[place]
+    return node
+
+
+def _simple_chains(node_of: IntArray, simple: NDArray[np.bool_], piece: IntArray
+                   ) -> tuple[IntArray, IntArray, NDArray[np.bool_]]:
+    """Chains of the pieces without branches: (chain key = lowest row, segment, forward) per step.
+
+    Segment i is entered at end e = 2i (its start: cut forwards) or 2i + 1; the next entry after
+    entering at e is the other end at the node where ``e ^ 1`` lies.  Loops are cut open just
+    before their lowest row entered forwards; Wyllie's list ranking (pointer doubling) then gives
+    each entry its distance to the end of its run, and the run that holds that entry is the chain.
+    """
+    seg = np.flatnonzero(simple)
+    if len(seg) == 0:
+        return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64), np.zeros(0, dtype=bool)
+    k = len(node_of)
+    ends = np.r_[2 * seg, 2 * seg + 1]
+    at = node_of.ravel()[ends]
+    by_node = np.argsort(at, kind="stable")
+    partner = np.full(2 * k, -1, dtype=np.int64)
+    same = np.flatnonzero(at[by_node][1:] == at[by_node][:-1])  # simple: at most two ends per node
+    partner[ends[by_node][same]] = ends[by_node][same + 1]
+    partner[ends[by_node][same + 1]] = ends[by_node][same]
+    succ = np.full(2 * k, -1, dtype=np.int64)
+    succ[ends] = partner[ends ^ 1]
+    low = np.full(int(piece.max()) + 1, k, dtype=np.int64)
+    np.minimum.at(low, piece[seg], seg)
+    heads = np.unique(low[piece[seg]])
+    start = 2 * heads
+    loop = partner[start] >= 0
+    loop &= _is_loop(piece, node_of, heads, partner, seg)
+    succ[partner[start[loop]] ^ 1] = -1  # open each loop just before its start
+    ptr = np.where(succ >= 0, succ, np.arange(2 * k))
+    dist = (succ >= 0).astype(np.int64)
+    for _ in range(int(np.ceil(np.log2(2 * k + 1))) + 1):
+        dist = dist + dist[ptr]
+        ptr = ptr[ptr]
+    chain_of_head = dict(zip(ptr[start].tolist(), heads.tolist(), strict=True))
+    terminal = ptr[ends]
+    head_of_terminal = np.full(2 * k, -1, dtype=np.int64)
+    head_of_terminal[list(chain_of_head)] = list(chain_of_head.values())
+    member = ends[head_of_terminal[terminal] >= 0]
+    member = member[ptr[ptr[member]] == ptr[member]]  # converged (not the unopened copy of a loop)
+    key = head_of_terminal[ptr[member]]
+    order = np.lexsort((-dist[member], key))
+    member, key = member[order], key[order]
+    return key, member >> 1, (member & 1) == 0
+
+
+def _is_loop(piece: IntArray, node_of: IntArray, heads: IntArray, partner: IntArray, seg: IntArray) -> NDArray:
+    """Whether each head's piece is a loop (no node with a single end)."""
+    ends = np.r_[2 * seg, 2 * seg + 1]
+    loose = np.zeros(int(piece.max()) + 1, dtype=bool)
+    loose[piece[ends[partner[ends] < 0] >> 1]] = True
+    return ~loose[piece[heads]]
+
+
+def _walked_chains(node_of: IntArray, branched: NDArray[np.bool_]) -> tuple[IntArray, IntArray, NDArray[np.bool_]]:
+    """Chains through pieces with branches, walked greedily in row order (see :func:`chain_contours`)."""
+    seg = np.flatnonzero(branched)
+    if len(seg) == 0:
+        return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64), np.zeros(0, dtype=bool)
+    ends = np.r_[2 * seg, 2 * seg + 1]
+    ends = ends[np.argsort(node_of.ravel()[ends], kind="stable")]
+    at = node_of.ravel()[ends]
+    ptr = np.searchsorted(at, np.arange(int(node_of.max()) + 2))
     ends_l, ptr_l, node_l = ends.tolist(), ptr.tolist(), node_of.tolist()
-    used = bytearray(k)
+    used = bytearray(len(node_of))
 
     def walk(at: int) -> list[tuple[int, bool]]:
         path = []
@@ -123,33 +254,44 @@ def chain_contours(table: SegmentTable, layer: IntArray, join_tol: float = DEFAU
             path.append((i, which == 0))  # entered at its start: cut forwards
             at = node_l[i][1 - which]
 
-    contours = []
-    for i in range(k):
+    keys, steps = [], []
+    for i in seg.tolist():
         if used[i]:
             continue
         used[i] = 1
         ahead = walk(node_l[i][1])
         behind = walk(node_l[i][0]) if not ahead or node_l[ahead[-1][0]][ahead[-1][1]] != node_l[i][0] else []
         chain = [(j, not f) for j, f in reversed(behind)] + [(i, True)] + ahead
-        idx = np.array([rows[j] for j, _ in chain])
-        fwd = np.array([f for _, f in chain])
-        first_node = node_l[chain[0][0]][0 if chain[0][1] else 1]
-        last_node = node_l[chain[-1][0]][1 if chain[-1][1] else 0]
-        start = table.start[idx[0]] if fwd[0] else table.end[idx[0]]
-        end = table.end[idx[-1]] if fwd[-1] else table.start[idx[-1]]
-        contours.append(Contour(idx, fwd, first_node == last_node, int(layer[idx[0]]),
-                                float(table.length[idx].sum()), float(table.bound[idx].sum()), start, end))
-    return contours
+        keys += [i] * len(chain)
+        steps += chain
+    return (np.array(keys, dtype=np.int64), np.array([j for j, _ in steps], dtype=np.int64),
+            np.array([f for _, f in steps], dtype=bool))
 
 
-def gap_warnings(contours: list[Contour], layer_names: list[str], join_tol: float,
+def _contours_from_chains(table: SegmentTable, layer: IntArray, rows: IntArray, node_of: IntArray,
+                          local: IntArray, fwd: NDArray[np.bool_], sizes: IntArray) -> ContourSet:
+    """The contour set for chains given as flat steps (local index, forward) and chain sizes."""
+    first = np.cumsum(sizes) - sizes
+    last = first + sizes - 1
+    seg = rows[local]
+    start_node = np.where(fwd[first], node_of[local[first], 0], node_of[local[first], 1])
+    end_node = np.where(fwd[last], node_of[local[last], 1], node_of[local[last], 0])
+    return ContourSet(
+        steps=seg, forward=fwd, first=first, size=sizes, closed=start_node == end_node, layer=layer[seg[first]],
+        length=np.add.reduceat(table.length[seg], first), bound=np.add.reduceat(table.bound[seg], first),
+        start=np.where(fwd[first, None], table.start[seg[first]], table.end[seg[first]]),
+        end=np.where(fwd[last, None], table.end[seg[last]], table.start[seg[last]]),
+    )
+
+
+def gap_warnings(contours: ContourSet, layer_names: list[str], join_tol: float,
                  gap_tol: float = DEFAULT_GAP_REPORT_MM) -> list[str]:
     """Open contour ends closer than ``gap_tol`` but not joined: the usual cause of a part that will not cut clean."""
-    open_ = [c for c in contours if not c.closed]
+    open_ = np.flatnonzero(~contours.closed)
     if len(open_) == 0 or gap_tol <= join_tol:
         return []
-    points = np.array([p for c in open_ for p in (c.start, c.end)])
-    groups = np.repeat([c.layer for c in open_], 2)
+    points = np.stack([contours.start[open_], contours.end[open_]], axis=1).reshape(-1, 3)
+    groups = np.repeat(contours.layer[open_], 2)
     pairs = close_pairs(points, gap_tol, groups)
     d = np.linalg.norm(points[pairs[:, 0]] - points[pairs[:, 1]], axis=1)
     near = d > join_tol  # including the two ends of one nearly closed contour
@@ -168,9 +310,7 @@ def duplicate_segments(table: SegmentTable, layer: IntArray, tol: float = DEFAUL
     middle point and length within ``tol`` mm): the first of each group is kept, the rest returned."""
     if len(table) < 2:
         return np.zeros(0, dtype=np.int64)
-    middle = table.samples[:, table.samples.shape[1] // 2]
-    lines = ~np.isfinite(table.min_radius) & np.all(table.samples[:, 2:] == table.end[:, None], axis=(1, 2))
-    middle = np.where(lines[:, None], 0.5 * (table.start + table.end), middle)
+    middle = table.middle
     pairs = close_pairs(middle, tol, layer)
     a, b = pairs[:, 0], pairs[:, 1]
 

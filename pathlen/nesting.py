@@ -9,7 +9,7 @@ from __future__ import annotations
 import numpy as np
 import shapely
 
-from pathlen.contours import Contour
+from pathlen.contours import Contour, ContourSet
 from pathlen.geometry import IntArray
 from pathlen.segments import SegmentTable
 
@@ -19,42 +19,62 @@ OFFSET_QUAD_SEGS = 64
 
 def contour_polygon(table: SegmentTable, contour: Contour) -> shapely.Polygon:
     """The closed contour as a polygon through its sample points (x, y)."""
-    pieces = [table.samples[i] if f else table.samples[i][::-1] for i, f in
-              zip(contour.segments.tolist(), contour.forward.tolist(), strict=True)]
-    ring = np.concatenate(pieces)[:, :2]
+    ring = contour_outline(table, contour)
     return shapely.Polygon(ring).buffer(0) if len(ring) >= 4 else shapely.Polygon()
 
 
-def nesting_depth(table: SegmentTable, contours: list[Contour]) -> tuple[IntArray, IntArray, list[shapely.Polygon]]:
+def contour_outline(table: SegmentTable, contour: Contour) -> np.ndarray:
+    """The contour's sample points (x, y) in cutting order, a closed ring for a closed contour."""
+    pts = table.samples(contour.segments)[:, :, :2]
+    pts = np.where(contour.forward[:, None, None], pts, pts[:, ::-1])
+    return pts.reshape(-1, 2)
+
+
+def _inside(point: np.ndarray, ring: np.ndarray) -> bool:
+    """Crossing-number test: is ``point`` strictly inside the closed ring (points on it count as out)?"""
+    a, b = ring[:-1], ring[1:]
+    straddle = (a[:, 1] > point[1]) != (b[:, 1] > point[1])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        x = a[:, 0] + (point[1] - a[:, 1]) * (b[:, 0] - a[:, 0]) / (b[:, 1] - a[:, 1])
+    if np.any(straddle & (x == point[0])):
+        return False
+    return bool(np.count_nonzero(straddle & (x > point[0])) % 2)
+
+
+def nesting_depth(table: SegmentTable, contours: ContourSet) -> tuple[IntArray, IntArray]:
     """For each contour: how many closed contours contain it, and the innermost one (-1: none).
 
-    A contour is inside another when its start point lies strictly inside the other's polygon
-    (any layer).  Even depth: an outer profile; odd depth: a hole.
+    A contour is inside another when its start point lies strictly inside the other's outline
+    (any layer).  Even depth: an outer profile; odd depth: a hole.  Bounding boxes (an STRtree)
+    pick the candidates; each candidate is settled by a crossing-number test on the outline.
     """
     n = len(contours)
-    polygons = [contour_polygon(table, c) if c.closed else shapely.Polygon() for c in contours]
     depth = np.zeros(n, dtype=np.int64)
     parent = np.full(n, -1, dtype=np.int64)
-    if n == 0:
-        return depth, parent, polygons
-    closed = np.array([c.closed and not p.is_empty for c, p in zip(contours, polygons, strict=True)])
-    idx = np.flatnonzero(closed)
-    if len(idx) == 0:
-        return depth, parent, polygons
-    tree = shapely.STRtree([polygons[i] for i in idx])
-    starts = shapely.points(np.array([c.start[:2] for c in contours]))
-    point_i, poly_j = tree.query(starts, predicate="within")
-    container = idx[poly_j]
+    closed = np.flatnonzero(contours.closed)
+    if len(closed) == 0:
+        return depth, parent
+    lo = np.minimum.reduceat(table.lo[contours.steps, :2], contours.first)[closed]
+    hi = np.maximum.reduceat(table.hi[contours.steps, :2], contours.first)[closed]
+    tree = shapely.STRtree(shapely.box(lo[:, 0], lo[:, 1], hi[:, 0], hi[:, 1]))
+    starts = contours.start[:, :2]
+    point_i, box_j = tree.query(shapely.points(starts), predicate="intersects")
+    container = closed[box_j]
     keep = container != point_i
     point_i, container = point_i[keep], container[keep]
+    hits = [_inside(starts[i], contour_outline(table, contours[j])) for i, j in
+            zip(point_i.tolist(), container.tolist(), strict=True)]
+    point_i, container = point_i[np.array(hits, dtype=bool)], container[np.array(hits, dtype=bool)]
     if len(point_i) == 0:
-        return depth, parent, polygons
+        return depth, parent
     np.add.at(depth, point_i, 1)
-    area = np.array([p.area for p in polygons])
-    order = np.lexsort((-area[container], point_i))  # per contour, smallest container last
-    last = np.r_[point_i[order][1:] != point_i[order][:-1], True]
-    parent[point_i[order][last]] = container[order][last]
-    return depth, parent, polygons
+    size = (hi - lo).prod(axis=1)
+    box_size = np.zeros(n)
+    box_size[closed] = size
+    pick = np.lexsort((-box_size[container], point_i))  # per contour, the smallest container last
+    last = np.r_[point_i[pick][1:] != point_i[pick][:-1], True]
+    parent[point_i[pick][last]] = container[pick][last]
+    return depth, parent
 
 
 def offset_length_change(polygon: shapely.Polygon, distance: float) -> float | None:
@@ -90,7 +110,7 @@ def contour_turning(table: SegmentTable, contour: Contour) -> tuple[float, np.nd
     samples (true for the sample density of the table).  Corners include the last-to-first joint.
     """
     idx, fwd = contour.segments, contour.forward
-    pts = table.samples[idx][:, :, :2]
+    pts = table.samples(idx)[:, :, :2]
     pts = np.where(fwd[:, None, None], pts, pts[:, ::-1])
     t_in = np.where(fwd[:, None], table.start_dir[idx], -table.end_dir[idx])[:, :2]
     t_out = np.where(fwd[:, None], table.end_dir[idx], -table.start_dir[idx])[:, :2]

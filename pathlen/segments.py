@@ -2,14 +2,16 @@
 
 Rows follow the drawing's batches in a fixed order: lines, elliptic arcs, then Béziers by
 increasing degree.  Each row has its end points, unit tangents at both ends (direction of the
-parametrisation), measured length and bound (mm), smallest radius of curvature (mm; ``inf`` for
-lines) and a few sample points along it, used for containment tests and kerf offsets only,
-never for length.
+parametrisation), measured length and bound (mm), a point at mid-parameter and a bounding box
+that holds the segment (exact for lines, the whole ellipse for arcs, the control polygon for
+Béziers).  Sample points along a segment (for outlines, turning and curvature: never for length)
+and the smallest radius of curvature are computed on demand, only for the rows that need them.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 from math import comb
 
 import numpy as np
@@ -18,7 +20,7 @@ from pathlen.geometry import Drawing, FloatArray, IntArray
 from pathlen.measure import Measurement
 from pathlen.measure.closed_forms import ellipse_frame
 
-#: Sample points per curved segment (lines have their two end points).
+#: Sample points per segment in :meth:`SegmentTable.samples` (both ends included).
 CURVE_SAMPLES = 17
 
 
@@ -30,12 +32,58 @@ class SegmentTable:
     end_dir: FloatArray  # [n, 3] unit tangent at the end
     length: FloatArray  # [n] mm
     bound: FloatArray  # [n] mm
-    min_radius: FloatArray  # [n] mm, inf for straight segments
     entity: IntArray  # [n]
-    samples: FloatArray  # [n, CURVE_SAMPLES, 3]: lines repeat their end point after the second sample
+    middle: FloatArray  # [n, 3] the point at mid-parameter
+    lo: FloatArray  # [n, 3] a box holding the segment
+    hi: FloatArray  # [n, 3]
+    drawing: Drawing
 
     def __len__(self) -> int:
         return len(self.entity)
+
+    @cached_property
+    def _offsets(self) -> list[tuple[str, int, int]]:
+        """(batch key, first row, row count) in row order."""
+        out = [("lines", 0, len(self.drawing.lines)), ("arcs", len(self.drawing.lines), len(self.drawing.arcs))]
+        first = out[-1][1] + out[-1][2]
+        for degree in sorted(self.drawing.beziers):
+            out.append((f"bezier{degree}", first, len(self.drawing.beziers[degree])))
+            first += out[-1][2]
+        return out
+
+    def samples(self, rows: IntArray) -> FloatArray:
+        """``[len(rows), CURVE_SAMPLES, 3]`` points at equal parameter steps (lines: equal steps too)."""
+        rows = np.asarray(rows, dtype=np.int64)
+        out = np.empty((len(rows), CURVE_SAMPLES, 3))
+        t = np.linspace(0.0, 1.0, CURVE_SAMPLES)
+        for key, first, count in self._offsets:
+            sel = np.flatnonzero((rows >= first) & (rows < first + count))
+            if len(sel) == 0:
+                continue
+            local = rows[sel] - first
+            if key == "lines":
+                b = self.drawing.lines
+                out[sel] = b.p0[local, None, :] + (b.p1 - b.p0)[local, None, :] * t[None, :, None]
+            elif key == "arcs":
+                b = self.drawing.arcs
+                s = b.t0[local, None] + (b.t1 - b.t0)[local, None] * t[None, :]
+                out[sel] = (b.center[local, None] + b.u[local, None] * np.cos(s)[..., None]
+                            + b.v[local, None] * np.sin(s)[..., None])
+            else:
+                out[sel] = _bezier_points(self.drawing.beziers[int(key[6:])], local, t)
+        return out
+
+    @cached_property
+    def min_radius(self) -> FloatArray:
+        """Smallest radius of curvature per row (mm): inf for lines, b²/a for arcs, sampled for Béziers."""
+        r = np.full(len(self), np.inf)
+        for key, first, count in self._offsets:
+            if key == "arcs" and count:
+                a, m, _ = ellipse_frame(self.drawing.arcs.u, self.drawing.arcs.v)
+                r[first:first + count] = a * (1.0 - m)  # b²/a
+            elif key.startswith("bezier") and count:
+                r[first:first + count] = _sampled_min_radius(self.samples(np.arange(first, first + count)))
+        return r
 
 
 def segment_table(drawing: Drawing, measured: Measurement) -> SegmentTable:
@@ -44,7 +92,7 @@ def segment_table(drawing: Drawing, measured: Measurement) -> SegmentTable:
     for degree in sorted(drawing.beziers):
         parts.append(_beziers(drawing, measured, degree))
     cols = list(zip(*parts, strict=True))
-    return SegmentTable(*(np.concatenate(c) for c in cols))
+    return SegmentTable(*(np.concatenate(c) for c in cols), drawing=drawing)
 
 
 def _unit(v: FloatArray) -> FloatArray:
@@ -55,37 +103,38 @@ def _unit(v: FloatArray) -> FloatArray:
 def _lines(drawing: Drawing, measured: Measurement) -> tuple:
     b = drawing.lines
     d = _unit(b.p1 - b.p0)
-    samples = np.repeat(b.p1[:, None, :], CURVE_SAMPLES, axis=1)
-    samples[:, 0] = b.p0
-    return (b.p0, b.p1, d, d, measured.lines.length, measured.lines.bound, np.full(len(b), np.inf), b.entity,
-            samples)
+    return (b.p0, b.p1, d, d, measured.lines.length, measured.lines.bound, b.entity, 0.5 * (b.p0 + b.p1),
+            np.minimum(b.p0, b.p1), np.maximum(b.p0, b.p1))
 
 
 def _arcs(drawing: Drawing, measured: Measurement) -> tuple:
     b = drawing.arcs
-    a, m, _ = ellipse_frame(b.u, b.v)
-    t = b.t0[:, None] + (b.t1 - b.t0)[:, None] * np.linspace(0.0, 1.0, CURVE_SAMPLES)[None, :]
-    samples = (b.center[:, None, :] + b.u[:, None, :] * np.cos(t)[..., None] + b.v[:, None, :] * np.sin(t)[..., None])
 
     def tangent(s: FloatArray) -> FloatArray:
         return _unit(-b.u * np.sin(s)[:, None] + b.v * np.cos(s)[:, None])
 
-    radius = a * (1.0 - m)  # b²/a: the smallest radius of curvature of the ellipse
+    reach = np.sqrt(b.u**2 + b.v**2)  # per axis, the half-width of the whole ellipse's box
     return (b.points(b.t0), b.points(b.t1), tangent(b.t0), tangent(b.t1), measured.arcs.length,
-            measured.arcs.bound, radius, b.entity, samples)
+            measured.arcs.bound, b.entity, b.points(0.5 * (b.t0 + b.t1)), b.center - reach, b.center + reach)
+
+
+def _bezier_points(b: object, rows: IntArray, t: FloatArray) -> FloatArray:
+    """Points of (rational) Bézier rows at parameters ``t``: [len(rows), len(t), 3]."""
+    ctrl, w = b.ctrl[rows], b.weights[rows]  # type: ignore[attr-defined]
+    degree = ctrl.shape[1] - 1
+    basis = np.stack([comb(degree, i) * t**i * (1 - t) ** (degree - i) for i in range(degree + 1)], axis=1)
+    hom = np.einsum("kj,nj,njc->nkc", basis, w, ctrl)
+    return hom / np.einsum("kj,nj->nk", basis, w)[..., None]
 
 
 def _beziers(drawing: Drawing, measured: Measurement, degree: int) -> tuple:
     b = drawing.beziers[degree]
-    ctrl, w = b.ctrl, b.weights
-    t = np.linspace(0.0, 1.0, CURVE_SAMPLES)
-    basis = np.stack([comb(degree, i) * t**i * (1 - t) ** (degree - i) for i in range(degree + 1)], axis=1)
-    hom = np.einsum("kj,nj,njc->nkc", basis, w, ctrl)
-    samples = hom / np.einsum("kj,nj->nk", basis, w)[..., None]
+    ctrl = b.ctrl
     start_dir = _first_nonzero(ctrl[:, 1:] - ctrl[:, :1])
     end_dir = _first_nonzero(ctrl[:, -1:] - ctrl[:, -2::-1])
+    middle = _bezier_points(b, np.arange(len(b)), np.array([0.5]))[:, 0]
     return (ctrl[:, 0], ctrl[:, -1], start_dir, end_dir, measured.beziers[degree].length,
-            measured.beziers[degree].bound, _sampled_min_radius(samples), b.entity, samples)
+            measured.beziers[degree].bound, b.entity, middle, ctrl.min(axis=1), ctrl.max(axis=1))
 
 
 def _first_nonzero(diffs: FloatArray) -> FloatArray:

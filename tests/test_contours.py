@@ -1,5 +1,6 @@
 """Contour chaining, gaps, duplicates, nesting and exact kerf offsets."""
 
+import itertools
 import math
 
 import mpmath as mp
@@ -94,7 +95,7 @@ def test_nesting_depth_and_parent():
               ("CUT", "polyline", square(200, 0, 10))]
     _, table, _, layer = build(shapes)
     contours = chain_contours(table, layer)
-    depth, parent, _ = nesting_depth(table, contours)
+    depth, parent = nesting_depth(table, contours)
     by_start = {tuple(np.round(c.start[:2], 6)): k for k, c in enumerate(contours)}
     outer, mid, inner = by_start[(0, 0)], by_start[(10, 10)], by_start[(20, 20)]
     hole = by_start[(85, 80)]
@@ -157,3 +158,33 @@ def test_offset_of_an_ellipse_against_mpmath():
     table, contour = one_contour([("CUT", "arc", ((0, 0), (a, 0), (0, b), 0, 2 * math.pi))])
     assert contour.length == pytest.approx(float(4 * a * mp.ellipe(1 - (b / a) ** 2)), rel=1e-12)
     assert kerf_length_change(table, contour, d) == pytest.approx(2 * math.pi * d, rel=1e-12)
+
+
+@pytest.mark.parametrize("seed", range(8))
+def test_chains_of_shuffled_reversed_loops_and_runs(seed):
+    # Random closed polygons and open runs, their segments shuffled and half of them drawn backwards:
+    # every loop must come back as one closed contour and every run as one open contour, each step
+    # starting where the previous one ended (checked here directly on the geometry).
+    rng = np.random.default_rng(seed)
+    shapes, truth = [], []
+    for k in range(int(rng.integers(1, 12))):
+        m = int(rng.integers(1, 7))
+        closed = bool(rng.random() < 0.6) and m >= 2
+        centre = rng.uniform(0, 500, 2) + 1000 * k
+        pts = [tuple(centre + rng.uniform(-20, 20, 2)) for _ in range(m + 1)]
+        if closed:
+            pts[-1] = pts[0]
+        truth.append((closed, m))
+        for a, b in itertools.pairwise(pts):
+            shapes.append([b, a] if rng.random() < 0.5 else [a, b])
+    order = rng.permutation(len(shapes))
+    _, table, _, layer = build([("CUT", "polyline", shapes[i]) for i in order])
+    contours = chain_contours(table, layer)
+    assert sorted(np.concatenate([c.segments for c in contours]).tolist()) == list(range(len(shapes)))
+    assert sorted((c.closed, len(c.segments)) for c in contours) == sorted(truth)
+    for c in contours:
+        a = np.where(c.forward[:, None], table.start[c.segments], table.end[c.segments])
+        b = np.where(c.forward[:, None], table.end[c.segments], table.start[c.segments])
+        assert np.allclose(a[1:], b[:-1])
+        assert np.allclose(a[0], c.start) and np.allclose(b[-1], c.end)
+        assert c.closed == bool(np.allclose(c.start, c.end))

@@ -31,7 +31,7 @@ from pathlen.estimates.tour import plan_tour
 from pathlen.estimates.waterjet import WaterjetInputs, waterjet_feed_mm_min
 from pathlen.importers import ImportOptions, read_drawing
 from pathlen.measure import DEFAULT_RTOL, measure
-from pathlen.nesting import kerf_length_change, nesting_depth, offset_length_change
+from pathlen.nesting import contour_polygon, kerf_length_change, nesting_depth, offset_length_change
 from pathlen.profiles import Profile
 from pathlen.segments import SegmentTable, segment_layers, segment_table
 
@@ -141,8 +141,8 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
         raise UsageError(f"profile {p.name!r} has no engrave_feed_mm_min, needed for the engraved layers")
     contours = chain_contours(table, layer, s.join_tol_mm, keep)
     warnings += gap_warnings(contours, layer_names, s.join_tol_mm, s.gap_report_mm)
-    engraved = np.array([role[c.segments[0]] == 2 for c in contours], dtype=bool)
-    depth, parent, polygons = nesting_depth(table, contours)
+    engraved = role[contours.steps[contours.first]] == 2
+    depth, parent = nesting_depth(table, contours)
     feed = cutting_feed_mm_min(p)
     result = CutEstimate(path, ok=True, quantity=s.quantity, feed_mm_min=feed, warnings=warnings)
     motion_s = cutting_s = 0.0
@@ -158,11 +158,12 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
             lead_in, lead_out = p.lead_in_mm, p.lead_out_mm
             change = 0.0
             hole = c.closed and depth[k] % 2 == 1
-            if hole and _small_hole(polygons[k], p):
+            polygon = contour_polygon(table, c) if c.closed else None
+            if hole and _small_hole(polygon, p):
                 f *= p.small_hole_feed_factor
                 small_holes += 1
             if c.closed and p.kerf_offset and p.kerf_mm > 0:
-                change, trouble = _kerf_change(table, c, polygons[k], (-0.5 if hole else 0.5) * p.kerf_mm)
+                change, trouble = _kerf_change(table, c, polygon, (-0.5 if hole else 0.5) * p.kerf_mm)
                 narrow_holes += trouble == "narrow"
                 rough_offsets += trouble == "rough"
             open_cut += not c.closed
@@ -174,7 +175,7 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
         total_length = c.length + change + lead_in + lead_out
         cutting_s += total_length / (f / 60.0)
         motion_s += _contour_motion_s(table, c, f / 60.0, p, lead_in, lead_out, change)
-    result.closed = sum(c.closed for c in contours)
+    result.closed = int(contours.closed.sum())
     result.open = len(contours) - result.closed
     if small_holes:
         warnings.append(f"{small_holes} small holes cut at {p.small_hole_feed_factor:g} x feed")
@@ -185,9 +186,7 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
                         "length is approximate")
     if open_cut:
         warnings.append(f"{open_cut} open contours cut as drawn: check the drawing if they should be closed")
-    tour = plan_tour(np.array([c.start[:2] for c in contours]).reshape(-1, 2),
-                     np.array([c.end[:2] for c in contours]).reshape(-1, 2),
-                     np.array([c.closed for c in contours], dtype=bool),
+    tour = plan_tour(contours.start[:, :2], contours.end[:, :2], contours.closed,
                      np.where(np.isin(parent, np.flatnonzero(~engraved)), parent, -1), s.home)
     rapid_v = p.rapid_mm_min / 60.0
     result.rapid_length_mm = tour.rapid_length

@@ -11,6 +11,7 @@ so a pass costs ``O(n · window)``.  The file's own order is kept when it is val
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -22,8 +23,8 @@ from pathlen.geometry import FloatArray, IntArray
 FULL_2OPT = 400
 #: Positions compared by windowed 2-opt on longer jobs.
 WINDOW = 12
-#: Rounds of windowed 2-opt on longer jobs (each applies every non-overlapping improving move).
-WINDOW_ROUNDS = 6
+#: Most rounds of windowed 2-opt on longer jobs (each applies every non-overlapping improving move).
+WINDOW_ROUNDS = 40
 #: Largest job started by nearest neighbour; longer ones start from a Hilbert-curve order,
 #: which costs O(n log n) instead of a k-d tree query per contour.
 NEAREST_NEIGHBOUR_MAX = 4000
@@ -155,40 +156,44 @@ def _two_opt(points: FloatArray, order: IntArray, parent: IntArray, home: FloatA
 
     Path position 0 is home and position k the k-th contour; reversing positions i+1 .. j swaps
     the edges (i, i+1) and (j, j+1) for (i, j) and (i+1, j+1) (no edge after the last position).
-    Every round scores all moves within the window at once and applies the best ones that do not
-    overlap; rounds repeat until no move shortens the path.
+    Every round scores the moves of the positions still in play at once and applies the best
+    ones that do not overlap; only positions near an applied move stay in play for the next round.
     """
     n = len(order)
     if n < 3:
         return order
     width = n if n <= FULL_2OPT else WINDOW
+    rounds = 10 * n if n <= FULL_2OPT else WINDOW_ROUNDS
     order = order.copy()
-    i = np.arange(n - 1)[:, None]
-    j = i + np.arange(2, width + 1)[None, :]
-    valid = j <= n
-    jc = np.minimum(j, n)
-    inner = j < n
-    after = np.minimum(j + 1, n)
-    for _ in range(10 * n if n <= FULL_2OPT else WINDOW_ROUNDS):
+    in_play = np.ones(n - 1, dtype=bool)
+    steps = np.arange(2, width + 1)[None, :]
+    for _ in range(rounds):
+        i = np.flatnonzero(in_play)
+        if len(i) == 0:
+            break
         path = np.vstack([home[None, :], points[order]])
         edge = np.linalg.norm(np.diff(path, axis=0), axis=1)
-        new = np.linalg.norm(path[jc] - path[i], axis=2) + np.where(
-            inner, np.linalg.norm(path[after] - path[i + 1], axis=2), 0.0)
-        old = edge[i] + np.where(inner, edge[np.minimum(j, n - 1)], 0.0)
+        j = i[:, None] + steps
+        valid = j <= n
+        jc = np.minimum(j, n)
+        inner = j < n
+        new = np.linalg.norm(path[jc] - path[i][:, None], axis=2) + np.where(
+            inner, np.linalg.norm(path[np.minimum(j + 1, n)] - path[i + 1][:, None], axis=2), 0.0)
+        old = edge[i][:, None] + np.where(inner, edge[np.minimum(j, n - 1)], 0.0)
         delta = np.where(valid, new - old, 0.0)
         best = np.argmin(delta, axis=1)
-        gain = delta[np.arange(n - 1), best]
-        rows = np.flatnonzero(gain < -1e-9 * (1.0 + edge[:-1]))
-        if len(rows) == 0:
-            break
+        gain = delta[np.arange(len(i)), best]
+        good = np.flatnonzero(gain < -1e-9 * (1.0 + edge[i]))
+        in_play[:] = False
         taken = np.zeros(n + 2, dtype=bool)
         applied = 0
-        for r in rows[np.argsort(gain[rows])].tolist():
-            end = int(j[r, best[r]])
-            if taken[r:end + 2].any() or not _stretch_keeps_holes_first(order[r:end], parent):
+        for g in good[np.argsort(gain[good])].tolist():
+            r, stop = int(i[g]), int(j[g, best[g]])
+            if taken[r:stop + 2].any() or not _stretch_keeps_holes_first(order[r:stop], parent):
                 continue
-            order[r:end] = order[r:end][::-1].copy()
-            taken[r:end + 2] = True
+            order[r:stop] = order[r:stop][::-1].copy()
+            taken[r:stop + 2] = True
+            in_play[max(0, r - width - 1):min(n - 1, stop + 2)] = True
             applied += 1
         if applied == 0:
             break
@@ -205,15 +210,24 @@ def _stretch_keeps_holes_first(stretch: IntArray, parent: IntArray) -> bool:
 
 def _orient(start: FloatArray, end: FloatArray, closed: np.ndarray, order: IntArray, home: FloatArray) -> Tour:
     """Choose, in order, which way round to cut each open contour (the nearer end first)."""
-    reverse = np.zeros(len(start), dtype=bool)
-    moves = np.zeros(len(order))
-    at = home
-    for k, i in enumerate(order.tolist()):
-        d_start = float(np.linalg.norm(start[i] - at))
-        if not closed[i]:
-            d_end = float(np.linalg.norm(end[i] - at))
-            if d_end < d_start:
-                reverse[i] = True
-        moves[k] = float(np.linalg.norm((end[i] if reverse[i] else start[i]) - at))
-        at = start[i] if (reverse[i] or closed[i]) else end[i]
-    return Tour(order, reverse, moves)
+    n = len(start)
+    reverse = np.zeros(n, dtype=bool)
+    if closed.all():  # every exit is the entry: one vectorised pass
+        path = np.vstack([home[None, :], start[order]])
+        return Tour(order, reverse, np.linalg.norm(np.diff(path, axis=0), axis=1))
+    sx, sy = start[:, 0].tolist(), start[:, 1].tolist()
+    ex, ey = end[:, 0].tolist(), end[:, 1].tolist()
+    shut = closed.tolist()
+    moves = []
+    x, y = float(home[0]), float(home[1])
+    for i in order.tolist():
+        d_start = math.hypot(sx[i] - x, sy[i] - y)
+        d_end = math.hypot(ex[i] - x, ey[i] - y)
+        if not shut[i] and d_end < d_start:
+            reverse[i] = True
+            moves.append(d_end)
+            x, y = sx[i], sy[i]
+        else:
+            moves.append(d_start)
+            x, y = (sx[i], sy[i]) if shut[i] else (ex[i], ey[i])
+    return Tour(order, reverse, np.array(moves))
