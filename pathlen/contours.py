@@ -322,3 +322,46 @@ def duplicate_segments(table: SegmentTable, layer: IntArray, tol: float = DEFAUL
     same = (same_way | other_way) & (np.abs(table.length[a] - table.length[b]) <= tol)
     label = components(len(table), a[same], b[same])
     return np.flatnonzero(label != np.arange(len(table)))
+
+
+def overlapping_lines(table: SegmentTable, layer: IntArray, rows: IntArray, tol: float = DEFAULT_JOIN_TOL_MM
+                      ) -> tuple[int, float]:
+    """Straight segments (among ``rows``) lying on one line on one layer and overlapping: how many
+    overlaps and their total length (mm), counted once (pass rows without exact duplicates to count
+    only partial overlaps).
+
+    Lines are grouped by direction (to 1e-6 rad) and distance from the origin (to ``tol``); within
+    a group the covered intervals along the line are merged.  Lines that are collinear only within
+    the tolerance but fall either side of a rounding boundary are not caught.
+    """
+    straight = rows[rows < len(table.drawing.lines)]  # the line batch comes first in the table
+    if len(straight) < 2:
+        return 0, 0.0
+    p0, p1 = table.start[straight, :2], table.end[straight, :2]
+    d = p1 - p0
+    theta = np.mod(np.arctan2(d[:, 1], d[:, 0]), np.pi)
+    unit = np.stack([np.cos(theta), np.sin(theta)], axis=1)
+    offset = p0[:, 0] * -unit[:, 1] + p0[:, 1] * unit[:, 0]
+    group = np.stack([layer[straight], np.round(theta / 1e-6), np.round(offset / max(tol, 1e-9))], axis=1)
+    a = np.einsum("ij,ij->i", p0, unit)
+    b = np.einsum("ij,ij->i", p1, unit)
+    lo, hi = np.minimum(a, b), np.maximum(a, b)
+    order = np.lexsort((lo, group[:, 2], group[:, 1], group[:, 0]))
+    g, lo, hi = group[order], lo[order], hi[order]
+    same = np.r_[False, np.all(g[1:] == g[:-1], axis=1)]
+    starts = np.flatnonzero(~same)
+    reach = _running_max_per_group(hi, starts)  # the furthest end so far along each line
+    prev_reach = np.r_[-np.inf, reach[:-1]]
+    overlap = np.where(same, np.clip(np.minimum(prev_reach, hi) - lo, 0.0, None), 0.0)
+    hits = overlap > tol
+    return int(hits.sum()), float(overlap[hits].sum())
+
+
+def _running_max_per_group(values: FloatArray, starts: IntArray) -> FloatArray:
+    """Running maximum of ``values`` that restarts at each index in ``starts``."""
+    out = values.copy()
+    bounds = np.r_[starts, len(values)]
+    many = np.flatnonzero(np.diff(bounds) > 1)
+    for a, b in zip(bounds[many].tolist(), bounds[many + 1].tolist(), strict=True):
+        out[a:b] = np.maximum.accumulate(values[a:b])
+    return out

@@ -188,3 +188,16 @@ def test_chains_of_shuffled_reversed_loops_and_runs(seed):
         assert np.allclose(a[1:], b[:-1])
         assert np.allclose(a[0], c.start) and np.allclose(b[-1], c.end)
         assert c.closed == bool(np.allclose(c.start, c.end))
+
+
+def test_overlapping_collinear_lines():
+    # Two lines on y = 5 covering [0, 10] and [6, 20] overlap by 4 mm; a third covering [2, 3] lies inside
+    # the first (1 mm more); a line on y = 6 and one on another layer do not count (geometry by hand).
+    from pathlen.contours import overlapping_lines
+
+    shapes = [("CUT", "polyline", [(0, 5), (10, 5)]), ("CUT", "polyline", [(20, 5), (6, 5)]),
+              ("CUT", "polyline", [(2, 5), (3, 5)]), ("CUT", "polyline", [(0, 6), (10, 6)]),
+              ("MARK", "polyline", [(0, 5), (10, 5)])]
+    _, table, _, layer = build(shapes)
+    count, length = overlapping_lines(table, layer, np.arange(len(table)))
+    assert count == 2 and length == pytest.approx(4.0 + 1.0)

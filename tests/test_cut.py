@@ -203,3 +203,20 @@ rate_per_hour = 120.0
     assert cutting_feed_mm_min(read_profile_file(jet)["alu-jet"]) > 0
     builtin = runner.invoke(main, ["cut", "--profile", "aluminium-10mm-waterjet", "--calibrate", "250"])
     assert builtin.exit_code == 2 and "built in" in builtin.output
+
+
+def test_overlapping_lines_cut_once_with_dedupe(tmp_path, profile_file):
+    # A 40 mm line drawn again as a 25 mm piece over its middle: 15 mm ... 65 mm cut with the overlap
+    # counted twice, 40 mm once with --dedupe (geometry by hand).
+    doc = ezdxf.new("R2010", setup=False)
+    doc.header["$INSUNITS"] = 4
+    doc.modelspace().add_line((0, 0), (40, 0))
+    doc.modelspace().add_line((10, 0), (35, 0))
+    path = tmp_path / "overlap.dxf"
+    doc.saveas(path)
+    p = profile(profile_file)
+    plain = estimate_file(str(path), CutSettings(p))
+    once = estimate_file(str(path), CutSettings(p, dedupe=True))
+    assert plain.cut_length_mm == pytest.approx(65.0) and once.cut_length_mm == pytest.approx(40.0)
+    assert once.time_s["cutting"] == pytest.approx(plain.time_s["cutting"] - 25.0 / 20.0, rel=1e-12)
+    assert any("overlap" in w for w in plain.warnings)

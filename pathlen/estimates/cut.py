@@ -24,6 +24,7 @@ from pathlen.contours import (
     chain_contours,
     duplicate_segments,
     gap_warnings,
+    overlapping_lines,
 )
 from pathlen.errors import InputError, UsageError
 from pathlen.estimates.kinematics import junction_speed, move_times, sequence_time
@@ -137,6 +138,15 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
         else:
             warnings.append(f"{len(duplicates)} segments drawn twice ({extra:.3f} mm): cut twice; "
                             "--dedupe cuts them once")
+    others = np.setdiff1d(np.flatnonzero(keep), duplicates)
+    overlaps, overlap_mm = overlapping_lines(table, layer, others, s.join_tol_mm)
+    if overlaps:
+        if s.dedupe:
+            warnings.append(f"{overlaps} straight segments overlap others on the same line: the {overlap_mm:.3f} mm "
+                            "cut twice is cut once (--dedupe)")
+        else:
+            warnings.append(f"{overlaps} straight segments overlap others on the same line ({overlap_mm:.3f} mm cut "
+                            "twice); --dedupe cuts it once")
     if (role == 2).any() and p.values.get("engrave_feed_mm_min") is None:
         raise UsageError(f"profile {p.name!r} has no engrave_feed_mm_min, needed for the engraved layers")
     contours = chain_contours(table, layer, s.join_tol_mm, keep)
@@ -175,6 +185,10 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
         total_length = c.length + change + lead_in + lead_out
         cutting_s += total_length / (f / 60.0)
         motion_s += _contour_motion_s(table, c, f / 60.0, p, lead_in, lead_out, change)
+    if s.dedupe and overlaps:  # the overlapped stretch is cut once: take it off at the cutting feed
+        result.cut_length_mm -= overlap_mm
+        cutting_s -= overlap_mm / (feed / 60.0)
+        motion_s -= overlap_mm / (feed / 60.0)
     result.closed = int(contours.closed.sum())
     result.open = len(contours) - result.closed
     if small_holes:
