@@ -12,7 +12,7 @@ from typing import Any
 import numpy as np
 
 from pathlen.contours import DEFAULT_JOIN_TOL_MM, count_contours
-from pathlen.errors import InputError, UsageError
+from pathlen.errors import PathlenError, UsageError
 from pathlen.importers import SUFFIXES, ImportOptions, read_drawing
 from pathlen.measure import DEFAULT_RTOL, measure
 
@@ -34,12 +34,18 @@ class LayerTotal:
 
 
 @dataclass
-class FileResult:
-    """One file's measurement (millimetres) or its one-line error."""
+class FileOutcome:
+    """What every command reports per file: the path, whether it worked, else a one-line error."""
 
     path: str
     ok: bool
     error: str | None = None
+
+
+@dataclass
+class FileResult(FileOutcome):
+    """One file's measurement (millimetres) or its one-line error."""
+
     length_mm: float = 0.0
     bound_mm: float = 0.0
     layers: dict[str, LayerTotal] = field(default_factory=dict)
@@ -68,21 +74,34 @@ def find_drawings(paths: Iterable[str]) -> list[str]:
     return out
 
 
-def measure_file(path: str, settings: MeasureSettings = MeasureSettings()) -> FileResult:
-    """Measure one file; never raises for bad input (the error goes in the result)."""
+def one_line_failure(path: str, work: Callable[[], Any], failed: Callable[..., Any]) -> Any:
+    """``work()``, or ``failed(path, ok=False, error=...)`` with a one-line reason if it raises.
+
+    Bad input (:class:`PathlenError`) gives its own message; anything else is named, never shown
+    as a traceback: one bad file must not stop the batch.
+    """
     try:
-        drawing = read_drawing(Path(path), settings.import_options)
-        result = measure(drawing, settings.rtol)
-        contours = count_contours(drawing, settings.join_tol_mm)
-    except InputError as exc:
-        return FileResult(path, ok=False, error=str(exc))
+        return work()
+    except PathlenError as exc:
+        return failed(path, ok=False, error=str(exc))
     except MemoryError:
-        return FileResult(path, ok=False, error="out of memory while reading this file")
+        return failed(path, ok=False, error="out of memory while reading this file")
     except RecursionError:
-        return FileResult(path, ok=False, error="structure nested too deeply")
+        return failed(path, ok=False, error="structure nested too deeply")
     except Exception as exc:  # noqa: BLE001 - one bad file must not stop the batch
         text = str(exc).strip().splitlines()
-        return FileResult(path, ok=False, error=f"unexpected {type(exc).__name__}: {text[0] if text else ''}")
+        return failed(path, ok=False, error=f"unexpected {type(exc).__name__}: {text[0] if text else ''}")
+
+
+def measure_file(path: str, settings: MeasureSettings = MeasureSettings()) -> FileResult:
+    """Measure one file; never raises for bad input (the error goes in the result)."""
+    return one_line_failure(path, lambda: _measure_file(path, settings), FileResult)
+
+
+def _measure_file(path: str, settings: MeasureSettings) -> FileResult:
+    drawing = read_drawing(Path(path), settings.import_options)
+    result = measure(drawing, settings.rtol)
+    contours = count_contours(drawing, settings.join_tol_mm)
     layers = _totals_by([e.layer for e in drawing.entities], result.entity_length, result.entity_bound)
     colors = _totals_by([e.color for e in drawing.entities], result.entity_length, result.entity_bound)
     colors.pop("", None)

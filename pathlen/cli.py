@@ -89,6 +89,13 @@ def measure(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rt
     settings = MeasureSettings(rtol=rtol, join_tol_mm=join_tol,
                                import_options=ImportOptions(drawing_units, svg_dpi))
     results = collect(files, settings, jobs)
+    emit(results, fmt, output, lambda console: table_out.render(results, units, console),
+         lambda: json_out.render(results, units) if fmt == "json" else csv_out.render(results, units))
+
+
+def emit(results: list[Any], fmt: str, output: str | None, table: Callable[[Console], None],
+         text: Callable[[], str], cautions: list[str] | None = None) -> None:
+    """Report a batch (errors and warnings on standard error) and exit 0, or 1 if a file failed."""
     err = Console(stderr=True, highlight=False, soft_wrap=True)
     for r in results:
         if not r.ok:
@@ -96,19 +103,21 @@ def measure(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rt
     if fmt == "table":
         if output:
             buf = io.StringIO()
-            table_out.render(results, units, Console(file=buf, width=120, color_system=None))
+            table(Console(file=buf, width=120, color_system=None))
             write_atomic(output, buf.getvalue())
         else:
-            table_out.render(results, units, Console(soft_wrap=False))
+            table(Console(soft_wrap=False))
     else:
-        text = json_out.render(results, units) if fmt == "json" else csv_out.render(results, units)
+        report = text()
         if output:
-            write_atomic(output, text)
+            write_atomic(output, report)
         else:
-            click.echo(text, nl=False)
-            for r in results:
-                for w in r.warnings:
-                    err.print(f"warning {r.path}: {w}")
+            click.echo(report, nl=False)
+        for r in results:
+            for w in r.warnings:
+                err.print(f"warning {r.path}: {w}")
+        for c in cautions or []:
+            err.print(f"caution: {c}")
     sys.exit(1 if any(not r.ok for r in results) else 0)
 
 

@@ -2,15 +2,13 @@
 
 from __future__ import annotations
 
-import io
-import sys
 from pathlib import Path
 
 import click
 from rich.console import Console
 from rich.table import Table
 
-from pathlen.cli import check_reading_options, collect, drawing_files, main, reading_options, write_atomic
+from pathlen.cli import check_reading_options, collect, drawing_files, emit, main, reading_options
 from pathlen.errors import PathlenError
 from pathlen.estimates.cut import CutEstimate, CutSettings, cautions, cutting_feed_mm_min, estimate_file
 from pathlen.estimates.waterjet import WaterjetInputs, calibrated_machinability
@@ -77,30 +75,9 @@ def cut(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rtol: 
                            join_tol, rtol=rtol, import_options=ImportOptions(drawing_units, svg_dpi))
     results: list[CutEstimate] = collect(files, settings, jobs, estimate_file, CutEstimate, "estimating")
     notes = cautions(profile)
-    err = Console(stderr=True, highlight=False, soft_wrap=True)
-    for r in results:
-        if not r.ok:
-            err.print(f"[red]error[/red] {r.path}: {r.error}")
-    if fmt == "table":
-        if output:
-            buf = io.StringIO()
-            cut_out.render_table(results, units, profile, notes, Console(file=buf, width=120, color_system=None))
-            write_atomic(output, buf.getvalue())
-        else:
-            cut_out.render_table(results, units, profile, notes, Console(soft_wrap=False))
-    else:
-        text = (cut_out.render_json(results, units, profile, notes) if fmt == "json"
-                else cut_out.render_csv(results, units))
-        if output:
-            write_atomic(output, text)
-        else:
-            click.echo(text, nl=False)
-        for r in results:
-            for w in r.warnings:
-                err.print(f"warning {r.path}: {w}")
-        for c in notes:
-            err.print(f"caution: {c}")
-    sys.exit(1 if any(not r.ok for r in results) else 0)
+    emit(results, fmt, output, lambda console: cut_out.render_table(results, units, profile, notes, console),
+         lambda: cut_out.render_json(results, units, profile, notes) if fmt == "json"
+         else cut_out.render_csv(results, units), notes)
 
 
 def _calibrate(profile: Profile, speed: float, thickness: float | None, quality: float | None) -> None:

@@ -17,6 +17,7 @@ from pathlib import Path
 
 import numpy as np
 
+from pathlen.batch import FileOutcome, one_line_failure
 from pathlen.contours import (
     DEFAULT_GAP_REPORT_MM,
     DEFAULT_JOIN_TOL_MM,
@@ -26,7 +27,7 @@ from pathlen.contours import (
     gap_warnings,
     overlapping_lines,
 )
-from pathlen.errors import InputError, UsageError
+from pathlen.errors import UsageError
 from pathlen.estimates.kinematics import junction_speed, move_times, sequence_time
 from pathlen.estimates.tour import plan_tour
 from pathlen.estimates.waterjet import WaterjetInputs, waterjet_feed_mm_min
@@ -55,12 +56,9 @@ class CutSettings:
 
 
 @dataclass
-class CutEstimate:
+class CutEstimate(FileOutcome):
     """One file's estimate (mm, s, money) or its one-line error."""
 
-    path: str
-    ok: bool
-    error: str | None = None
     quantity: int = 1
     closed: int = 0
     open: int = 0
@@ -90,17 +88,8 @@ def cutting_feed_mm_min(profile: Profile) -> float:
 
 def estimate_file(path: str, settings: CutSettings) -> CutEstimate:
     """Estimate one file; never raises for bad input (the error goes in the result)."""
-    try:
-        return _estimate(path, settings)
-    except InputError as exc:
-        return CutEstimate(path, ok=False, error=str(exc), quantity=settings.quantity)
-    except UsageError as exc:
-        return CutEstimate(path, ok=False, error=str(exc), quantity=settings.quantity)
-    except MemoryError:
-        return CutEstimate(path, ok=False, error="out of memory while reading this file")
-    except Exception as exc:  # noqa: BLE001 - one bad file must not stop the batch
-        text = str(exc).strip().splitlines()
-        return CutEstimate(path, ok=False, error=f"unexpected {type(exc).__name__}: {text[0] if text else ''}")
+    return one_line_failure(path, lambda: _estimate(path, settings),
+                            lambda p, **kw: CutEstimate(p, quantity=settings.quantity, **kw))
 
 
 def _role_of_entities(drawing_entities: list, s: CutSettings) -> np.ndarray:

@@ -109,23 +109,22 @@ def parse_careful(d: str, out: RawSegments) -> str | None:
                 ny = v[i] + oy
                 lines.extend((x, y, x, ny))
                 y = ny
-            elif up in "CS":
-                j = i + 2 if up == "C" else i
-                if up == "C":
-                    x1, y1 = v[i] + ox, v[i + 1] + oy
+            elif up in "CSQT":  # curves; S and T reflect the previous control point of their family
+                family = "C" if up in "CS" else "Q"
+                explicit = up in "CQ"
+                j = i + 2 if explicit else i
+                if explicit:
+                    first = (v[i] + ox, v[i + 1] + oy)
                 else:
-                    x1, y1 = (2 * x - qx, 2 * y - qy) if last == "C" else (x, y)
-                qx, qy, nx, ny = v[j] + ox, v[j + 1] + oy, v[j + 2] + ox, v[j + 3] + oy
-                cubics.extend((x, y, x1, y1, qx, qy, nx, ny))
-                x, y = nx, ny
-            elif up in "QT":
-                j = i + 2 if up == "Q" else i
-                if up == "Q":
-                    qx, qy = v[i] + ox, v[i + 1] + oy
+                    first = (2 * x - qx, 2 * y - qy) if last == family else (x, y)
+                if family == "C":
+                    qx, qy, j = v[j] + ox, v[j + 1] + oy, j + 2
+                    nx, ny = v[j] + ox, v[j + 1] + oy
+                    cubics.extend((x, y, *first, qx, qy, nx, ny))
                 else:
-                    qx, qy = (2 * x - qx, 2 * y - qy) if last == "Q" else (x, y)
-                nx, ny = v[j] + ox, v[j + 1] + oy
-                quads.extend((x, y, qx, qy, nx, ny))
+                    qx, qy = first
+                    nx, ny = v[j] + ox, v[j + 1] + oy
+                    quads.extend((x, y, qx, qy, nx, ny))
                 x, y = nx, ny
             else:  # A
                 rx, ry, phi, large, sweep = v[i], v[i + 1], v[i + 2], v[i + 3], v[i + 4]
