@@ -165,7 +165,7 @@ def join_nodes(points: FloatArray, groups: IntArray, tol: float) -> IntArray:
         bits[:, 2] * np.uint64(0x165667B19E3779F9)) ^ groups.astype(np.uint64)
     order = np.argsort(key)
     p, g = points[order], groups[order]
-    new = np.r_[True, np.any(p[1:] != p[:-1], axis=1) | (g[1:] != g[:-1])]
+    new = np.r_[True, (p[1:, 0] != p[:-1, 0]) | (p[1:, 1] != p[:-1, 1]) | (p[1:, 2] != p[:-1, 2]) | (g[1:] != g[:-1])]
     place = np.cumsum(new) - 1
     first = np.flatnonzero(new)
     pairs = close_pairs(p[first], tol, g[first])

@@ -1,8 +1,9 @@
 """Near-linear neighbour search and connected components, numpy only.
 
-:func:`close_pairs` hashes points into a grid of cells one tolerance wide, so two points within
-the tolerance lie in the same or a neighbouring cell; each point looks only at its own and the 13
-"forward" neighbour cells (half of the 26), so every pair is found once.  Work is proportional to
+:func:`close_pairs` hashes points into a grid of cells at least one tolerance wide, so two points
+within the tolerance lie in the same or a neighbouring cell; each point looks at its own cell and,
+when it lies within the tolerance of a face, at the "forward" neighbour cells across it (half of
+the 26), so every pair is found once.  Work is proportional to
 the number of points plus the candidate pairs in touching cells: near-linear for drawings, where
 cells hold a handful of segment ends.  :func:`components` labels connected components by
 hooking and pointer jumping (a few numpy passes, logarithmic in the component size).
@@ -26,12 +27,23 @@ def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -
     if n < 2:
         return np.zeros((0, 2), dtype=np.int64)
     group = np.zeros(n, dtype=np.int64) if group is None else np.asarray(group, dtype=np.int64)
-    width = tol if tol > 0 else 1.0
-    cell = np.floor((points - points.min(axis=0)) / width).astype(np.int64)
+    origin = points.min(axis=0)
+    width = _cell_width(points, tol)
+    cell = np.floor((points - origin) / width).astype(np.int64)
     keys = _cell_keys(cell, group)
     order = np.argsort(keys, kind="stable")
-    keys, cell, grp = keys[order], cell[order], group[order]
+    keys = keys[order]
+    if width > tol and np.diff(np.flatnonzero(np.r_[True, keys[1:] != keys[:-1], True])).max() > CROWDED:
+        width = tol if tol > 0 else 1.0  # crowded cells: fall back to cells one tolerance wide
+        cell = np.floor((points - origin) / width).astype(np.int64)
+        keys = _cell_keys(cell, group)
+        order = np.argsort(keys, kind="stable")
+        keys = keys[order]
+    cell, grp = cell[order], group[order]
     sorted_points = points[order]
+    where = (sorted_points - origin) / width - cell  # position inside the cell, 0 .. 1 per axis
+    margin = tol / width + 1e-9
+    near_low, near_high = where < margin, where > 1.0 - margin
 
     def near(pairs: IntArray) -> IntArray:
         """Keep candidate pairs (positions in sorted order) within ``tol`` and in one group."""
@@ -41,13 +53,35 @@ def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -
 
     found = [near(_pairs_in_same_cell(keys))]
     flat = not cell[:, 2].any()  # a 2-D drawing: neighbours above and below are empty
-    rows = np.arange(n)
     for off in _FORWARD[_FORWARD[:, 2] == 0] if flat else _FORWARD:
-        probe = _cell_keys(cell + off, grp)
+        # only points within tol of the cell faces towards that neighbour can have a partner there
+        mask = np.ones(n, dtype=bool)
+        for axis, step in enumerate(off.tolist()):
+            if step:
+                mask &= near_high[:, axis] if step > 0 else near_low[:, axis]
+        rows = np.flatnonzero(mask)
+        probe = _cell_keys(cell[rows] + off, grp[rows])
         lo = np.searchsorted(keys, probe, side="left")
         hi = np.searchsorted(keys, probe, side="right")
         found.append(near(_expand(rows, lo, hi)))
     return np.sort(order[np.concatenate(found)], axis=1)
+
+
+#: Most points in one cell before the grid falls back to cells one tolerance wide.
+CROWDED = 32
+
+
+def _cell_width(points: FloatArray, tol: float) -> float:
+    """A cell a quarter of the mean spacing of the points (at least ``tol``, at most 256 ``tol``): few
+    points share a cell, and only points within ``tol`` of a face need look into the next cell."""
+    span = points.max(axis=0) - points.min(axis=0)
+    axes = span > 0
+    if not axes.any():
+        return tol if tol > 0 else 1.0
+    spacing = float(np.prod(span[axes]) / len(points)) ** (1.0 / int(axes.sum()))
+    if tol <= 0:
+        return max(spacing / 4.0, 1e-300)
+    return max(tol, min(spacing / 4.0, 256.0 * tol))
 
 
 def _cell_keys(cell: IntArray, group: IntArray) -> np.ndarray:

@@ -123,8 +123,8 @@ def _bezier_points(b: object, rows: IntArray, t: FloatArray) -> FloatArray:
     ctrl, w = b.ctrl[rows], b.weights[rows]  # type: ignore[attr-defined]
     degree = ctrl.shape[1] - 1
     basis = np.stack([comb(degree, i) * t**i * (1 - t) ** (degree - i) for i in range(degree + 1)], axis=1)
-    hom = np.einsum("kj,nj,njc->nkc", basis, w, ctrl)
-    return hom / np.einsum("kj,nj->nk", basis, w)[..., None]
+    mix = basis[None, :, :] * w[:, None, :]  # [n, len(t), degree + 1]
+    return (mix @ ctrl) / mix.sum(axis=2)[..., None]
 
 
 def _beziers(drawing: Drawing, measured: Measurement, degree: int) -> tuple:
@@ -133,8 +133,12 @@ def _beziers(drawing: Drawing, measured: Measurement, degree: int) -> tuple:
     start_dir = _first_nonzero(ctrl[:, 1:] - ctrl[:, :1])
     end_dir = _first_nonzero(ctrl[:, -1:] - ctrl[:, -2::-1])
     middle = _bezier_points(b, np.arange(len(b)), np.array([0.5]))[:, 0]
+    lo, hi = ctrl[:, 0].copy(), ctrl[:, 0].copy()
+    for k in range(1, degree + 1):  # elementwise over the control points: faster than a reduction over axis 1
+        np.minimum(lo, ctrl[:, k], out=lo)
+        np.maximum(hi, ctrl[:, k], out=hi)
     return (ctrl[:, 0], ctrl[:, -1], start_dir, end_dir, measured.beziers[degree].length,
-            measured.beziers[degree].bound, b.entity, middle, ctrl.min(axis=1), ctrl.max(axis=1))
+            measured.beziers[degree].bound, b.entity, middle, lo, hi)
 
 
 def _first_nonzero(diffs: FloatArray) -> FloatArray:
