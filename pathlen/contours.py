@@ -59,8 +59,7 @@ def count_contours(drawing: Drawing, join_tol: float = DEFAULT_JOIN_TOL_MM) -> C
                          dtype=np.int64)[ent]
     points = np.concatenate([start, end])
     point_layer = np.concatenate([seg_layer, seg_layer])
-    pairs = close_pairs(points, join_tol, point_layer)
-    _, node = np.unique(components(2 * n, pairs[:, 0], pairs[:, 1]), return_inverse=True)
+    node = join_nodes(points, point_layer, join_tol)
     a, b = node[:n], node[n:]
     comp = components(node.max() + 1, a, b)
     degree = np.bincount(a, minlength=node.max() + 1) + np.bincount(b, minlength=node.max() + 1)
@@ -155,7 +154,8 @@ def chain_contours(table: SegmentTable, layer: IntArray, join_tol: float = DEFAU
 
 
 def join_nodes(points: FloatArray, groups: IntArray, tol: float) -> IntArray:
-    """Node number of each point: points of one group within ``tol`` (chained) share a node.
+    """Node number (not necessarily consecutive) of each point: points of one group within ``tol``
+    (chained) share a node.
 
     Identical points are merged first (sorted by a hash of their bits: a collision only leaves two
     entries for one place, which the neighbour search then joins), so the search sees each place once.
@@ -169,7 +169,7 @@ def join_nodes(points: FloatArray, groups: IntArray, tol: float) -> IntArray:
     place = np.cumsum(new) - 1
     first = np.flatnonzero(new)
     pairs = close_pairs(p[first], tol, g[first])
-    _, label = np.unique(components(len(first), pairs[:, 0], pairs[:, 1]), return_inverse=True)
+    label = components(len(first), pairs[:, 0], pairs[:, 1])  # node numbers below len(first), some unused
     node = np.empty(len(points), dtype=np.int64)
     node[order] = label[place]
     return node
@@ -181,8 +181,9 @@ def _simple_chains(node_of: IntArray, simple: NDArray[np.bool_], piece: IntArray
 
     Segment i is entered at end e = 2i (its start: cut forwards) or 2i + 1; the next entry after
     entering at e is the other end at the node where ``e ^ 1`` lies.  Loops are cut open just
-    before their lowest row entered forwards; Wyllie's list ranking (pointer doubling) then gives
-    each entry its distance to the end of its run, and the run that holds that entry is the chain.
+    before their lowest row entered forwards (and the reverse copy before it entered backwards);
+    Wyllie's list ranking (pointer doubling, log2 of the longest run rounds) then gives each entry
+    its distance to the end of its run, and the run that holds the forward entry is the chain.
     """
     seg = np.flatnonzero(simple)
     if len(seg) == 0:
@@ -203,18 +204,21 @@ def _simple_chains(node_of: IntArray, simple: NDArray[np.bool_], piece: IntArray
     start = 2 * heads
     loop = partner[start] >= 0
     loop &= _is_loop(piece, node_of, heads, partner, seg)
-    succ[partner[start[loop]] ^ 1] = -1  # open each loop just before its start
+    succ[partner[start[loop]] ^ 1] = -1  # open each loop just before its start ...
+    succ[partner[start[loop] + 1] ^ 1] = -1  # ... and its reverse copy before the start entered backwards
     ptr = np.where(succ >= 0, succ, np.arange(2 * k))
     dist = (succ >= 0).astype(np.int64)
-    for _ in range(int(np.ceil(np.log2(2 * k + 1))) + 1):
+    while True:  # every run is now open: log2(longest run) rounds
+        jump = ptr[ptr]
+        if np.array_equal(jump, ptr):
+            break
         dist = dist + dist[ptr]
-        ptr = ptr[ptr]
+        ptr = jump
     chain_of_head = dict(zip(ptr[start].tolist(), heads.tolist(), strict=True))
     terminal = ptr[ends]
     head_of_terminal = np.full(2 * k, -1, dtype=np.int64)
     head_of_terminal[list(chain_of_head)] = list(chain_of_head.values())
     member = ends[head_of_terminal[terminal] >= 0]
-    member = member[ptr[ptr[member]] == ptr[member]]  # converged (not the unopened copy of a loop)
     key = head_of_terminal[ptr[member]]
     order = np.lexsort((-dist[member], key))
     member, key = member[order], key[order]

@@ -54,8 +54,9 @@ def nesting_depth(table: SegmentTable, contours: ContourSet) -> tuple[IntArray, 
     closed = np.flatnonzero(contours.closed)
     if len(closed) == 0:
         return depth, parent
-    lo = np.minimum.reduceat(table.lo[contours.steps, :2], contours.first)[closed]
-    hi = np.maximum.reduceat(table.hi[contours.steps, :2], contours.first)[closed]
+    seg_lo, seg_hi = table.box
+    lo = np.minimum.reduceat(seg_lo[contours.steps, :2], contours.first)[closed]
+    hi = np.maximum.reduceat(seg_hi[contours.steps, :2], contours.first)[closed]
     tree = shapely.STRtree(shapely.box(lo[:, 0], lo[:, 1], hi[:, 0], hi[:, 1]))
     starts = contours.start[:, :2]
     point_i, box_j = tree.query(shapely.points(starts), predicate="intersects")

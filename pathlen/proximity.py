@@ -17,8 +17,14 @@ import numpy as np
 
 from pathlen.geometry import FloatArray, IntArray
 
-#: the 13 neighbour offsets that, with the cell itself, visit each touching pair of cells once
-_FORWARD = np.array([o for o in itertools.product((-1, 0, 1), repeat=3) if o > (0, 0, 0)], dtype=np.int64)
+#: Most points in one cell before the grid falls back to cells one tolerance wide.
+CROWDED = 32
+
+
+def _forward(d: int) -> IntArray:
+    """The neighbour offsets in ``d`` dimensions that, with the cell itself, visit each touching pair once."""
+    zero = (0,) * d
+    return np.array([o for o in itertools.product((-1, 0, 1), repeat=d) if o > zero], dtype=np.int64).reshape(-1, d)
 
 
 def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -> IntArray:
@@ -28,32 +34,33 @@ def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -
         return np.zeros((0, 2), dtype=np.int64)
     group = np.zeros(n, dtype=np.int64) if group is None else np.asarray(group, dtype=np.int64)
     origin = points.min(axis=0)
-    width = _cell_width(points, tol)
-    cell = np.floor((points - origin) / width).astype(np.int64)
+    span = points.max(axis=0) - origin
+    axes = np.flatnonzero(span > 0)  # coordinates that vary (a flat drawing has two)
+    pts = (points[:, axes] - origin[axes]) if len(axes) else np.zeros((n, 1))
+    width = _cell_width(span[axes], n, tol)
+    cell = np.floor(pts / width).astype(np.int64)
     keys = _cell_keys(cell, group)
     order = np.argsort(keys, kind="stable")
     keys = keys[order]
     if width > tol and np.diff(np.flatnonzero(np.r_[True, keys[1:] != keys[:-1], True])).max() > CROWDED:
         width = tol if tol > 0 else 1.0  # crowded cells: fall back to cells one tolerance wide
-        cell = np.floor((points - origin) / width).astype(np.int64)
+        cell = np.floor(pts / width).astype(np.int64)
         keys = _cell_keys(cell, group)
         order = np.argsort(keys, kind="stable")
         keys = keys[order]
-    cell, grp = cell[order], group[order]
-    sorted_points = points[order]
-    where = (sorted_points - origin) / width - cell  # position inside the cell, 0 .. 1 per axis
+    cell, grp, pts = cell[order], group[order], pts[order]
+    where = pts / width - cell  # position inside the cell, 0 .. 1 per axis
     margin = tol / width + 1e-9
     near_low, near_high = where < margin, where > 1.0 - margin
 
     def near(pairs: IntArray) -> IntArray:
         """Keep candidate pairs (positions in sorted order) within ``tol`` and in one group."""
-        d = sorted_points[pairs[:, 0]] - sorted_points[pairs[:, 1]]
+        d = pts[pairs[:, 0]] - pts[pairs[:, 1]]
         keep = (np.einsum("ij,ij->i", d, d) <= tol * tol) & (grp[pairs[:, 0]] == grp[pairs[:, 1]])
         return pairs[keep]
 
     found = [near(_pairs_in_same_cell(keys))]
-    flat = not cell[:, 2].any()  # a 2-D drawing: neighbours above and below are empty
-    for off in _FORWARD[_FORWARD[:, 2] == 0] if flat else _FORWARD:
+    for off in _forward(cell.shape[1]):
         # only points within tol of the cell faces towards that neighbour can have a partner there
         mask = np.ones(n, dtype=bool)
         for axis, step in enumerate(off.tolist()):
@@ -67,32 +74,27 @@ def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -
     return np.sort(order[np.concatenate(found)], axis=1)
 
 
-#: Most points in one cell before the grid falls back to cells one tolerance wide.
-CROWDED = 32
-
-
-def _cell_width(points: FloatArray, tol: float) -> float:
-    """A cell a quarter of the mean spacing of the points (at least ``tol``, at most 256 ``tol``): few
-    points share a cell, and only points within ``tol`` of a face need look into the next cell."""
-    span = points.max(axis=0) - points.min(axis=0)
-    axes = span > 0
-    if not axes.any():
+def _cell_width(span: FloatArray, n: int, tol: float) -> float:
+    """A cell a quarter of the mean spacing of ``n`` points over ``span`` (at least ``tol``, at most
+    256 ``tol``): few points share a cell, and only points within ``tol`` of a face look across it."""
+    if len(span) == 0:
         return tol if tol > 0 else 1.0
-    spacing = float(np.prod(span[axes]) / len(points)) ** (1.0 / int(axes.sum()))
+    spacing = float(np.prod(span) / n) ** (1.0 / len(span))
     if tol <= 0:
         return max(spacing / 4.0, 1e-300)
     return max(tol, min(spacing / 4.0, 256.0 * tol))
 
 
 def _cell_keys(cell: IntArray, group: IntArray) -> np.ndarray:
-    """One integer per (group, cell): exact while the grid spans under 2**20 cells per axis.
+    """One integer per (group, cell): exact while the grid spans under 2**21 cells per axis.
 
     Larger grids and the group fold in as a hash; a collision only adds candidate pairs, which
     the distance and group tests remove, so results stay exact.
     """
-    c = (cell & 0xFFFFF).astype(np.uint64)
-    mixed = group.astype(np.uint64) * np.uint64(0x9E3779B97F4A7C15)
-    return mixed ^ (c[:, 0] << np.uint64(40)) ^ (c[:, 1] << np.uint64(20)) ^ c[:, 2]
+    key = group.astype(np.uint64) * np.uint64(0x9E3779B97F4A7C15)
+    for axis in range(cell.shape[1]):
+        key ^= (cell[:, axis] & 0x1FFFFF).astype(np.uint64) << np.uint64(21 * axis)
+    return key
 
 
 def _pairs_in_same_cell(keys: IntArray) -> IntArray:

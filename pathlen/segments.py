@@ -2,10 +2,9 @@
 
 Rows follow the drawing's batches in a fixed order: lines, elliptic arcs, then Béziers by
 increasing degree.  Each row has its end points, unit tangents at both ends (direction of the
-parametrisation), measured length and bound (mm), a point at mid-parameter and a bounding box
-that holds the segment (exact for lines, the whole ellipse for arcs, the control polygon for
-Béziers).  Sample points along a segment (for outlines, turning and curvature: never for length)
-and the smallest radius of curvature are computed on demand, only for the rows that need them.
+parametrisation) and measured length and bound (mm).  Sample points along a segment (for outlines,
+turning and curvature: never for length), mid-parameter points, boxes holding each segment and
+the smallest radius of curvature are computed on demand.
 """
 
 from __future__ import annotations
@@ -33,9 +32,6 @@ class SegmentTable:
     length: FloatArray  # [n] mm
     bound: FloatArray  # [n] mm
     entity: IntArray  # [n]
-    middle: FloatArray  # [n, 3] the point at mid-parameter
-    lo: FloatArray  # [n, 3] a box holding the segment
-    hi: FloatArray  # [n, 3]
     drawing: Drawing
 
     def __len__(self) -> int:
@@ -53,9 +49,39 @@ class SegmentTable:
 
     def samples(self, rows: IntArray) -> FloatArray:
         """``[len(rows), CURVE_SAMPLES, 3]`` points at equal parameter steps (lines: equal steps too)."""
+        return self.points_at(rows, np.linspace(0.0, 1.0, CURVE_SAMPLES))
+
+    @cached_property
+    def middle(self) -> FloatArray:
+        """``[n, 3]``: each segment's point at mid-parameter."""
+        return self.points_at(np.arange(len(self)), np.array([0.5]))[:, 0]
+
+    @cached_property
+    def box(self) -> tuple[FloatArray, FloatArray]:
+        """``(lo, hi)``, each ``[n, 3]``: a box holding each segment (exact for lines, the whole ellipse
+        for arcs, the control points for Béziers)."""
+        lo, hi = np.empty((len(self), 3)), np.empty((len(self), 3))
+        for key, first, count in self._offsets:
+            part = slice(first, first + count)
+            if key == "lines":
+                b = self.drawing.lines
+                lo[part], hi[part] = np.minimum(b.p0, b.p1), np.maximum(b.p0, b.p1)
+            elif key == "arcs":
+                b = self.drawing.arcs
+                reach = np.sqrt(b.u**2 + b.v**2)  # per axis, the half-width of the whole ellipse's box
+                lo[part], hi[part] = b.center - reach, b.center + reach
+            else:
+                ctrl = self.drawing.beziers[int(key[6:])].ctrl
+                lo[part], hi[part] = ctrl[:, 0], ctrl[:, 0]
+                for k in range(1, ctrl.shape[1]):  # elementwise: faster than a reduction over axis 1
+                    np.minimum(lo[part], ctrl[:, k], out=lo[part])
+                    np.maximum(hi[part], ctrl[:, k], out=hi[part])
+        return lo, hi
+
+    def points_at(self, rows: IntArray, t: FloatArray) -> FloatArray:
+        """``[len(rows), len(t), 3]``: points at parameters ``t`` (0 .. 1 over each segment)."""
         rows = np.asarray(rows, dtype=np.int64)
-        out = np.empty((len(rows), CURVE_SAMPLES, 3))
-        t = np.linspace(0.0, 1.0, CURVE_SAMPLES)
+        out = np.empty((len(rows), len(t), 3))
         for key, first, count in self._offsets:
             sel = np.flatnonzero((rows >= first) & (rows < first + count))
             if len(sel) == 0:
@@ -103,8 +129,7 @@ def _unit(v: FloatArray) -> FloatArray:
 def _lines(drawing: Drawing, measured: Measurement) -> tuple:
     b = drawing.lines
     d = _unit(b.p1 - b.p0)
-    return (b.p0, b.p1, d, d, measured.lines.length, measured.lines.bound, b.entity, 0.5 * (b.p0 + b.p1),
-            np.minimum(b.p0, b.p1), np.maximum(b.p0, b.p1))
+    return b.p0, b.p1, d, d, measured.lines.length, measured.lines.bound, b.entity
 
 
 def _arcs(drawing: Drawing, measured: Measurement) -> tuple:
@@ -113,9 +138,8 @@ def _arcs(drawing: Drawing, measured: Measurement) -> tuple:
     def tangent(s: FloatArray) -> FloatArray:
         return _unit(-b.u * np.sin(s)[:, None] + b.v * np.cos(s)[:, None])
 
-    reach = np.sqrt(b.u**2 + b.v**2)  # per axis, the half-width of the whole ellipse's box
     return (b.points(b.t0), b.points(b.t1), tangent(b.t0), tangent(b.t1), measured.arcs.length,
-            measured.arcs.bound, b.entity, b.points(0.5 * (b.t0 + b.t1)), b.center - reach, b.center + reach)
+            measured.arcs.bound, b.entity)
 
 
 def _bezier_points(b: object, rows: IntArray, t: FloatArray) -> FloatArray:
@@ -132,13 +156,8 @@ def _beziers(drawing: Drawing, measured: Measurement, degree: int) -> tuple:
     ctrl = b.ctrl
     start_dir = _first_nonzero(ctrl[:, 1:] - ctrl[:, :1])
     end_dir = _first_nonzero(ctrl[:, -1:] - ctrl[:, -2::-1])
-    middle = _bezier_points(b, np.arange(len(b)), np.array([0.5]))[:, 0]
-    lo, hi = ctrl[:, 0].copy(), ctrl[:, 0].copy()
-    for k in range(1, degree + 1):  # elementwise over the control points: faster than a reduction over axis 1
-        np.minimum(lo, ctrl[:, k], out=lo)
-        np.maximum(hi, ctrl[:, k], out=hi)
     return (ctrl[:, 0], ctrl[:, -1], start_dir, end_dir, measured.beziers[degree].length,
-            measured.beziers[degree].bound, b.entity, middle, lo, hi)
+            measured.beziers[degree].bound, b.entity)
 
 
 def _first_nonzero(diffs: FloatArray) -> FloatArray:
