@@ -144,11 +144,11 @@ def chain_contours(table: SegmentTable, layer: IntArray, join_tol: float = DEFAU
     branched = branched_piece[piece]
     key_a, local_a, fwd_a = _simple_chains(node_of, ~branched, piece)
     key_b, local_b, fwd_b = _walked_chains(node_of, branched)
-    key = np.concatenate([key_a, key_b])
-    local = np.concatenate([local_a, local_b])
-    fwd = np.concatenate([fwd_a, fwd_b])
-    order = np.argsort(key, kind="stable")  # chains by first row; steps keep their order
-    key, local, fwd = key[order], local[order], fwd[order]
+    key, local, fwd = key_a, local_a, fwd_a
+    if len(key_b):  # merge the two sorted lists: chains by first row, steps in their order
+        key = np.concatenate([key_a, key_b])
+        order = np.argsort(key, kind="stable")
+        key, local, fwd = key[order], np.concatenate([local_a, local_b])[order], np.concatenate([fwd_a, fwd_b])[order]
     sizes = np.diff(np.flatnonzero(np.r_[True, key[1:] != key[:-1], True]))
     return _contours_from_chains(table, layer, rows, node_of, local, fwd, sizes)
 
@@ -191,11 +191,14 @@ def _simple_chains(node_of: IntArray, simple: NDArray[np.bool_], piece: IntArray
     k = len(node_of)
     ends = np.r_[2 * seg, 2 * seg + 1]
     at = node_of.ravel()[ends]
-    by_node = np.argsort(at, kind="stable")
+    # at most two ends per node here: the smaller and the larger end id at each node are partners
+    low_end = np.full(int(at.max()) + 1, 2 * k, dtype=np.int64)
+    high_end = np.full(int(at.max()) + 1, -1, dtype=np.int64)
+    np.minimum.at(low_end, at, ends)
+    np.maximum.at(high_end, at, ends)
     partner = np.full(2 * k, -1, dtype=np.int64)
-    same = np.flatnonzero(at[by_node][1:] == at[by_node][:-1])  # simple: at most two ends per node
-    partner[ends[by_node][same]] = ends[by_node][same + 1]
-    partner[ends[by_node][same + 1]] = ends[by_node][same]
+    pair = low_end[at] != high_end[at]
+    partner[ends[pair]] = np.where(ends[pair] == low_end[at[pair]], high_end[at[pair]], low_end[at[pair]])
     succ = np.full(2 * k, -1, dtype=np.int64)
     succ[ends] = partner[ends ^ 1]
     low = np.full(int(piece.max()) + 1, k, dtype=np.int64)
@@ -214,15 +217,16 @@ def _simple_chains(node_of: IntArray, simple: NDArray[np.bool_], piece: IntArray
             break
         dist = dist + dist[ptr]
         ptr = jump
-    chain_of_head = dict(zip(ptr[start].tolist(), heads.tolist(), strict=True))
-    terminal = ptr[ends]
-    head_of_terminal = np.full(2 * k, -1, dtype=np.int64)
-    head_of_terminal[list(chain_of_head)] = list(chain_of_head.values())
-    member = ends[head_of_terminal[terminal] >= 0]
-    key = head_of_terminal[ptr[member]]
-    order = np.lexsort((-dist[member], key))
-    member, key = member[order], key[order]
-    return key, member >> 1, (member & 1) == 0
+    # the chain of head h is the run through entry 2h: place each of its entries by distance to the end
+    chain_of_terminal = np.full(2 * k, -1, dtype=np.int64)
+    chain_of_terminal[ptr[start]] = np.arange(len(heads))
+    member = ends[chain_of_terminal[ptr[ends]] >= 0]
+    chain = chain_of_terminal[ptr[member]]
+    size = np.bincount(chain, minlength=len(heads))
+    place = (np.cumsum(size) - size)[chain] + (size[chain] - 1 - dist[member])
+    steps = np.empty(len(member), dtype=np.int64)
+    steps[place] = member
+    return np.repeat(heads, size), steps >> 1, (steps & 1) == 0
 
 
 def _is_loop(piece: IntArray, node_of: IntArray, heads: IntArray, partner: IntArray, seg: IntArray) -> NDArray:

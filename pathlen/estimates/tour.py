@@ -167,6 +167,7 @@ def _two_opt(points: FloatArray, order: IntArray, parent: IntArray, home: FloatA
     width = n if n <= FULL_2OPT else WINDOW
     rounds = 10 * n if n <= FULL_2OPT else WINDOW_ROUNDS
     order = order.copy()
+    nested = bool((parent >= 0).any())
     in_play = np.ones(n - 1, dtype=bool)
     steps = np.arange(2, width + 1)[None, :]
     for _ in range(rounds):
@@ -189,14 +190,14 @@ def _two_opt(points: FloatArray, order: IntArray, parent: IntArray, home: FloatA
         gain = delta[np.arange(len(i)), best]
         good = np.flatnonzero(gain < -1e-9 * (1.0 + edge[i]))
         in_play[:] = False
-        taken = np.zeros(n + 2, dtype=bool)
+        taken = bytearray(n + 2)
         saved = 0.0
         for g in good[np.argsort(gain[good])].tolist():
             r, stop = int(i[g]), int(j[g, best[g]])
-            if taken[r:stop + 2].any() or not _stretch_keeps_holes_first(order[r:stop], parent):
+            if any(taken[r:stop + 2]) or (nested and not _stretch_keeps_holes_first(order[r:stop], parent)):
                 continue
             order[r:stop] = order[r:stop][::-1].copy()
-            taken[r:stop + 2] = True
+            taken[r:stop + 2] = b"\x01" * (stop + 2 - r)
             in_play[max(0, r - width - 1):min(n - 1, stop + 2)] = True
             saved -= float(gain[g])
         if saved == 0.0 or (n > FULL_2OPT and saved < SETTLED * float(edge.sum())):
@@ -206,10 +207,8 @@ def _two_opt(points: FloatArray, order: IntArray, parent: IntArray, home: FloatA
 
 def _stretch_keeps_holes_first(stretch: IntArray, parent: IntArray) -> bool:
     """Reversing ``stretch`` is allowed when no contour in it has its container in it too."""
-    inside = np.zeros(len(parent), dtype=bool)
-    inside[stretch] = True
-    p = parent[stretch]
-    return not np.any((p >= 0) & inside[np.maximum(p, 0)])
+    members = set(stretch.tolist())
+    return not any(p in members for p in parent[stretch].tolist() if p >= 0)
 
 
 def _orient(start: FloatArray, end: FloatArray, closed: np.ndarray, order: IntArray, home: FloatArray) -> Tour:
