@@ -159,3 +159,11 @@ def test_svg_dpi_option(runner, tmp_path):
     assert f["length"] == pytest.approx(25.4, rel=1e-14) and f["warnings"] == []  # 90 px at 90 px/in = 1 in
     res = runner.invoke(main, ["measure", str(svg), "--svg-dpi", "0"])
     assert res.exit_code == 2
+
+
+def test_table_shows_stroke_colours(runner, tmp_path):
+    report = tmp_path / "report.txt"
+    res = runner.invoke(main, ["measure", str(FIXTURES / "kl412_lamp_panel.svg"), "-o", str(report)])
+    assert res.exit_code == 0
+    text = report.read_text()
+    assert "stroke #ff0000" in text and "stroke #0000ff" in text and "Length (mm)" in text

@@ -36,6 +36,9 @@ def render(results: list[FileResult], units: str, console: Console) -> None:
         for name, t in r.layers.items():
             table.add_row("", name or '(none)', str(t.count), fmt_length(t.length_mm, units),
                           fmt_bound(t.bound_mm, units), "")
+        for colour, t in r.colors.items():
+            table.add_row("", f"[dim]stroke {colour}[/dim]", str(t.count), fmt_length(t.length_mm, units),
+                          fmt_bound(t.bound_mm, units), "")
     total = sum(r.length_mm for r in results)
     bound = sum(r.bound_mm for r in results)
     failed = sum(not r.ok for r in results)
