@@ -1,8 +1,13 @@
-"""Command line: ``pathlen cut PATH... --profile NAME`` and ``pathlen profiles``."""
+"""Command line: ``pathlen cut PATH... --profile NAME`` and ``pathlen profiles``.
+
+The estimate modules (shapely, scipy.spatial) are imported inside the commands, so that
+``pathlen measure`` starts without them.
+"""
 
 from __future__ import annotations
 
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import click
 from rich.console import Console
@@ -10,11 +15,11 @@ from rich.table import Table
 
 from pathlen.cli import check_reading_options, collect, drawing_files, emit, main, reading_options
 from pathlen.errors import PathlenError
-from pathlen.estimates.cut import CutEstimate, CutSettings, cautions, cutting_feed_mm_min, estimate_file
-from pathlen.estimates.waterjet import WaterjetInputs, calibrated_machinability
-from pathlen.export import cut as cut_out
 from pathlen.importers import ImportOptions
 from pathlen.profiles import BUILTIN, Profile, load_profiles, write_setting
+
+if TYPE_CHECKING:
+    from pathlen.estimates.cut import CutEstimate
 
 
 def _layer_list(text: str | None) -> tuple[str, ...]:
@@ -60,6 +65,9 @@ def cut(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rtol: 
         calibrate_speed: float | None, test_thickness: float | None, test_quality: float | None) -> None:
     """Estimate cutting time and cost of the drawings PATHS (DXF or SVG files, or folders) with a process
     profile; or, with --calibrate, fit a waterjet profile to a test cut."""
+    from pathlen.estimates.cut import CutEstimate, CutSettings, cautions, estimate_file
+    from pathlen.export import cut as cut_out
+
     profiles = _profiles_or_exit(profile_files)
     profile = _pick(profiles, profile_name)
     if calibrate_speed is not None:
@@ -81,6 +89,8 @@ def cut(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rtol: 
 
 
 def _calibrate(profile: Profile, speed: float, thickness: float | None, quality: float | None) -> None:
+    from pathlen.estimates.waterjet import WaterjetInputs, calibrated_machinability
+
     v = profile.values
     if v["process"] != "waterjet" or not profile.uses_waterjet_model:
         raise click.UsageError(f"--calibrate needs a waterjet profile that uses the speed model ({profile.name!r} "
@@ -106,6 +116,8 @@ def _calibrate(profile: Profile, speed: float, thickness: float | None, quality:
               help="A TOML file of your own profiles to check and list (repeatable).")
 def profiles(profile_files: tuple[str, ...]) -> None:
     """List the process profiles and check them (one line per problem, exit status 2)."""
+    from pathlen.estimates.cut import cutting_feed_mm_min
+
     known = _profiles_or_exit(profile_files)
     table = Table(title="Process profiles")
     table.add_column("Name", no_wrap=True)

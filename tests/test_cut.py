@@ -192,7 +192,7 @@ rate_per_hour = 120.0
     res = runner.invoke(main, ["cut", "--profile", "alu-jet", "--profiles", str(jet), "--calibrate", "250",
                                "--test-thickness", "8", "--test-quality", "2"])
     assert res.exit_code == 0, res.output
-    from pathlen.cli_cut import cutting_feed_mm_min  # the profile's own speed after calibration
+    from pathlen.estimates.cut import cutting_feed_mm_min  # the profile's own speed after calibration
     from pathlen.estimates.waterjet import WaterjetInputs, waterjet_feed_mm_min
 
     v = read_profile_file(jet)["alu-jet"].values
