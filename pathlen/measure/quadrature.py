@@ -171,7 +171,8 @@ def split_intervals(n: int, split_rows: IntArray, split_t: FloatArray,
     t_end = np.ones(n) if t_end is None else t_end
     inside = (split_t > t_start[split_rows]) & (split_t < t_end[split_rows])
     sr, st = split_rows[inside], split_t[inside]
-    order = np.lexsort((st, sr))
+    order = np.argsort(st)  # by t, then stably by row: the same as lexsort((st, sr)), faster here
+    order = order[np.argsort(sr[order], kind="stable")]
     sr, st = sr[order], st[order]
     count = np.bincount(sr, minlength=n)
     first = np.concatenate([[0], np.cumsum(count + 2)[:-1]])  # offset of each row's boundaries
