@@ -182,7 +182,12 @@ def _bulged_path(points: list[tuple[float, float, float]], bulges: list[float], 
     """Lines and bulge arcs between OCS vertices ``points`` (x, y, elevation)."""
     count = len(points)
     last = count if closed else count - 1
-    wcs = [ocs.to_wcs(p).xyz for p in points]
+    plain = not ocs.transform  # default extrusion: OCS is WCS, no conversions needed
+
+    def to_wcs(p: tuple[float, float, float]) -> tuple[float, float, float]:
+        return p if plain else ocs.to_wcs(p).xyz
+
+    wcs = [to_wcs(p) for p in points]
     for i in range(last):
         j = (i + 1) % count
         b = bulges[i]
@@ -199,8 +204,7 @@ def _bulged_path(points: list[tuple[float, float, float]], bulges: list[float], 
         ux, uy = x0 - cx, y0 - cy
         vx, vy = (-uy, ux) if b > 0 else (uy, -ux)
         theta = 4.0 * math.atan(abs(b))
-        coll.add_arc(ocs.to_wcs((cx, cy, z)).xyz, ocs.to_wcs((ux, uy, 0.0)).xyz,
-                     ocs.to_wcs((vx, vy, 0.0)).xyz, 0.0, theta, ent)
+        coll.add_arc(to_wcs((cx, cy, z)), to_wcs((ux, uy, 0.0)), to_wcs((vx, vy, 0.0)), 0.0, theta, ent)
 
 
 def _lwpolyline(e: DXFGraphic, coll: SegmentCollector) -> None:
