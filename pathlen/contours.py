@@ -13,7 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from pathlen.geometry import Drawing, FloatArray, IntArray
+from pathlen.geometry import Drawing, FloatArray, IntArray, take_rows
 from pathlen.proximity import close_pairs, components
 from pathlen.segments import SegmentTable
 
@@ -133,7 +133,7 @@ def chain_contours(table: SegmentTable, layer: IntArray, join_tol: float = DEFAU
         return ContourSet(none, none.astype(bool), none, none, none.astype(bool), none, np.zeros(0), np.zeros(0),
                           np.zeros((0, 3)), np.zeros((0, 3)))
     k = len(rows)
-    node = join_nodes(np.concatenate([table.start[rows], table.end[rows]]),
+    node = join_nodes(np.concatenate([take_rows(table.start, rows), take_rows(table.end, rows)]),
                       np.concatenate([layer[rows], layer[rows]]), join_tol)
     node_of = np.stack([node[:k], node[k:]], axis=1)  # [k, 2]: node at start, at end
     nodes = int(node.max()) + 1
@@ -164,11 +164,11 @@ def join_nodes(points: FloatArray, groups: IntArray, tol: float) -> IntArray:
     key = (bits[:, 0] * np.uint64(0x9E3779B97F4A7C15)) ^ (bits[:, 1] * np.uint64(0xC2B2AE3D27D4EB4F)) ^ (
         bits[:, 2] * np.uint64(0x165667B19E3779F9)) ^ groups.astype(np.uint64)
     order = np.argsort(key)
-    p, g = points[order], groups[order]
+    p, g = take_rows(points, order), groups[order]
     new = np.r_[True, (p[1:, 0] != p[:-1, 0]) | (p[1:, 1] != p[:-1, 1]) | (p[1:, 2] != p[:-1, 2]) | (g[1:] != g[:-1])]
     place = np.cumsum(new) - 1
     first = np.flatnonzero(new)
-    pairs = close_pairs(p[first], tol, g[first])
+    pairs = close_pairs(take_rows(p, first), tol, g[first])
     label = components(len(first), pairs[:, 0], pairs[:, 1])  # node numbers below len(first), some unused
     node = np.empty(len(points), dtype=np.int64)
     node[order] = label[place]
@@ -287,8 +287,8 @@ def _contours_from_chains(table: SegmentTable, layer: IntArray, rows: IntArray, 
     return ContourSet(
         steps=seg, forward=fwd, first=first, size=sizes, closed=start_node == end_node, layer=layer[seg[first]],
         length=np.add.reduceat(table.length[seg], first), bound=np.add.reduceat(table.bound[seg], first),
-        start=np.where(fwd[first, None], table.start[seg[first]], table.end[seg[first]]),
-        end=np.where(fwd[last, None], table.end[seg[last]], table.start[seg[last]]),
+        start=np.where(fwd[first, None], take_rows(table.start, seg[first]), take_rows(table.end, seg[first])),
+        end=np.where(fwd[last, None], take_rows(table.end, seg[last]), take_rows(table.start, seg[last])),
     )
 
 

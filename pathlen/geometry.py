@@ -45,6 +45,12 @@ MM_PER_UNIT: dict[str, float] = {
 }
 
 
+def take_rows(a: NDArray, index: NDArray) -> NDArray:
+    """``a[index]`` for a 2-D or 3-D array and integer ``index``: ``np.take`` along axis 0, several times
+    faster than fancy indexing of rows on the numpy builds measured here."""
+    return np.take(a, index, axis=0)
+
+
 def identity() -> FloatArray:
     """Return the 4x4 identity affine map."""
     return np.eye(4)

@@ -10,7 +10,7 @@ import numpy as np
 import shapely
 
 from pathlen.contours import Contour, ContourSet
-from pathlen.geometry import IntArray
+from pathlen.geometry import IntArray, take_rows
 from pathlen.segments import SegmentTable
 
 #: Segments per quarter circle of the round joins that shapely's buffer draws.
@@ -55,8 +55,8 @@ def nesting_depth(table: SegmentTable, contours: ContourSet) -> tuple[IntArray, 
     if len(closed) == 0:
         return depth, parent
     seg_lo, seg_hi = table.box
-    lo = np.minimum.reduceat(seg_lo[contours.steps, :2], contours.first)[closed]
-    hi = np.maximum.reduceat(seg_hi[contours.steps, :2], contours.first)[closed]
+    lo = take_rows(np.minimum.reduceat(take_rows(seg_lo[:, :2], contours.steps), contours.first), closed)
+    hi = take_rows(np.maximum.reduceat(take_rows(seg_hi[:, :2], contours.steps), contours.first), closed)
     tree = shapely.STRtree(shapely.box(lo[:, 0], lo[:, 1], hi[:, 0], hi[:, 1]))
     starts = contours.start[:, :2]
     point_i, box_j = tree.query(shapely.points(starts), predicate="intersects")

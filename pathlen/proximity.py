@@ -15,7 +15,7 @@ import itertools
 
 import numpy as np
 
-from pathlen.geometry import FloatArray, IntArray
+from pathlen.geometry import FloatArray, IntArray, take_rows
 
 #: Most points in one cell before the grid falls back to cells one tolerance wide.
 CROWDED = 32
@@ -48,14 +48,14 @@ def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -
         keys = _cell_keys(cell, group)
         order = np.argsort(keys, kind="stable")
         keys = keys[order]
-    cell, grp, pts = cell[order], group[order], pts[order]
+    cell, grp, pts = take_rows(cell, order), group[order], take_rows(pts, order)
     where = pts / width - cell  # position inside the cell, 0 .. 1 per axis
     margin = tol / width + 1e-9
     near_low, near_high = where < margin, where > 1.0 - margin
 
     def near(pairs: IntArray) -> IntArray:
         """Keep candidate pairs (positions in sorted order) within ``tol`` and in one group."""
-        d = pts[pairs[:, 0]] - pts[pairs[:, 1]]
+        d = take_rows(pts, pairs[:, 0]) - take_rows(pts, pairs[:, 1])
         keep = (np.einsum("ij,ij->i", d, d) <= tol * tol) & (grp[pairs[:, 0]] == grp[pairs[:, 1]])
         return pairs[keep]
 

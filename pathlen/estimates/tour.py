@@ -17,7 +17,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.spatial import cKDTree
 
-from pathlen.geometry import FloatArray, IntArray
+from pathlen.geometry import FloatArray, IntArray, take_rows
 
 #: Largest number of contours for which 2-opt compares every pair of positions.
 FULL_2OPT = 400
@@ -66,7 +66,7 @@ def plan_tour(start: FloatArray, end: FloatArray, closed: np.ndarray, parent: In
 
 def tour_length(points: FloatArray, order: IntArray, home: FloatArray) -> float:
     """Open path from ``home`` through ``points[order]`` (mm)."""
-    path = np.vstack([home[None, :], points[order]])
+    path = np.vstack([home[None, :], take_rows(points, order)])
     return float(np.linalg.norm(np.diff(path, axis=0), axis=1).sum())
 
 
@@ -216,7 +216,7 @@ def _orient(start: FloatArray, end: FloatArray, closed: np.ndarray, order: IntAr
     n = len(start)
     reverse = np.zeros(n, dtype=bool)
     if closed.all():  # every exit is the entry: one vectorised pass
-        path = np.vstack([home[None, :], start[order]])
+        path = np.vstack([home[None, :], take_rows(start, order)])
         return Tour(order, reverse, np.linalg.norm(np.diff(path, axis=0), axis=1))
     sx, sy = start[:, 0].tolist(), start[:, 1].tolist()
     ex, ey = end[:, 0].tolist(), end[:, 1].tolist()

@@ -11,7 +11,7 @@ from math import comb
 
 import numpy as np
 
-from pathlen.geometry import Beziers, FloatArray, IntArray
+from pathlen.geometry import Beziers, FloatArray, IntArray, take_rows
 from pathlen.measure.closed_forms import EPS, quadratic_bezier_lengths
 from pathlen.measure.quadrature import Integral, golden_minima, graded_splits, integrate_speed, split_intervals
 
@@ -59,7 +59,7 @@ class PolynomialSpeed:
     def __call__(self, rows: IntArray, t: FloatArray) -> FloatArray:
         acc = None
         for c in self.coeffs:
-            x = _horner(c[rows], t)
+            x = _horner(take_rows(c, rows), t)
             acc = x * x if acc is None else acc + x * x
         return np.sqrt(acc)
 
@@ -86,11 +86,11 @@ class RationalSpeed:
         self.magnitude = np.sum(np.abs(c[:, :, :3]), axis=(1, 2)) / np.min(w, axis=1)
 
     def __call__(self, rows: IntArray, t: FloatArray) -> FloatArray:
-        w = _horner(self.den[rows], t)
-        wd = _horner(self.den_d[rows], t)
+        w = _horner(take_rows(self.den, rows), t)
+        wd = _horner(take_rows(self.den_d, rows), t)
         acc = None
         for c, cd in zip(self.num, self.num_d, strict=False):
-            x = _horner(cd[rows], t) * w - _horner(c[rows], t) * wd
+            x = _horner(take_rows(cd, rows), t) * w - _horner(take_rows(c, rows), t) * wd
             acc = x * x if acc is None else acc + x * x
         return np.sqrt(acc) / (w * w)
 
