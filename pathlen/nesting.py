@@ -11,6 +11,7 @@ import shapely
 
 from pathlen.contours import Contour, ContourSet
 from pathlen.geometry import IntArray, take_rows
+from pathlen.proximity import cell_keys, expand_ranges
 from pathlen.segments import SegmentTable
 
 #: Segments per quarter circle of the round joins that shapely's buffer draws.
@@ -45,7 +46,7 @@ def nesting_depth(table: SegmentTable, contours: ContourSet) -> tuple[IntArray, 
     """For each contour: how many closed contours contain it, and the innermost one (-1: none).
 
     A contour is inside another when its start point lies strictly inside the other's outline
-    (any layer).  Even depth: an outer profile; odd depth: a hole.  Bounding boxes (an STRtree)
+    (any layer).  Even depth: an outer profile; odd depth: a hole.  Bounding boxes (on a grid)
     pick the candidates; each candidate is settled by a crossing-number test on the outline.
     """
     n = len(contours)
@@ -57,9 +58,8 @@ def nesting_depth(table: SegmentTable, contours: ContourSet) -> tuple[IntArray, 
     seg_lo, seg_hi = table.box
     lo = take_rows(np.minimum.reduceat(take_rows(seg_lo[:, :2], contours.steps), contours.first), closed)
     hi = take_rows(np.maximum.reduceat(take_rows(seg_hi[:, :2], contours.steps), contours.first), closed)
-    tree = shapely.STRtree(shapely.box(lo[:, 0], lo[:, 1], hi[:, 0], hi[:, 1]))
     starts = contours.start[:, :2]
-    point_i, box_j = tree.query(shapely.points(starts), predicate="intersects")
+    point_i, box_j = points_in_boxes(starts, lo, hi)
     container = closed[box_j]
     keep = container != point_i
     point_i, container = point_i[keep], container[keep]
@@ -76,6 +76,45 @@ def nesting_depth(table: SegmentTable, contours: ContourSet) -> tuple[IntArray, 
     last = np.r_[point_i[pick][1:] != point_i[pick][:-1], True]
     parent[point_i[pick][last]] = container[pick][last]
     return depth, parent
+
+
+#: Most grid cells one box may cover before the grid is made coarser.
+MAX_CELLS_PER_BOX = 4096
+
+
+def points_in_boxes(points: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> tuple[IntArray, IntArray]:
+    """All (point, box) index pairs with the 2-D point inside the closed box ``[lo, hi]``.
+
+    Points are hashed into square cells about the median box size; each box visits the cells it
+    covers (few for typical parts; a sheet-sized box visits many, so the cell grows when a box
+    would cover more than :data:`MAX_CELLS_PER_BOX`).  Work is near-linear in points + boxes + pairs.
+    """
+    if len(points) == 0 or len(lo) == 0:
+        return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
+    origin = np.minimum(points.min(axis=0), lo.min(axis=0))
+    extent = hi - lo
+    size = max(float(np.median(extent.max(axis=1))), 1e-9)
+    size = max(size, float(extent.max()) / np.sqrt(MAX_CELLS_PER_BOX))
+    cell = np.floor((points - origin) / size).astype(np.int64)
+    none = np.zeros(len(points), dtype=np.int64)
+    keys = cell_keys(cell, none)
+    order = np.argsort(keys)
+    keys = keys[order]
+    first = np.floor((lo - origin) / size).astype(np.int64)
+    last = np.floor((hi - origin) / size).astype(np.int64)
+    span = last - first + 1  # cells per axis
+    count = span[:, 0] * span[:, 1]
+    box = np.repeat(np.arange(len(lo)), count)
+    k = np.arange(int(count.sum())) - np.repeat(np.cumsum(count) - count, count)
+    cells = np.stack([first[box, 0] + k % span[box, 0], first[box, 1] + k // span[box, 0]], axis=1)
+    probe = cell_keys(cells, np.zeros(len(cells), dtype=np.int64))
+    a = np.searchsorted(keys, probe, side="left")
+    b = np.searchsorted(keys, probe, side="right")
+    pairs = expand_ranges(box, a, b)  # (box, position in sorted points)
+    box_j, point_i = pairs[:, 0], order[pairs[:, 1]]
+    p = take_rows(points, point_i)
+    inside = np.all((p >= take_rows(lo, box_j)) & (p <= take_rows(hi, box_j)), axis=1)
+    return point_i[inside], box_j[inside]
 
 
 def offset_length_change(polygon: shapely.Polygon, distance: float) -> float | None:

@@ -39,13 +39,13 @@ def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -
     pts = (points[:, axes] - origin[axes]) if len(axes) else np.zeros((n, 1))
     width = _cell_width(span[axes], n, tol)
     cell = np.floor(pts / width).astype(np.int64)
-    keys = _cell_keys(cell, group)
+    keys = cell_keys(cell, group)
     order = np.argsort(keys, kind="stable")
     keys = keys[order]
     if width > tol and np.diff(np.flatnonzero(np.r_[True, keys[1:] != keys[:-1], True])).max() > CROWDED:
         width = tol if tol > 0 else 1.0  # crowded cells: fall back to cells one tolerance wide
         cell = np.floor(pts / width).astype(np.int64)
-        keys = _cell_keys(cell, group)
+        keys = cell_keys(cell, group)
         order = np.argsort(keys, kind="stable")
         keys = keys[order]
     cell, grp, pts = take_rows(cell, order), group[order], take_rows(pts, order)
@@ -67,10 +67,10 @@ def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -
             if step:
                 mask &= near_high[:, axis] if step > 0 else near_low[:, axis]
         rows = np.flatnonzero(mask)
-        probe = _cell_keys(cell[rows] + off, grp[rows])
+        probe = cell_keys(cell[rows] + off, grp[rows])
         lo = np.searchsorted(keys, probe, side="left")
         hi = np.searchsorted(keys, probe, side="right")
-        found.append(near(_expand(rows, lo, hi)))
+        found.append(near(expand_ranges(rows, lo, hi)))
     return np.sort(order[np.concatenate(found)], axis=1)
 
 
@@ -85,7 +85,7 @@ def _cell_width(span: FloatArray, n: int, tol: float) -> float:
     return max(tol, min(spacing / 4.0, 256.0 * tol))
 
 
-def _cell_keys(cell: IntArray, group: IntArray) -> np.ndarray:
+def cell_keys(cell: IntArray, group: IntArray) -> np.ndarray:
     """One integer per (group, cell): exact while the grid spans under 2**21 cells per axis.
 
     Larger grids and the group fold in as a hash; a collision only adds candidate pairs, which
@@ -109,7 +109,7 @@ def _pairs_in_same_cell(keys: IntArray) -> IntArray:
     return np.concatenate(out) if out else np.zeros((0, 2), dtype=np.int64)
 
 
-def _expand(rows: IntArray, lo: IntArray, hi: IntArray) -> IntArray:
+def expand_ranges(rows: IntArray, lo: IntArray, hi: IntArray) -> IntArray:
     """All pairs (rows[k], m) for m in [lo[k], hi[k])."""
     count = hi - lo
     total = int(count.sum())

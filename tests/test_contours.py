@@ -201,3 +201,20 @@ def test_overlapping_collinear_lines():
     _, table, _, layer = build(shapes)
     count, length = overlapping_lines(table, layer, np.arange(len(table)))
     assert count == 2 and length == pytest.approx(4.0 + 1.0)
+
+
+def test_points_in_boxes_against_brute_force():
+    # Reference: the direct test of every point against every box (numpy broadcasting), including a box as
+    # large as the whole field, degenerate boxes and points on box edges.
+    from pathlen.nesting import points_in_boxes
+
+    rng = np.random.default_rng(4)
+    pts = rng.uniform(0, 1000, (3000, 2))
+    lo = rng.uniform(0, 1000, (800, 2))
+    hi = lo + rng.uniform(0, 40, (800, 2))
+    lo = np.vstack([lo, [[0, 0], [500, 500]]])
+    hi = np.vstack([hi, [[1000, 1000], [500, 500]]])
+    pts = np.vstack([pts, [[500, 500]], lo[:5]])  # on corners
+    i, j = points_in_boxes(pts, lo, hi)
+    inside = np.all((pts[:, None, :] >= lo[None]) & (pts[:, None, :] <= hi[None]), axis=2)
+    assert sorted(zip(i.tolist(), j.tolist(), strict=True)) == sorted(zip(*np.nonzero(inside), strict=True))

@@ -22,7 +22,7 @@ from pathlen.geometry import FloatArray, IntArray, take_rows
 #: Largest number of contours for which 2-opt compares every pair of positions.
 FULL_2OPT = 400
 #: Positions compared by windowed 2-opt on longer jobs.
-WINDOW = 10
+WINDOW = 8
 #: Most rounds of windowed 2-opt on longer jobs (each applies every non-overlapping improving move).
 WINDOW_ROUNDS = 40
 #: Long jobs stop 2-opt when a round shortens the rapids by less than this fraction.
@@ -135,6 +135,8 @@ def _hilbert_order(points: FloatArray, bits: int = 16) -> IntArray:
 
 def _holes_first(order: IntArray, parent: IntArray) -> IntArray:
     """``order`` with each container moved to just after its last remaining hole."""
+    if not (parent >= 0).any():
+        return order
     waiting = _children_count(parent).tolist()
     parent_l = parent.tolist()
     held = bytearray(len(order))
