@@ -50,6 +50,10 @@ def count_contours(drawing: Drawing, join_tol: float = DEFAULT_JOIN_TOL_MM) -> C
     even number of segment ends (each segment can be traversed once in a loop).
     """
     start, end, ent = segment_endpoints(drawing)
+    lines = drawing.lines
+    real = np.ones(len(ent), dtype=bool)
+    real[: len(lines)] = np.any(lines.p0 != lines.p1, axis=1)  # a zero-length line is not a contour
+    start, end, ent = start[real], end[real], ent[real]
     n = len(ent)
     if n == 0:
         return ContourCount(0, 0)

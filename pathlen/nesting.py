@@ -66,12 +66,20 @@ def nesting_depth(table: SegmentTable, contours: ContourSet) -> tuple[IntArray, 
     hits = [_inside(starts[i], contour_outline(table, contours[j])) for i, j in
             zip(point_i.tolist(), container.tolist(), strict=True)]
     point_i, container = point_i[np.array(hits, dtype=bool)], container[np.array(hits, dtype=bool)]
-    if len(point_i) == 0:
-        return depth, parent
-    np.add.at(depth, point_i, 1)
     size = (hi - lo).prod(axis=1)
     box_size = np.zeros(n)
     box_size[closed] = size
+    open_size = np.flatnonzero(~contours.closed)
+    if len(open_size):  # open contours have no box above; give them theirs for the size test
+        steps_lo = np.minimum.reduceat(take_rows(seg_lo[:, :2], contours.steps), contours.first)
+        steps_hi = np.maximum.reduceat(take_rows(seg_hi[:, :2], contours.steps), contours.first)
+        box_size[open_size] = (steps_hi - steps_lo)[open_size].prod(axis=1)
+    # a container is larger than what it holds: crossing outlines cannot hold each other (no cycles)
+    bigger = box_size[container] > box_size[point_i]
+    point_i, container = point_i[bigger], container[bigger]
+    if len(point_i) == 0:
+        return depth, parent
+    np.add.at(depth, point_i, 1)
     pick = np.lexsort((-box_size[container], point_i))  # per contour, the smallest container last
     last = np.r_[point_i[pick][1:] != point_i[pick][:-1], True]
     parent[point_i[pick][last]] = container[pick][last]
@@ -130,8 +138,13 @@ def offset_length_change(polygon: shapely.Polygon, distance: float) -> float | N
     moved = polygon.buffer(distance, quad_segs=OFFSET_QUAD_SEGS, join_style="round")
     if moved.is_empty:
         return None
-    return float(moved.exterior.length if moved.geom_type == "Polygon" else
-                 sum(g.exterior.length for g in moved.geoms)) - float(polygon.exterior.length)
+    return outline_length(moved) - outline_length(polygon)
+
+
+def outline_length(shape: shapely.Geometry) -> float:
+    """Total length of the outer boundaries of a polygon or of the parts of a multipolygon (mm)."""
+    parts = shape.geoms if hasattr(shape, "geoms") else [shape]
+    return float(sum(g.exterior.length for g in parts if not g.is_empty))
 
 
 def _signed_angle(a: np.ndarray, b: np.ndarray) -> np.ndarray:

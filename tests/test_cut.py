@@ -220,3 +220,27 @@ def test_overlapping_lines_cut_once_with_dedupe(tmp_path, profile_file):
     assert plain.cut_length_mm == pytest.approx(65.0) and once.cut_length_mm == pytest.approx(40.0)
     assert once.time_s["cutting"] == pytest.approx(plain.time_s["cutting"] - 25.0 / 20.0, rel=1e-12)
     assert any("overlap" in w for w in plain.warnings)
+
+
+def test_awkward_drawings_are_estimated(tmp_path, profile_file):
+    # Found by fuzzing: self-crossing outlines (no inside to offset towards), zero-length segments (nothing to
+    # pierce), and random crossing contours whose start points lie inside each other (no valid holes-first
+    # order unless containers are strictly larger) must all be estimated, not fail.
+    import random
+
+    rng = random.Random(5)
+
+    def r():
+        return f"{rng.uniform(-50, 150):.3f}"
+
+    paths = "".join(f'<path d="M{r()} {r()} L {r()} {r()} Q {r()} {r()} {r()} {r()} A 5 3 30 1 0 {r()} {r()} z"/>'
+                    for _ in range(60))
+    svg = tmp_path / "awkward.svg"
+    svg.write_text('<svg xmlns="http://www.w3.org/2000/svg" width="100mm" height="100mm" viewBox="0 0 100 100">'
+                   f'{paths}<path d="M0 0 L10 0 L10 10 L0 0 L-10 0 L-10 -10 Z"/>'
+                   '<line x1="3" y1="3" x2="3" y2="3"/><path d="M1 1 A 0 0 0 0 1 1 1 L 1 1 Z"/></svg>')
+    p = profile(profile_file, kerf_mm=0.2, kerf_offset="true")
+    r = estimate_file(str(svg), CutSettings(p))
+    assert r.ok, r.error
+    assert r.pierces == 61 and r.closed == 61
+    assert any("cross themselves" in w for w in r.warnings)

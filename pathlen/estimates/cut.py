@@ -116,7 +116,7 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
     layer_names, layer = segment_layers(drawing, table)
     role = _role_of_entities(drawing.entities, s)[table.entity] if len(table) else np.zeros(0, dtype=np.int64)
     warnings = list(drawing.warnings)
-    keep = role > 0
+    keep = (role > 0) & (table.length > 0)  # a zero-length segment is nothing to cut (nor a pierce)
     duplicates = duplicate_segments(table, layer, s.join_tol_mm)
     duplicates = duplicates[keep[duplicates]]
     if len(duplicates):
@@ -145,7 +145,7 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
     feed = cutting_feed_mm_min(p)
     result = CutEstimate(path, ok=True, quantity=s.quantity, feed_mm_min=feed, warnings=warnings)
     motion_s = cutting_s = 0.0
-    small_holes = narrow_holes = rough_offsets = open_cut = 0
+    small_holes = narrow_holes = rough_offsets = crossing = open_cut = 0
     for k, c in enumerate(contours):
         if engraved[k]:
             f = float(p.engrave_feed_mm_min)
@@ -165,6 +165,7 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
                 change, trouble = _kerf_change(table, c, polygon, (-0.5 if hole else 0.5) * p.kerf_mm)
                 narrow_holes += trouble == "narrow"
                 rough_offsets += trouble == "rough"
+                crossing += trouble == "crossing"
             open_cut += not c.closed
             result.pierces += 1
             result.kerf_change_mm += change
@@ -184,6 +185,8 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
         warnings.append(f"{small_holes} small holes cut at {p.small_hole_feed_factor:g} x feed")
     if narrow_holes:
         warnings.append(f"{narrow_holes} holes narrower than the kerf: cut without offset, check them")
+    if crossing:
+        warnings.append(f"{crossing} closed contours cross themselves: cut as drawn, without kerf offset")
     if rough_offsets:
         warnings.append(f"{rough_offsets} contours have features smaller than half the kerf: their offset "
                         "length is approximate")
@@ -216,12 +219,16 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
 
 
 def _kerf_change(table: SegmentTable, c: Contour, polygon: object, outward: float) -> tuple[float, str]:
-    """Length change of a closed contour under the kerf offset, and what went wrong ("", narrow, rough).
+    """Length change of a closed contour under the kerf offset, and what went wrong ("", narrow, rough,
+    crossing).
 
     The exact turning formula is checked against shapely's offset of the sampled polygon; where
     they disagree by more than the sampling can explain, the offset crosses itself (a feature
-    smaller than the offset) and shapely's figure is used.
+    smaller than the offset) and shapely's figure is used.  A contour that crosses itself has no
+    inside and outside to offset towards: it is cut as drawn.
     """
+    if getattr(polygon, "geom_type", "") != "Polygon":
+        return 0.0, "crossing"
     rough = offset_length_change(polygon, outward)  # type: ignore[arg-type]
     if rough is None:
         return 0.0, "narrow"

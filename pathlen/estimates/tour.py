@@ -101,8 +101,9 @@ def _nearest_neighbour(points: FloatArray, parent: IntArray, home: FloatArray) -
                     pick = i
                     break
             if pick < 0:
-                if k >= n:  # nothing ready near: take the first ready one anywhere
-                    pick = next(i for i in range(n) if not done[i] and waiting[i] == 0)
+                if k >= n:  # nothing ready near: the first ready one anywhere (any left, if none is ready)
+                    pick = next((i for i in range(n) if not done[i] and waiting[i] == 0),
+                                next(i for i in range(n) if not done[i]))
                 k *= 4
         done[pick] = 1
         order.append(pick)
