@@ -81,6 +81,8 @@ class Profile:
     values: dict[str, Any] = field(default_factory=dict)
 
     def __getattr__(self, key: str) -> Any:
+        if key.startswith("__") or key == "values":  # pickling looks these up before ``values`` exists
+            raise AttributeError(key)
         try:
             return self.values[key]
         except KeyError:

@@ -244,3 +244,14 @@ def test_awkward_drawings_are_estimated(tmp_path, profile_file):
     assert r.ok, r.error
     assert r.pierces == 61 and r.closed == 61
     assert any("cross themselves" in w for w in r.warnings)
+
+
+def test_cut_on_a_process_pool(runner, plate, profile_file, tmp_path):
+    # --jobs 2 sends the settings (with the profile) to worker processes: they must arrive intact.
+    second = tmp_path / "copy.dxf"
+    second.write_bytes(plate.read_bytes())
+    res = runner.invoke(main, ["cut", str(plate), str(second), "--profile", "ideal", "--profiles", str(profile_file),
+                               "--ignore", "ENGRAVE", "--format", "json", "--jobs", "2"])
+    assert res.exit_code == 0, res.output
+    files = json.loads(res.stdout)["files"]
+    assert [f["ok"] for f in files] == [True, True] and files[0]["pierces"] == files[1]["pierces"] == 3

@@ -247,3 +247,15 @@ def test_contours_closed_and_open(tmp_path):
     doc.saveas(tmp_path / "c.dxf")
     r = measure_file(str(tmp_path / "c.dxf"))
     assert (r.closed, r.open) == (3, 1)
+
+
+def test_infinite_integer_group_value(tmp_path):
+    # Found by fuzzing: an integer group code whose value reads as "inf" made the DXF reader overflow.
+    path = tmp_path / "inf.dxf"
+    doc = new_doc()
+    doc.modelspace().add_line((0, 0), (1, 0))
+    doc.saveas(path)
+    text = path.read_text().replace("\n 70\n", "\n 70\ninf\n 71\n", 1)  # an int group with an absurd value
+    path.write_text(text)
+    result = measure_file(str(path))
+    assert result.ok or (result.error and not result.error.startswith("unexpected"))

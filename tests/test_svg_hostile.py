@@ -125,3 +125,10 @@ def test_non_finite_and_absurd_coordinates(tmp_path):
     path.write_text('<svg xmlns="http://www.w3.org/2000/svg" width="1mm" height="1mm">'
                     '<line id="far" x2="1e300"/></svg>')
     check_fails(path, "line #far", "coordinates")
+
+
+def test_unknown_declared_encoding(tmp_path):
+    # Found by fuzzing: an XML declaration naming an encoding Python does not know.
+    path = tmp_path / "enc.svg"
+    path.write_text('<?xml version="1.0" encoding="UF-8"?><svg xmlns="http://www.w3.org/2000/svg"/>')
+    check_fails(path, "XML", "UF-8")

@@ -57,11 +57,11 @@ def _load(path: Path) -> tuple[ezdxf.document.Drawing, list[str]]:
         if exc.strerror:
             raise InputError(f"cannot read file: {exc.strerror}") from None
         raise InputError("not a DXF file (no DXF structure found)") from None
-    except (DXFError, UnicodeError, ValueError, TypeError, IndexError, KeyError):
+    except (DXFError, UnicodeError, ValueError, TypeError, IndexError, KeyError, OverflowError):
         pass
     try:
         doc, auditor = recover.readfile(path)
-    except (DXFError, UnicodeError, ValueError, TypeError, IndexError, KeyError) as exc:
+    except (DXFError, UnicodeError, ValueError, TypeError, IndexError, KeyError, OverflowError) as exc:
         raise InputError(f"not a readable DXF file ({_first_line(exc)})") from None
     fixes = len(auditor.fixes) + len(auditor.errors)
     return doc, [f"damaged DXF structure recovered ({fixes} repairs); check the result"]

@@ -126,6 +126,8 @@ def parse_safely(path: Path) -> ET.Element:
         raise InputError(f"unsafe XML refused: {type(exc).__name__}") from None
     except ET.ParseError as exc:
         raise InputError(f"not well-formed XML: {exc}") from None
+    except LookupError as exc:  # an encoding Python does not know, named in the XML declaration
+        raise InputError(f"not readable XML: {exc}") from None
     except OSError as exc:
         raise InputError(f"cannot read file: {exc.strerror}") from None
     assert root is not None
