@@ -255,3 +255,21 @@ def test_cut_on_a_process_pool(runner, plate, profile_file, tmp_path):
     assert res.exit_code == 0, res.output
     files = json.loads(res.stdout)["files"]
     assert [f["ok"] for f in files] == [True, True] and files[0]["pierces"] == files[1]["pierces"] == 3
+
+
+def test_svg_colours_select_operations(runner):
+    # The demo lamp panel: red strokes are cut (6 closed contours), blue ones engraved (3 open waves).
+    from pathlib import Path
+
+    panel = Path(__file__).resolve().parent.parent / "fixtures" / "kl412_lamp_panel.svg"
+    res = runner.invoke(main, ["cut", str(panel), "--profile", "acrylic-3mm-laser", "--engrave", "#0000ff",
+                               "--format", "json"])
+    assert res.exit_code == 0, res.output
+    f = json.loads(res.stdout)["files"][0]
+    assert f["pierces"] == 6 and f["contours"] == {"closed": 6, "open": 3}
+    measured = json.loads(runner.invoke(main, ["measure", str(panel), "--format", "json"]).stdout)["files"][0]
+    assert f["engrave_length"] == pytest.approx(measured["colors"]["#0000ff"]["length"], rel=1e-12)
+    ignored = runner.invoke(main, ["cut", str(panel), "--profile", "acrylic-3mm-laser", "--ignore", "#0000ff",
+                                   "--format", "json"])
+    g = json.loads(ignored.stdout)["files"][0]
+    assert g["contours"] == {"closed": 6, "open": 0} and g["engrave_length"] == 0.0
