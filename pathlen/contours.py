@@ -207,7 +207,9 @@ def _simple_chains(node_of: IntArray, simple: NDArray[np.bool_], piece: IntArray
     succ[ends] = partner[ends ^ 1]
     low = np.full(int(piece.max()) + 1, k, dtype=np.int64)
     np.minimum.at(low, piece[seg], seg)
-    heads = np.unique(low[piece[seg]])
+    is_head = np.zeros(k, dtype=bool)
+    is_head[low[piece[seg]]] = True
+    heads = np.flatnonzero(is_head)  # the lowest row of each piece, ascending
     start = 2 * heads
     loop = partner[start] >= 0
     loop &= _is_loop(piece, node_of, heads, partner, seg)

@@ -1,10 +1,10 @@
 """One flat table of every segment of a measured drawing, for contours and motion estimates.
 
 Rows follow the drawing's batches in a fixed order: lines, elliptic arcs, then Béziers by
-increasing degree.  Each row has its end points, unit tangents at both ends (direction of the
-parametrisation) and measured length and bound (mm).  Sample points along a segment (for outlines,
-turning and curvature: never for length), mid-parameter points, boxes holding each segment and
-the smallest radius of curvature are computed on demand.
+increasing degree.  Each row has its end points and measured length and bound (mm).  Unit
+tangents at both ends, sample points along a segment (for outlines, turning and curvature: never
+for length), mid-parameter points, boxes holding each segment and the smallest radius of
+curvature are computed on demand.
 """
 
 from __future__ import annotations
@@ -27,8 +27,6 @@ CURVE_SAMPLES = 17
 class SegmentTable:
     start: FloatArray  # [n, 3] mm
     end: FloatArray  # [n, 3]
-    start_dir: FloatArray  # [n, 3] unit tangent at the start, along the parametrisation
-    end_dir: FloatArray  # [n, 3] unit tangent at the end
     length: FloatArray  # [n] mm
     bound: FloatArray  # [n] mm
     entity: IntArray  # [n]
@@ -50,6 +48,33 @@ class SegmentTable:
     def samples(self, rows: IntArray) -> FloatArray:
         """``[len(rows), CURVE_SAMPLES, 3]`` points at equal parameter steps (lines: equal steps too)."""
         return self.points_at(rows, np.linspace(0.0, 1.0, CURVE_SAMPLES))
+
+    @cached_property
+    def directions(self) -> tuple[FloatArray, FloatArray]:
+        """``(start_dir, end_dir)``, each ``[n, 3]``: unit tangents at both ends, along the parametrisation."""
+        start, end = np.zeros((len(self), 3)), np.zeros((len(self), 3))
+        for key, first, count in self._offsets:
+            part = slice(first, first + count)
+            if key == "lines":
+                b = self.drawing.lines
+                start[part] = end[part] = _unit(b.p1 - b.p0)
+            elif key == "arcs":
+                b = self.drawing.arcs
+                start[part] = _unit(-b.u * np.sin(b.t0)[:, None] + b.v * np.cos(b.t0)[:, None])
+                end[part] = _unit(-b.u * np.sin(b.t1)[:, None] + b.v * np.cos(b.t1)[:, None])
+            else:
+                ctrl = self.drawing.beziers[int(key[6:])].ctrl
+                start[part] = _first_nonzero(ctrl[:, 1:] - ctrl[:, :1])
+                end[part] = _first_nonzero(ctrl[:, -1:] - ctrl[:, -2::-1])
+        return start, end
+
+    @property
+    def start_dir(self) -> FloatArray:
+        return self.directions[0]
+
+    @property
+    def end_dir(self) -> FloatArray:
+        return self.directions[1]
 
     @cached_property
     def middle(self) -> FloatArray:
@@ -128,18 +153,12 @@ def _unit(v: FloatArray) -> FloatArray:
 
 def _lines(drawing: Drawing, measured: Measurement) -> tuple:
     b = drawing.lines
-    d = _unit(b.p1 - b.p0)
-    return b.p0, b.p1, d, d, measured.lines.length, measured.lines.bound, b.entity
+    return b.p0, b.p1, measured.lines.length, measured.lines.bound, b.entity
 
 
 def _arcs(drawing: Drawing, measured: Measurement) -> tuple:
     b = drawing.arcs
-
-    def tangent(s: FloatArray) -> FloatArray:
-        return _unit(-b.u * np.sin(s)[:, None] + b.v * np.cos(s)[:, None])
-
-    return (b.points(b.t0), b.points(b.t1), tangent(b.t0), tangent(b.t1), measured.arcs.length,
-            measured.arcs.bound, b.entity)
+    return b.points(b.t0), b.points(b.t1), measured.arcs.length, measured.arcs.bound, b.entity
 
 
 def _bezier_points(b: object, rows: IntArray, t: FloatArray) -> FloatArray:
@@ -153,11 +172,7 @@ def _bezier_points(b: object, rows: IntArray, t: FloatArray) -> FloatArray:
 
 def _beziers(drawing: Drawing, measured: Measurement, degree: int) -> tuple:
     b = drawing.beziers[degree]
-    ctrl = b.ctrl
-    start_dir = _first_nonzero(ctrl[:, 1:] - ctrl[:, :1])
-    end_dir = _first_nonzero(ctrl[:, -1:] - ctrl[:, -2::-1])
-    return (ctrl[:, 0], ctrl[:, -1], start_dir, end_dir, measured.beziers[degree].length,
-            measured.beziers[degree].bound, b.entity)
+    return b.ctrl[:, 0], b.ctrl[:, -1], measured.beziers[degree].length, measured.beziers[degree].bound, b.entity
 
 
 def _first_nonzero(diffs: FloatArray) -> FloatArray:

@@ -22,7 +22,7 @@ from pathlen.geometry import FloatArray, IntArray, take_rows
 #: Largest number of contours for which 2-opt compares every pair of positions.
 FULL_2OPT = 400
 #: Positions compared by windowed 2-opt on longer jobs.
-WINDOW = 8
+WINDOW = 6
 #: Most rounds of windowed 2-opt on longer jobs (each applies every non-overlapping improving move).
 WINDOW_ROUNDS = 40
 #: Long jobs stop 2-opt when a round shortens the rapids by less than this fraction.
