@@ -56,8 +56,10 @@ def nesting_depth(table: SegmentTable, contours: ContourSet) -> tuple[IntArray, 
     if len(closed) == 0:
         return depth, parent
     seg_lo, seg_hi = table.box
-    lo = take_rows(np.minimum.reduceat(take_rows(seg_lo[:, :2], contours.steps), contours.first), closed)
-    hi = take_rows(np.maximum.reduceat(take_rows(seg_hi[:, :2], contours.steps), contours.first), closed)
+    box_lo = np.minimum.reduceat(take_rows(seg_lo[:, :2], contours.steps), contours.first)  # per contour
+    box_hi = np.maximum.reduceat(take_rows(seg_hi[:, :2], contours.steps), contours.first)
+    box_size = (box_hi - box_lo).prod(axis=1)
+    lo, hi = take_rows(box_lo, closed), take_rows(box_hi, closed)
     starts = contours.start[:, :2]
     point_i, box_j = points_in_boxes(starts, lo, hi)
     container = closed[box_j]
@@ -66,14 +68,6 @@ def nesting_depth(table: SegmentTable, contours: ContourSet) -> tuple[IntArray, 
     hits = [_inside(starts[i], contour_outline(table, contours[j])) for i, j in
             zip(point_i.tolist(), container.tolist(), strict=True)]
     point_i, container = point_i[np.array(hits, dtype=bool)], container[np.array(hits, dtype=bool)]
-    size = (hi - lo).prod(axis=1)
-    box_size = np.zeros(n)
-    box_size[closed] = size
-    open_size = np.flatnonzero(~contours.closed)
-    if len(open_size):  # open contours have no box above; give them theirs for the size test
-        steps_lo = np.minimum.reduceat(take_rows(seg_lo[:, :2], contours.steps), contours.first)
-        steps_hi = np.maximum.reduceat(take_rows(seg_hi[:, :2], contours.steps), contours.first)
-        box_size[open_size] = (steps_hi - steps_lo)[open_size].prod(axis=1)
     # a container is larger than what it holds: crossing outlines cannot hold each other (no cycles)
     bigger = box_size[container] > box_size[point_i]
     point_i, container = point_i[bigger], container[bigger]
