@@ -106,8 +106,7 @@ def points_in_boxes(points: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> tuple
     last = np.floor((hi - origin) / size).astype(np.int64)
     span = last - first + 1  # cells per axis
     count = span[:, 0] * span[:, 1]
-    box = np.repeat(np.arange(len(lo)), count)
-    k = np.arange(int(count.sum())) - np.repeat(np.cumsum(count) - count, count)
+    box, k = expand_ranges(np.arange(len(lo)), np.zeros_like(count), count).T  # box, its k-th cell
     cells = np.stack([first[box, 0] + k % span[box, 0], first[box, 1] + k // span[box, 0]], axis=1)
     probe = cell_keys(cells, np.zeros(len(cells), dtype=np.int64))
     a = np.searchsorted(keys, probe, side="left")

@@ -46,6 +46,7 @@ from pathlen.importers.svg_values import (
     translate,
     viewbox_transform,
 )
+from pathlen.proximity import expand_ranges
 
 #: Largest SVG file read (bytes).  Peak memory measured at about 20x the file size for large files.
 MAX_BYTES = 100_000_000
@@ -502,16 +503,15 @@ class _Importer:
                 if len(extra):
                     r, owner = rows.get(kind, (np.zeros((0, width)), np.zeros(0, dtype=np.int64)))
                     rows[kind] = (np.concatenate([r, extra]), np.concatenate([owner, np.full(len(extra), u)]))
-        per_copy = {kind: np.bincount(owner, minlength=len(texts))[copy_of] for kind, (_, owner) in rows.items()}
-        if sum(int(n.sum()) for n in per_copy.values()) + self.raw_count() > MAX_SEGMENTS:
+        counts = {kind: np.bincount(owner, minlength=len(texts)) for kind, (_, owner) in rows.items()}
+        if sum(int(c[copy_of].sum()) for c in counts.values()) + self.raw_count() > MAX_SEGMENTS:
             raise InputError(f"more than {MAX_SEGMENTS:,} segments after expanding <use>; file refused")
+        copies = np.arange(len(copy_of))
         for kind, (r, owner) in rows.items():
-            order = np.argsort(owner, kind="stable")
-            r, counts = r[order], np.bincount(owner, minlength=len(texts))
-            first = np.cumsum(counts) - counts
-            n = per_copy[kind]
-            within = np.arange(int(n.sum())) - np.repeat(np.cumsum(n) - n, n)
-            self.raw.add(kind, r[np.repeat(first[copy_of], n) + within])
+            r = r[np.argsort(owner, kind="stable")]  # rows of each distinct path together
+            first = (np.cumsum(counts[kind]) - counts[kind])[copy_of]
+            n = counts[kind][copy_of]
+            self.raw.add(kind, r[expand_ranges(copies, first, first + n)[:, 1]])
             self.raw.entity[kind].frombytes(np.repeat(entity, n).tobytes())
             self.raw.transform[kind].frombytes(np.repeat(transform, n).tobytes())
 
