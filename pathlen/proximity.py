@@ -37,17 +37,14 @@ def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -
     span = points.max(axis=0) - origin
     axes = np.flatnonzero(span > 0)  # coordinates that vary (a flat drawing has two)
     pts = (points[:, axes] - origin[axes]) if len(axes) else np.zeros((n, 1))
-    width = _cell_width(span[axes], n, tol)
-    cell = np.floor(pts / width).astype(np.int64)
-    keys = cell_keys(cell, group)
-    order = np.argsort(keys, kind="stable")
-    keys = keys[order]
-    if width > tol and np.diff(np.flatnonzero(np.r_[True, keys[1:] != keys[:-1], True])).max() > CROWDED:
-        width = tol if tol > 0 else 1.0  # crowded cells: fall back to cells one tolerance wide
+    # cells sized to the spacing; crowded cells: fall back to cells one tolerance wide
+    for width in (_cell_width(span[axes], n, tol), tol if tol > 0 else 1.0):
         cell = np.floor(pts / width).astype(np.int64)
         keys = cell_keys(cell, group)
         order = np.argsort(keys, kind="stable")
         keys = keys[order]
+        if width <= tol or np.diff(np.flatnonzero(np.r_[True, keys[1:] != keys[:-1], True])).max() <= CROWDED:
+            break
     cell, grp, pts = take_rows(cell, order), group[order], take_rows(pts, order)
     where = pts / width - cell  # position inside the cell, 0 .. 1 per axis
     margin = tol / width + 1e-9
