@@ -409,8 +409,7 @@ class _Importer:
         error = None
         if tag == "path":
             self.paths.append((elem.get("d", ""), len(self.entities), st.transform))
-            self.entities.append(Entity(st.layer or "", self.handle(elem, tag), tag, _colour(st.stroke, st.color)))
-            self.drawn.add(id(elem))
+            self.add_entity(elem, tag, st)
             if len(self.paths) > MAX_SEGMENTS:
                 raise InputError(f"more than {MAX_SEGMENTS:,} paths after expanding <use>; file refused")
             return
@@ -437,10 +436,14 @@ class _Importer:
         if error:
             self.warn_element(elem, tag, error)
         if raw.tag(len(self.entities), st.transform):
-            self.entities.append(Entity(st.layer or "", self.handle(elem, tag), tag, _colour(st.stroke, st.color)))
-            self.drawn.add(id(elem))
+            self.add_entity(elem, tag, st)
             if self.raw_count() > MAX_SEGMENTS:
                 raise InputError(f"more than {MAX_SEGMENTS:,} segments after expanding <use>; file refused")
+
+    def add_entity(self, elem: ET.Element, tag: str, st: _State) -> None:
+        """The entity row for a drawn shape: layer, handle, kind and stroke colour."""
+        self.entities.append(Entity(st.layer or "", self.handle(elem, tag), tag, _colour(st.stroke, st.color)))
+        self.drawn.add(id(elem))
 
     def poly(self, text: str, closed: bool) -> str | None:
         error = None
