@@ -26,9 +26,7 @@ def contour_polygon(table: SegmentTable, contour: Contour) -> shapely.Polygon:
 
 def contour_outline(table: SegmentTable, contour: Contour) -> np.ndarray:
     """The contour's sample points (x, y) in cutting order, a closed ring for a closed contour."""
-    pts = table.samples(contour.segments)[:, :, :2]
-    pts = np.where(contour.forward[:, None, None], pts, pts[:, ::-1])
-    return pts.reshape(-1, 2)
+    return table.travel_samples(contour.segments, contour.forward)[:, :, :2].reshape(-1, 2)
 
 
 def _inside(point: np.ndarray, ring: np.ndarray) -> bool:
@@ -156,10 +154,8 @@ def contour_turning(table: SegmentTable, contour: Contour) -> tuple[float, np.nd
     samples (true for the sample density of the table).  Corners include the last-to-first joint.
     """
     idx, fwd = contour.segments, contour.forward
-    pts = table.samples(idx)[:, :, :2]
-    pts = np.where(fwd[:, None, None], pts, pts[:, ::-1])
-    t_in = np.where(fwd[:, None], table.start_dir[idx], -table.end_dir[idx])[:, :2]
-    t_out = np.where(fwd[:, None], table.end_dir[idx], -table.start_dir[idx])[:, :2]
+    pts = table.travel_samples(idx, fwd)[:, :, :2]
+    t_in, t_out = (d[:, :2] for d in table.travel_directions(idx, fwd))
     chords = np.diff(pts, axis=1)
     moving = np.linalg.norm(chords, axis=2) > 0
     smooth = 0.0

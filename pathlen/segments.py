@@ -14,8 +14,9 @@ from functools import cached_property
 from math import comb
 
 import numpy as np
+from numpy.typing import NDArray
 
-from pathlen.geometry import Drawing, FloatArray, IntArray
+from pathlen.geometry import Drawing, FloatArray, IntArray, take_rows
 from pathlen.measure import Measurement
 from pathlen.measure.closed_forms import ellipse_frame
 
@@ -68,13 +69,16 @@ class SegmentTable:
                 end[part] = _first_nonzero(ctrl[:, -1:] - ctrl[:, -2::-1])
         return start, end
 
-    @property
-    def start_dir(self) -> FloatArray:
-        return self.directions[0]
+    def travel_directions(self, rows: IntArray, forward: NDArray[np.bool_]) -> tuple[FloatArray, FloatArray]:
+        """Unit tangents ``(entering, leaving)`` of ``rows`` cut forwards (True) or backwards, ``[k, 3]``."""
+        start, end = take_rows(self.directions[0], rows), take_rows(self.directions[1], rows)
+        fwd = np.asarray(forward)[:, None]
+        return np.where(fwd, start, -end), np.where(fwd, end, -start)
 
-    @property
-    def end_dir(self) -> FloatArray:
-        return self.directions[1]
+    def travel_samples(self, rows: IntArray, forward: NDArray[np.bool_]) -> FloatArray:
+        """:meth:`samples` of ``rows`` in the order they are cut (reversed where not forward)."""
+        pts = self.samples(rows)
+        return np.where(np.asarray(forward)[:, None, None], pts, pts[:, ::-1])
 
     @cached_property
     def middle(self) -> FloatArray:

@@ -252,8 +252,7 @@ def _contour_motion_s(table: SegmentTable, c: Contour, feed: float, p: Profile, 
     length = table.length[idx] * scale
     radius = table.min_radius[idx]
     top = np.minimum(feed, np.sqrt(p.accel_mm_s2 * radius))  # centripetal limit v <= sqrt(a r)
-    d_out = np.where(fwd[:, None], table.end_dir[idx], -table.start_dir[idx])
-    d_in = np.where(fwd[:, None], table.start_dir[idx], -table.end_dir[idx])
+    d_in, d_out = table.travel_directions(idx, fwd)
     corner = np.empty(len(idx))
     corner[0] = math.inf
     if len(idx) > 1:
