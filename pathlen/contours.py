@@ -211,8 +211,7 @@ def _simple_chains(node_of: IntArray, simple: NDArray[np.bool_], piece: IntArray
     is_head[low[piece[seg]]] = True
     heads = np.flatnonzero(is_head)  # the lowest row of each piece, ascending
     start = 2 * heads
-    loop = partner[start] >= 0
-    loop &= _is_loop(piece, node_of, heads, partner, seg)
+    loop = _is_loop(piece, heads, partner, ends)
     succ[partner[start[loop]] ^ 1] = -1  # open each loop just before its start ...
     succ[partner[start[loop] + 1] ^ 1] = -1  # ... and its reverse copy before the start entered backwards
     ptr = np.where(succ >= 0, succ, np.arange(2 * k))
@@ -235,9 +234,8 @@ def _simple_chains(node_of: IntArray, simple: NDArray[np.bool_], piece: IntArray
     return np.repeat(heads, size), steps >> 1, (steps & 1) == 0
 
 
-def _is_loop(piece: IntArray, node_of: IntArray, heads: IntArray, partner: IntArray, seg: IntArray) -> NDArray:
-    """Whether each head's piece is a loop (no node with a single end)."""
-    ends = np.r_[2 * seg, 2 * seg + 1]
+def _is_loop(piece: IntArray, heads: IntArray, partner: IntArray, ends: IntArray) -> NDArray:
+    """Whether each head's piece is a loop (no end without a partner at its node)."""
     loose = np.zeros(int(piece.max()) + 1, dtype=bool)
     loose[piece[ends[partner[ends] < 0] >> 1]] = True
     return ~loose[piece[heads]]
