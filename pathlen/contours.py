@@ -15,7 +15,7 @@ from numpy.typing import NDArray
 
 from pathlen.geometry import Drawing, FloatArray, IntArray, take_rows
 from pathlen.proximity import close_pairs, components
-from pathlen.segments import SegmentTable
+from pathlen.segments import SegmentTable, segment_endpoints, segment_layers
 
 #: Default join tolerance in millimetres.
 DEFAULT_JOIN_TOL_MM = 0.01
@@ -27,19 +27,6 @@ DEFAULT_GAP_REPORT_MM = 0.5
 class ContourCount:
     closed: int
     open: int
-
-
-def segment_endpoints(drawing: Drawing) -> tuple[FloatArray, FloatArray, IntArray]:
-    """Start points, end points and entity index of every segment (all kinds)."""
-    arcs = drawing.arcs
-    starts = [drawing.lines.p0, arcs.points(arcs.t0)]
-    ends = [drawing.lines.p1, arcs.points(arcs.t1)]
-    ents = [drawing.lines.entity, arcs.entity]
-    for b in drawing.beziers.values():
-        starts.append(b.ctrl[:, 0])
-        ends.append(b.ctrl[:, -1])
-        ents.append(b.entity)
-    return np.concatenate(starts), np.concatenate(ends), np.concatenate(ents)
 
 
 def count_contours(drawing: Drawing, join_tol: float = DEFAULT_JOIN_TOL_MM) -> ContourCount:
@@ -57,10 +44,7 @@ def count_contours(drawing: Drawing, join_tol: float = DEFAULT_JOIN_TOL_MM) -> C
     n = len(ent)
     if n == 0:
         return ContourCount(0, 0)
-    layer_names = {e.layer for e in drawing.entities}
-    layer_id = {name: i for i, name in enumerate(sorted(layer_names))}
-    seg_layer = np.array([layer_id[drawing.entities[i].layer] for i in range(len(drawing.entities))],
-                         dtype=np.int64)[ent]
+    _, seg_layer = segment_layers(drawing, ent)
     points = np.concatenate([start, end])
     point_layer = np.concatenate([seg_layer, seg_layer])
     node = join_nodes(points, point_layer, join_tol)

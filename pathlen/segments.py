@@ -141,28 +141,31 @@ class SegmentTable:
         return r
 
 
+def segment_endpoints(drawing: Drawing) -> tuple[FloatArray, FloatArray, IntArray]:
+    """Start points, end points and entity index of every segment, in table row order."""
+    arcs = drawing.arcs
+    starts = [drawing.lines.p0, arcs.points(arcs.t0)]
+    ends = [drawing.lines.p1, arcs.points(arcs.t1)]
+    ents = [drawing.lines.entity, arcs.entity]
+    for degree in sorted(drawing.beziers):
+        b = drawing.beziers[degree]
+        starts.append(b.ctrl[:, 0])
+        ends.append(b.ctrl[:, -1])
+        ents.append(b.entity)
+    return np.concatenate(starts), np.concatenate(ends), np.concatenate(ents)
+
+
 def segment_table(drawing: Drawing, measured: Measurement) -> SegmentTable:
     """The flat table of ``drawing`` with lengths from ``measured``."""
-    parts = [_lines(drawing, measured), _arcs(drawing, measured)]
-    for degree in sorted(drawing.beziers):
-        parts.append(_beziers(drawing, measured, degree))
-    cols = list(zip(*parts, strict=True))
-    return SegmentTable(*(np.concatenate(c) for c in cols), drawing=drawing)
+    start, end, entity = segment_endpoints(drawing)
+    parts = [measured.lines, measured.arcs, *(measured.beziers[d] for d in sorted(drawing.beziers))]
+    return SegmentTable(start, end, np.concatenate([p.length for p in parts]),
+                        np.concatenate([p.bound for p in parts]), entity, drawing)
 
 
 def _unit(v: FloatArray) -> FloatArray:
     n = np.linalg.norm(v, axis=1, keepdims=True)
     return np.divide(v, n, out=np.zeros_like(v), where=n > 0)
-
-
-def _lines(drawing: Drawing, measured: Measurement) -> tuple:
-    b = drawing.lines
-    return b.p0, b.p1, measured.lines.length, measured.lines.bound, b.entity
-
-
-def _arcs(drawing: Drawing, measured: Measurement) -> tuple:
-    b = drawing.arcs
-    return b.points(b.t0), b.points(b.t1), measured.arcs.length, measured.arcs.bound, b.entity
 
 
 def _bezier_points(b: object, rows: IntArray, t: FloatArray) -> FloatArray:
@@ -172,11 +175,6 @@ def _bezier_points(b: object, rows: IntArray, t: FloatArray) -> FloatArray:
     basis = np.stack([comb(degree, i) * t**i * (1 - t) ** (degree - i) for i in range(degree + 1)], axis=1)
     mix = basis[None, :, :] * w[:, None, :]  # [n, len(t), degree + 1]
     return (mix @ ctrl) / mix.sum(axis=2)[..., None]
-
-
-def _beziers(drawing: Drawing, measured: Measurement, degree: int) -> tuple:
-    b = drawing.beziers[degree]
-    return b.ctrl[:, 0], b.ctrl[:, -1], measured.beziers[degree].length, measured.beziers[degree].bound, b.entity
 
 
 def _first_nonzero(diffs: FloatArray) -> FloatArray:
@@ -198,9 +196,11 @@ def _sampled_min_radius(p: FloatArray) -> FloatArray:
     return r.min(axis=1) if r.shape[1] else np.full(len(p), np.inf)
 
 
-def segment_layers(drawing: Drawing, table: SegmentTable) -> tuple[list[str], IntArray]:
-    """Layer names (sorted) and each segment's index into them."""
+def segment_layers(drawing: Drawing, table: SegmentTable | IntArray) -> tuple[list[str], IntArray]:
+    """Layer names (sorted) and each segment's index into them; ``table`` may also be the segments'
+    entity indices."""
+    entity = table.entity if isinstance(table, SegmentTable) else np.asarray(table, dtype=np.int64)
     names = sorted({e.layer for e in drawing.entities})
     index = {n: i for i, n in enumerate(names)}
     of_entity = np.array([index[e.layer] for e in drawing.entities], dtype=np.int64)
-    return names, of_entity[table.entity] if len(table) else np.zeros(0, dtype=np.int64)
+    return names, of_entity[entity] if len(entity) else np.zeros(0, dtype=np.int64)
