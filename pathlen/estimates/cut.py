@@ -147,15 +147,14 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
     motion_s = cutting_s = 0.0
     small_holes = narrow_holes = rough_offsets = crossing = open_cut = 0
     for k, c in enumerate(contours):
+        change = 0.0
         if engraved[k]:
             f = float(p.engrave_feed_mm_min)
             lead_in = lead_out = 0.0
-            change = 0.0
             result.engrave_length_mm += c.length
         else:
             f = feed
             lead_in, lead_out = p.lead_in_mm, p.lead_out_mm
-            change = 0.0
             hole = c.closed and depth[k] % 2 == 1
             polygon = contour_polygon(table, c) if c.closed else None
             if hole and _small_hole(polygon, p):
@@ -170,10 +169,11 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
             result.pierces += 1
             result.kerf_change_mm += change
             result.lead_length_mm += lead_in + lead_out
-            result.cut_length_mm += c.length + change + lead_in + lead_out
         result.bound_mm += c.bound
-        total_length = c.length + change + lead_in + lead_out
-        cutting_s += total_length / (f / 60.0)
+        path_mm = c.length + change + lead_in + lead_out
+        if not engraved[k]:
+            result.cut_length_mm += path_mm
+        cutting_s += path_mm / (f / 60.0)
         motion_s += _contour_motion_s(table, c, f / 60.0, p, lead_in, lead_out, change)
     if s.dedupe and overlaps:  # the overlapped stretch is cut once: take it off at the cutting feed
         result.cut_length_mm -= overlap_mm
