@@ -142,16 +142,17 @@ def _bracketed_root(g: FloatArray, lo: FloatArray, hi: FloatArray) -> FloatArray
     x = 0.5 * (lo + hi)
     lo, hi = lo.copy(), hi.copy()
     live = np.arange(len(x))
+    dg = g[:, 1:] * np.arange(1, g.shape[1])  # coefficients of g'
 
     def value(c: FloatArray, t: FloatArray) -> FloatArray:
-        return ((c[:, 3] * t + c[:, 2]) * t + c[:, 1]) * t + c[:, 0]
+        return _horner(c, t[:, None])[:, 0]
 
     for _ in range(12):
         if len(live) == 0:
             return x
         c, t, a, b = g[live], x[live], lo[live], hi[live]
         v = value(c, t)
-        slope = (3 * c[:, 3] * t + 2 * c[:, 2]) * t + c[:, 1]
+        slope = value(dg[live], t)
         below = v < 0
         a = np.where(below, t, a)
         b = np.where(below, b, t)
