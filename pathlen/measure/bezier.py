@@ -13,6 +13,7 @@ import numpy as np
 
 from pathlen.geometry import Beziers, FloatArray, IntArray, take_rows
 from pathlen.measure.closed_forms import EPS, quadratic_bezier_lengths
+from pathlen.measure.planar_cubic import planar_cubic_lengths
 from pathlen.measure.quadrature import Integral, golden_minima, graded_splits, integrate_speed, split_intervals
 
 
@@ -188,15 +189,18 @@ def bezier_lengths(batch: Beziers, rtol: float) -> tuple[FloatArray, FloatArray,
         length[idx], bound[idx] = quadratic_bezier_lengths(batch.ctrl[idx])
     else:
         idx = np.nonzero(poly)[0]
-        ctrl = batch.ctrl[idx]
-        speed = PolynomialSpeed(ctrl)
         if batch.degree == 3:
-            mr, mt = cubic_speed_minima(ctrl)
-        else:
-            mr, mt = golden_minima(speed, len(idx))
-        u = _integrate(speed, ctrl, mr, mt, rtol)
-        length[idx], bound[idx] = u.value, u.bound + 16 * EPS * speed.magnitude
-        unconverged += u.unconverged
+            idx = _planar_first(batch.ctrl, idx, rtol, length, bound)
+        if len(idx):
+            ctrl = batch.ctrl[idx]
+            speed = PolynomialSpeed(ctrl)
+            if batch.degree == 3:
+                mr, mt = cubic_speed_minima(ctrl)
+            else:
+                mr, mt = golden_minima(speed, len(idx))
+            u = _integrate(speed, ctrl, mr, mt, rtol)
+            length[idx], bound[idx] = u.value, u.bound + 16 * EPS * speed.magnitude
+            unconverged += u.unconverged
     idx = np.nonzero(rational)[0]
     if len(idx):
         ctrl = batch.ctrl[idx]
@@ -206,6 +210,22 @@ def bezier_lengths(batch: Beziers, rtol: float) -> tuple[FloatArray, FloatArray,
         length[idx], bound[idx] = u.value, u.bound + 16 * EPS * speed_r.magnitude
         unconverged += u.unconverged
     return length, bound, unconverged
+
+
+def _planar_first(ctrl_all: FloatArray, idx: IntArray, rtol: float, length: FloatArray,
+                  bound: FloatArray) -> IntArray:
+    """Measure the flat cubics among rows ``idx`` with bounds proved in advance (into
+    ``length`` and ``bound``); return the rows left for the adaptive integrator."""
+    flat = ~np.any(ctrl_all[idx, :, 2], axis=1)
+    rows = idx[flat]
+    if len(rows) == 0:
+        return idx
+    ctrl = ctrl_all[rows]
+    coeff = power_coefficients(3 * np.diff(ctrl[:, :, :2], axis=1))
+    value, err, left = planar_cubic_lengths(coeff, rtol)
+    magnitude = np.sum(np.abs(coeff), axis=(1, 2))
+    length[rows], bound[rows] = value, err + 16 * EPS * magnitude
+    return np.sort(np.concatenate([idx[~flat], rows[left]]))
 
 
 def _integrate(speed: PolynomialSpeed | RationalSpeed, ctrl: FloatArray, mr: IntArray, mt: FloatArray,

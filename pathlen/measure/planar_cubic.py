@@ -1,0 +1,468 @@
+"""Flat cubic Béziers: Gauss–Legendre with a bound proved in advance.
+
+Written as a complex number, the hodograph of a flat cubic is a quadratic,
+``B'(t) = c0 + c1 t + c2 t²``, and factors: on the real line the speed is
+``|B'(t)| = |c2|·|t − z_a|·|t − z_b|``.  Its analytic continuation
+``|c2|·sqrt((t − z_a)(t − z̄_a)(t − z_b)(t − z̄_b))`` is analytic away from the
+two roots and their conjugates.  On an interval ``[m − h, m + h]`` whose
+Bernstein ellipse ``E_ρ`` (foci at the ends, semi-axis sum ``ρh``) holds none
+of them, ``n``-point Gauss–Legendre errs by at most
+
+    h · 64 M / (15 (1 − ρ⁻²) ρ^{2n}),   M = sup of |speed| on E_ρ
+
+(fungrim.org, topic "Gaussian quadrature"; L. N. Trefethen, SIAM Review 50,
+2008, theorem 4.5), and ``M ≤ |c2| ∏ (A + |m − z|)`` with ``A = h(ρ + 1/ρ)/2``
+the ellipse's semi-major axis.  So the error is bounded before the speed is
+evaluated: each interval gets the fewest nodes in :data:`ORDERS` that meet
+its share of the tolerance, and intervals that would need more are split (at
+the real part of the root that limits them when it lies well inside, else in
+the middle), which grades them geometrically towards near-cusps.
+
+Cusps: a root within rounding of the real axis (``|Im z| ≤ y``) is treated as
+real, where ``|t − z|`` becomes ``±(t − x)``, analytic on either side of a
+split at ``x``; the difference, at most ``y·max|B'|/|t − z|`` per point, is
+added to the bound twice (quadrature and integral).  Curves whose roots are
+too ill-conditioned to place (near double roots) or that do not settle in
+:data:`MAX_PASSES` splits are returned for the general adaptive integrator.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.polynomial.legendre import leggauss
+
+from pathlen.geometry import FloatArray, IntArray, take_rows
+from pathlen.measure.closed_forms import EPS
+
+#: Gauss–Legendre orders tried, smallest first; intervals needing more are split.
+ORDERS = np.array([2, 3, 4, 5, 6, 7, 8, 10, 12, 14, 16, 20, 24, 28, 32])
+_RULES = {int(n): leggauss(int(n)) for n in ORDERS}
+MAX_PASSES = 64
+#: A curve with more unsettled pieces than this goes to the adaptive integrator.
+MAX_OPEN_PIECES = 64
+#: Shares of ``rtol · (lower bound of the length)``: quadrature, and all cusps treated as kinks.
+QUADRATURE_SHARE = 0.5
+KINK_SHARE = 0.1
+#: Ellipses are capped at this ρ: beyond it the bound no longer limits the order.
+RHO_CAP = 1e3
+#: Nodes evaluated per numpy pass (keeps temporaries small, see quadrature.BLOCK).
+NODES_PER_BLOCK = 16384
+
+
+@dataclass
+class Hodograph:
+    """Complex hodograph ``c0 + c1 t + c2 t²`` of each curve, its roots and their placement."""
+
+    coeff: FloatArray  # [n, 3, 2] real power coefficients of B'(t) (x, y)
+    lead: FloatArray  # |c2|
+    q_abs: FloatArray  # |c2 · z_a| (finite even when c2 = 0)
+    roots: np.ndarray  # [n, 2] complex; inf where a root does not exist
+    root_error: FloatArray  # [n, 2] bound of each root's rounding error (parameter units)
+    kink: np.ndarray  # [n, 2] bool: treated as a real root (cusp), not a branch point
+    kink_defect: FloatArray  # [n] error added for every kink of the curve
+    placeable: np.ndarray  # [n] bool: roots well enough conditioned for the a priori bound
+
+
+def hodograph(coeff: FloatArray, tolerance: FloatArray) -> Hodograph:
+    """Roots of each hodograph and their treatment, given ``coeff[n, 3, 2]`` (power basis)
+    and the absolute tolerance of each curve (for deciding which roots count as cusps)."""
+    c0, c1, c2 = (coeff[:, j, 0] + 1j * coeff[:, j, 1] for j in range(3))
+    disc = c1 * c1 - 4 * c0 * c2
+    s = np.sqrt(disc)
+    s = np.where(c1.real * s.real + c1.imag * s.imag < 0, -s, s)  # |c1 + s| as large as can be
+    q = -0.5 * (c1 + s)
+    inf = complex(np.inf, 0.0)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        z_a = np.where(c2 != 0, q / np.where(c2 != 0, c2, 1), inf)
+        z_b = np.where(q != 0, c0 / np.where(q != 0, q, 1), inf)
+        roots = np.stack([z_a, z_b], axis=1)
+        size = np.abs(roots)
+        # first-order perturbation of a simple root: the coefficients are off by a few ulps of
+        # Σ|c_j| (forward differences, then the backward-stable formula), over |P'(z)| = |s|;
+        # 32 ulps is a fourfold margin on that count
+        scale = np.sum(np.abs(coeff[:, :, 0]) + np.abs(coeff[:, :, 1]), axis=1)
+        error = 32 * EPS * scale[:, None] * (1 + size + size * size) / np.abs(s)[:, None]
+        error = np.where(np.isfinite(size), error, 0.0)
+        separation = np.abs(s) / np.abs(c2)
+    lead = np.abs(c2)
+    q_abs = np.abs(q)
+    placeable = (np.all(np.isfinite(error), axis=1) & np.all(error <= 0.01 * separation[:, None], axis=1)
+                 & ~((q == 0) & (c2 != 0)) & np.all(np.isfinite(coeff), axis=(1, 2)))
+    # largest |B'(t)| / |t − z| on [0, 1] for each root: the other factor
+    with np.errstate(invalid="ignore"):
+        other = np.stack([np.where(lead > 0, lead * (1 + np.abs(z_b)), 0.0), lead + q_abs], axis=1)
+        slack = (np.abs(roots.imag) + error) * other
+    kink = np.isfinite(size) & (2 * slack <= KINK_SHARE * tolerance[:, None])
+    kink_defect = np.sum(np.where(kink, 2 * slack, 0.0), axis=1)
+    return Hodograph(coeff, lead, q_abs, roots, error, kink, kink_defect, placeable)
+
+
+def _ellipse_rho(z: np.ndarray, error: FloatArray, mid: FloatArray, half: FloatArray) -> FloatArray:
+    """ρ of the Bernstein ellipse of ``[mid − half, mid + half]`` through the point nearest
+    the interval within ``error`` of ``z`` (1 when that point may lie on the interval)."""
+    with np.errstate(invalid="ignore", over="ignore"):
+        u_re = (z.real - mid) / half
+        u_im = z.imag / half
+        im2 = u_im * u_im
+        semi = 0.5 * (np.sqrt((u_re - 1) ** 2 + im2) + np.sqrt((u_re + 1) ** 2 + im2)) - error / half
+        rho = np.where(semi > 1, semi + np.sqrt(np.maximum(semi * semi - 1, 0.0)), 1.0)
+    return np.where(np.isnan(rho), RHO_CAP, np.minimum(rho, RHO_CAP))
+
+
+def _speed_bound(h: Hodograph, rows: IntArray, mid: FloatArray, semi_major: FloatArray) -> FloatArray:
+    """Bound of |speed| on the disc of radius ``semi_major`` about ``mid`` (it holds the ellipse)."""
+    za, zb = take_rows(h.roots, rows).T
+    ea, eb = take_rows(h.root_error, rows).T
+    lead = h.lead[rows]
+    with np.errstate(invalid="ignore", over="ignore"):
+        near_a = lead * (semi_major + np.abs(mid - za) + ea)
+        far_a = lead * (semi_major + np.abs(mid)) + h.q_abs[rows] * (1 + 1e-12)
+        factor_a = np.fmin(near_a, far_a)
+        factor_b = np.where(np.isfinite(zb), semi_major + np.abs(mid - zb) + eb, 1.0)
+    return factor_a * factor_b
+
+
+@dataclass
+class _Pieces:
+    """Intervals ``[lo, hi]`` of curve ``rows``; ``kind`` indexes the sinh map they are
+    integrated in (``lo, hi`` in ``s``), or is −1 for plain Gauss–Legendre (in ``t``)."""
+
+    rows: IntArray
+    lo: FloatArray
+    hi: FloatArray
+    kind: IntArray
+
+    def __len__(self) -> int:
+        return len(self.rows)
+
+    def take(self, sel: np.ndarray) -> _Pieces:
+        return _Pieces(self.rows[sel], self.lo[sel], self.hi[sel], self.kind[sel])
+
+    def split(self, at: FloatArray) -> _Pieces:
+        """Both halves of every piece, cut at ``at``."""
+        return _Pieces(np.concatenate([self.rows, self.rows]), np.concatenate([self.lo, at]),
+                       np.concatenate([at, self.hi]), np.concatenate([self.kind, self.kind]))
+
+
+@dataclass
+class _Accepted:
+    """Accepted pieces with their Gauss order, their bound and, for mapped pieces, the map
+    ``t = x + y sinh(s)`` and the ``s`` range (``x = nan`` for plain pieces, ``s = t``)."""
+
+    rows: IntArray
+    a: FloatArray
+    b: FloatArray
+    x: FloatArray
+    y: FloatArray
+    order: IntArray
+    bound: FloatArray
+
+
+def _best_order(ratio: FloatArray, rho: FloatArray) -> FloatArray:
+    """Smallest ``n`` with ``ρ^{2n} ≥ ratio`` (inf where none)."""
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        need = np.ceil(np.log(np.maximum(ratio, 1.0)) / (2 * np.log(rho)))
+    return np.where(np.isfinite(need) & (rho > 1), need, np.inf)
+
+
+def _round_up(need: FloatArray) -> tuple[np.ndarray, IntArray]:
+    """Whether an order in :data:`ORDERS` suffices, and that order."""
+    pick = np.searchsorted(ORDERS, need)
+    return pick < len(ORDERS), ORDERS[np.minimum(pick, len(ORDERS) - 1)]
+
+
+def _gauss_bound(half: FloatArray, sup: FloatArray, rho: FloatArray, order: IntArray) -> FloatArray:
+    """``half · 64 M / (15 (1 − ρ⁻²) ρ^{2n})``: the Gauss–Legendre error bound."""
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        return half * 64 * sup / (15 * (1 - rho**-2) * rho ** (2.0 * order))
+
+
+def _direct_pass(h: Hodograph, p: _Pieces, density: FloatArray) -> tuple[np.ndarray, _Accepted, FloatArray]:
+    """Plain Gauss–Legendre in ``t`` (curves whose roots are all cusps or absent)."""
+    mid = 0.5 * (p.lo + p.hi)
+    half = 0.5 * (p.hi - p.lo)
+    branch = np.where(take_rows(h.kink, p.rows), complex(np.inf, 0.0), take_rows(h.roots, p.rows))
+    er = take_rows(h.root_error, p.rows)
+    rho = np.minimum(_ellipse_rho(branch[:, 0], er[:, 0], mid, half), _ellipse_rho(branch[:, 1], er[:, 1], mid, half))
+    sup = _speed_bound(h, p.rows, mid, 0.5 * half * (rho + 1 / rho))
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        ratio = 64 * sup / (15 * (1 - rho**-2) * 2 * density[p.rows])
+    ok, order = _round_up(_best_order(ratio, rho))
+    nan = np.full(len(p), np.nan)
+    acc = _Accepted(p.rows, p.lo, p.hi, nan, nan, order, _gauss_bound(half, sup, rho, order))
+    return ok, acc, mid
+
+
+@dataclass
+class _SinhMaps:
+    """Maps ``t = x + y sinh(s)``, each centred on one root ``x + iy`` of one curve, and what
+    bounds the integrand in ``s``."""
+
+    x: FloatArray
+    y: FloatArray
+    centre_error: FloatArray
+    other: np.ndarray  # complex: principal preimage asinh((z_o − x)/y) of the other root (inf if none)
+    other_margin: FloatArray  # how far that preimage may be off, from the other root's error
+    other_dist: FloatArray  # |x − z_o| + ε_o: bound of |t − z_o| at s = 0
+    lead: FloatArray  # |c2|
+    alt_base: FloatArray  # |q| for a second bound of |c2||t − z_a| when z_a is the other root, else inf
+
+    @classmethod
+    def build(cls, h: Hodograph, row: IntArray, k: IntArray) -> _SinhMaps:
+        """Maps centred on root ``k`` (0 or 1) of curve ``row``."""
+        flat = 2 * row + k
+        z, err = h.roots.ravel()[flat], h.root_error.ravel()[flat]
+        zo, eo, ko = h.roots.ravel()[flat ^ 1], h.root_error.ravel()[flat ^ 1], h.kink.ravel()[flat ^ 1]
+        x, y = z.real, np.abs(z.imag)
+        live_o = np.isfinite(zo) & ~ko
+        with np.errstate(all="ignore"):
+            w = np.where(live_o, (zo - x) / y, 0.0)
+            other = np.where(live_o, np.arcsinh(w), complex(np.inf, 0.0))
+            # first order: ds = dz / (y sqrt(1 + w²)), doubled
+            re, im = 1 + w.real * w.real - w.imag * w.imag, 2 * w.real * w.imag
+            margin = 2 * eo / (y * np.sqrt(np.sqrt(re * re + im * im)))  # |sqrt(1 + w²)|
+            dist = np.abs(x - zo) + eo
+        # centre a (k = 0): speed = |c2|·|t − z_a|·|t − z_b|, other factor |c2|·|t − z_b|;
+        # centre b (k = 1): other factor |c2|·|t − z_a| ≤ min(|c2|(|x − z_a| + …), |c2||t| + |q|)
+        alt = np.where(k == 0, np.inf, h.q_abs[row] * (1 + 1e-12))
+        return cls(x, y, err, other, margin, dist, h.lead[row], alt)
+
+    def to_s(self, m: IntArray, t: FloatArray) -> FloatArray:
+        """``s`` of parameter ``t`` under map ``m``."""
+        with np.errstate(all="ignore"):
+            return np.arcsinh((t - self.x[m]) / self.y[m])
+
+
+def _mapped_pass(h: Hodograph, maps: _SinhMaps, p: _Pieces, density: FloatArray
+                 ) -> tuple[np.ndarray, _Accepted, FloatArray]:
+    """Gauss–Legendre in ``s`` for ``t = x + y sinh(s)``, ``x + iy`` the centre root.
+
+    The centre pair's factor ``|t − z||t − z̄|`` becomes ``y² cosh² s`` (entire);
+    what remains singular are the other root's preimages ``s_o = asinh((z_o − x)/y)``,
+    ``iπ − s_o``, ``iπ − s̄_o`` and conjugates, and, as the centre root is known
+    only to within ``ε``, points within ``sqrt(2ε/y)`` of ``±iπ/2``.  Ellipses
+    stay below ``|Im s| = 3π/2``, where no other preimage lies.  On an ellipse
+    with ``|Re s| ≤ R``: ``|sinh s|, |cosh s| ≤ cosh R``.
+    """
+    k = p.kind
+    x, y, ec = maps.x[k], maps.y[k], maps.centre_error[k]
+    so, mo = maps.other[k], maps.other_margin[k]
+    s_lo, s_hi = p.lo, p.hi
+    with np.errstate(all="ignore"):
+        sm = 0.5 * (s_lo + s_hi)
+        hs = 0.5 * (s_hi - s_lo)
+        t_width = 2 * y * np.cosh(sm) * np.sinh(hs)  # sinh(s_hi) − sinh(s_lo), times y
+        strip = 1.5 * np.pi / hs
+        rho = np.minimum.reduce([
+            _ellipse_rho(so, mo, sm, hs),
+            _ellipse_rho(1j * np.pi - so, mo, sm, hs),
+            _ellipse_rho(1j * np.pi - np.conj(so), mo, sm, hs),
+            _ellipse_rho(np.full(len(p), 0.5j * np.pi), np.sqrt(8 * ec / y), sm, hs),
+            0.5 * (strip + np.sqrt(strip * strip + 4)),  # minor semi-axis 3π/2
+        ])
+        ch = np.cosh(np.abs(sm) + 0.5 * hs * (rho + 1 / rho))
+        yc = y * ch
+        # sqrt(|t − z_c||t − z̄_c|) ≤ y cosh R + sqrt(2εy(cosh R + 1) + ε²) for the true root z_c
+        centre_f = yc + np.sqrt(2 * ec * (yc + y) + ec * ec)
+        lead = maps.lead[k]
+        other_f = np.fmin(lead * (maps.other_dist[k] + yc), lead * (np.abs(x) + yc) + maps.alt_base[k])
+        sup = yc * centre_f * other_f
+        ratio = 64 * sup * hs / (15 * (1 - rho**-2) * density[p.rows] * t_width)
+    ok, order = _round_up(_best_order(ratio, rho))
+    acc = _Accepted(p.rows, s_lo, s_hi, x, y, order, _gauss_bound(hs, sup, rho, order))
+    return ok, acc, sm
+
+
+def _initial_pieces(h: Hodograph, live: np.ndarray) -> tuple[_Pieces, _SinhMaps]:
+    """[0, 1] of each live curve, cut at its cusps and between two nearby roots, each piece
+    centred on the non-cusp root nearest to it (or on none), and the maps of those centres."""
+    roots = h.roots
+    branch = np.isfinite(roots) & ~h.kink
+    kx = np.where(h.kink, roots.real, np.nan)
+    both = np.all(branch, axis=1)
+    with np.errstate(invalid="ignore"):
+        gap = np.abs(roots[:, 0].real - roots[:, 1].real)
+        between = np.where(both & (np.max(np.abs(roots.imag), axis=1) < gap), roots.real.mean(axis=1), np.nan)
+    cuts = np.concatenate([kx, between[:, None]], axis=1)
+    cut = (cuts > 0) & (cuts < 1) & live[:, None]
+    cr, cc = np.nonzero(cut)
+    rows, lo, hi = _cut_unit_intervals(len(live), cr, cuts[cr, cc])
+    on = live[rows]
+    rows, lo, hi = rows[on], lo[on], hi[on]
+    mid, half = 0.5 * (lo + hi), 0.5 * (hi - lo)
+    z = take_rows(roots, rows)
+    br = take_rows(branch, rows)
+    er = take_rows(h.root_error, rows)
+    rho = np.stack([np.where(br[:, k], _ellipse_rho(z[:, k], er[:, k], mid, half), np.inf) for k in range(2)], axis=1)
+    centre = np.argmin(rho, axis=1)
+    mapped = np.nonzero(np.any(br, axis=1))[0]
+    key = 2 * rows[mapped] + centre[mapped]
+    kind = np.full(len(rows), -1, dtype=np.int64)
+    if len(key) and np.all(key[1:] > key[:-1]):  # one map per piece (the usual case)
+        unique_keys, kind[mapped] = key, np.arange(len(key))
+    else:
+        unique_keys, kind[mapped] = np.unique(key, return_inverse=True)
+    maps = _SinhMaps.build(h, unique_keys // 2, unique_keys % 2)
+    lo[mapped] = maps.to_s(kind[mapped], lo[mapped])
+    hi[mapped] = maps.to_s(kind[mapped], hi[mapped])
+    return _Pieces(rows, lo, hi, kind), maps
+
+
+def _plan(h: Hodograph, density: FloatArray, live: np.ndarray) -> tuple[list[_Accepted], IntArray]:
+    """Pieces and Gauss orders meeting ``density`` (tolerance per unit parameter) for the
+    ``live`` curves, and the curves that did not settle."""
+    pieces, maps = _initial_pieces(h, live)
+    out: list[_Accepted] = []
+    unsettled: list[IntArray] = []
+    for _ in range(MAX_PASSES):
+        if len(pieces) == 0:
+            break
+        mapped = pieces.kind >= 0
+        ok = np.zeros(len(pieces), dtype=bool)
+        at = np.empty(len(pieces))
+        for sel in (mapped, ~mapped):
+            if np.any(sel):
+                part = pieces.take(sel)
+                if sel is mapped:
+                    good, acc, cut_at = _mapped_pass(h, maps, part, density)
+                else:
+                    good, acc, cut_at = _direct_pass(h, part, density)
+                out.append(_take_accepted(acc, good))
+                ok[sel] = good
+                at[sel] = cut_at
+        rest = pieces.take(~ok)
+        at = at[~ok]
+        stuck = ~((at > rest.lo) & (at < rest.hi))
+        # a curve whose open pieces keep multiplying is not helped by splitting
+        crowded = np.bincount(rest.rows, minlength=len(live)) > MAX_OPEN_PIECES
+        stuck |= crowded[rest.rows]
+        unsettled.append(rest.rows[stuck])
+        pieces = rest.take(~stuck).split(at[~stuck])
+    unsettled.append(pieces.rows)
+    return out, np.unique(np.concatenate(unsettled)).astype(np.int64)
+
+
+def _take_accepted(acc: _Accepted, sel: np.ndarray) -> _Accepted:
+    return _Accepted(acc.rows[sel], acc.a[sel], acc.b[sel], acc.x[sel], acc.y[sel], acc.order[sel], acc.bound[sel])
+
+
+def _cut_unit_intervals(n: int, rows: IntArray, t: FloatArray) -> tuple[IntArray, FloatArray, FloatArray]:
+    """[0, 1] for each of ``n`` curves, cut at ``t`` on curve ``rows``; sorted by curve."""
+    count = np.bincount(rows, minlength=n)
+    pieces = count + 1
+    out_rows = np.repeat(np.arange(n, dtype=np.int64), pieces)
+    lo = np.zeros(len(out_rows))
+    hi = np.ones(len(out_rows))
+    if len(rows):
+        order = np.lexsort((t, rows))
+        rows, t = rows[order], t[order]
+        first = np.cumsum(pieces) - pieces  # index of each curve's first piece
+        within = np.arange(len(rows)) - (np.cumsum(count) - count)[rows]
+        at = first[rows] + within
+        hi[at] = t
+        lo[at + 1] = t
+    return out_rows, lo, hi
+
+
+def _speed_sums(cx: FloatArray, cy: FloatArray, r: IntArray, t: FloatArray, jac: FloatArray | None,
+                weights: FloatArray) -> FloatArray:
+    """``Σ_j weights[j] · |B'(t[i, j])| · jac[i, j]`` for curves ``r[i]``."""
+    x = take_rows(cx, r)
+    y = take_rows(cy, r)
+    vx = x[:, 2, None] * t
+    vx += x[:, 1, None]
+    vx *= t
+    vx += x[:, 0, None]
+    vy = y[:, 2, None] * t
+    vy += y[:, 1, None]
+    vy *= t
+    vy += y[:, 0, None]
+    vx *= vx
+    vy *= vy
+    vx += vy
+    np.sqrt(vx, out=vx)
+    if jac is not None:
+        vx *= jac
+    return vx @ weights
+
+
+def _gauss_sums(coeff: FloatArray, pieces: list[_Accepted], n: int) -> tuple[FloatArray, FloatArray]:
+    """Per curve: the Gauss–Legendre sums of |B'(t)| over the accepted pieces, and their bounds."""
+    if not pieces:
+        return np.zeros(n), np.zeros(n)
+    cx = np.ascontiguousarray(coeff[:, :, 0])
+    cy = np.ascontiguousarray(coeff[:, :, 1])
+    rows = np.concatenate([acc.rows for acc in pieces])
+    bound = np.concatenate([acc.bound for acc in pieces])
+    value = np.empty(len(rows))
+    start = 0
+    for acc in pieces:
+        mapped = len(acc.rows) > 0 and not np.isnan(acc.x[0])
+        for k in np.unique(acc.order):
+            nodes, weights = _RULES[int(k)]
+            sel = np.nonzero(acc.order == k)[0]
+            step = max(1, NODES_PER_BLOCK // int(k))
+            for s in range(0, len(sel), step):
+                part = sel[s:s + step]
+                r = acc.rows[part]
+                half = 0.5 * (acc.b[part] - acc.a[part])
+                mid = 0.5 * (acc.b[part] + acc.a[part])
+                if mapped:
+                    value[start + part] = half * _mapped_sums(cx, cy, r, mid, half, acc.x[part], acc.y[part],
+                                                              nodes, weights)
+                else:  # plain pieces: the node is t
+                    t = mid[:, None] + half[:, None] * nodes
+                    value[start + part] = half * _speed_sums(cx, cy, r, t, None, weights)
+        start += len(acc.rows)
+    return (np.bincount(rows, weights=value, minlength=n).astype(float),
+            np.bincount(rows, weights=bound, minlength=n).astype(float))
+
+
+def _mapped_sums(cx: FloatArray, cy: FloatArray, r: IntArray, mid: FloatArray, half: FloatArray, x: FloatArray,
+                 y: FloatArray, nodes: FloatArray, weights: FloatArray) -> FloatArray:
+    """Gauss sums in ``s`` of ``|B'(x + y sinh s)| · y cosh s`` over ``[mid ± half]``."""
+    e = np.exp(mid[:, None] + half[:, None] * nodes)
+    inv = 1.0 / e
+    yy = 0.5 * y[:, None]
+    t = e - inv
+    t *= yy
+    t += x[:, None]
+    e += inv
+    e *= yy
+    return _speed_sums(cx, cy, r, t, e, weights)
+
+
+#: B(k/4) − B(0) from the hodograph's power coefficients: ``Σ_j c_j t^{j+1} / (j+1)``.
+_QUARTER_POINTS = np.array([[t ** (j + 1) / (j + 1) for t in np.linspace(0.0, 1.0, 5)] for j in range(3)])
+
+
+def length_floor(coeff: FloatArray) -> FloatArray:
+    """A lower bound of each flat cubic's length from its hodograph coefficients ``coeff[n, 3, 2]``:
+    the polygon through B(0), B(1/4), …, B(1) (a chord path inscribed in a curve is never longer)."""
+    n = len(coeff)
+    pts = (coeff.transpose(0, 2, 1).reshape(2 * n, 3) @ _QUARTER_POINTS).reshape(n, 2, 5)
+    d = np.diff(pts, axis=2)
+    return np.sum(np.sqrt(d[:, 0] ** 2 + d[:, 1] ** 2), axis=1) * (1 - 1e-12)
+
+
+def planar_cubic_lengths(coeff: FloatArray, rtol: float) -> tuple[FloatArray, FloatArray, IntArray]:
+    """Length and error bound of flat cubics from their hodograph power coefficients
+    ``coeff[n, 3, ≥2]`` (``B'(t) = Σ_j coeff[:, j] t^j``), and the rows left for the adaptive
+    integrator.  The returned bound covers quadrature, cusps and summation; the caller adds
+    the rounding of the coefficients.
+    """
+    n = len(coeff)
+    coeff = np.ascontiguousarray(coeff[:, :, :2])
+    floor = length_floor(coeff)
+    target = rtol * floor
+    h = hodograph(coeff, target)
+    density = QUADRATURE_SHARE * target
+    # a zero floor (a point, or a loop whose samples coincide) cannot set a tolerance
+    live = h.placeable & (floor > 0)
+    pieces, unsettled = _plan(h, density, live)
+    value, bound = _gauss_sums(h.coeff, pieces, n)
+    bound += h.kink_defect + 32 * EPS * value
+    left = np.union1d(np.nonzero(~live)[0], unsettled)
+    return value, bound, left.astype(np.int64)
