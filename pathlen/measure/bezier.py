@@ -13,7 +13,7 @@ import numpy as np
 
 from pathlen.geometry import Beziers, FloatArray, IntArray, take_rows
 from pathlen.measure.closed_forms import EPS, quadratic_bezier_lengths
-from pathlen.measure.planar_cubic import planar_cubic_lengths
+from pathlen.measure.planar_cubic import hodograph_coefficients, planar_cubic_lengths
 from pathlen.measure.quadrature import Integral, golden_minima, graded_splits, integrate_speed, split_intervals
 
 
@@ -216,15 +216,15 @@ def _planar_first(ctrl_all: FloatArray, idx: IntArray, rtol: float, length: Floa
                   bound: FloatArray) -> IntArray:
     """Measure the flat cubics among rows ``idx`` with bounds proved in advance (into
     ``length`` and ``bound``); return the rows left for the adaptive integrator."""
-    flat = ~np.any(ctrl_all[idx, :, 2], axis=1)
+    every = len(idx) == len(ctrl_all)
+    z = np.abs((ctrl_all if every else ctrl_all[idx])[:, :, 2])
+    flat = (z[:, 0] + z[:, 1] + z[:, 2] + z[:, 3]) == 0
     rows = idx[flat]
     if len(rows) == 0:
         return idx
-    ctrl = ctrl_all[rows]
-    coeff = power_coefficients(3 * np.diff(ctrl[:, :, :2], axis=1))
-    value, err, left = planar_cubic_lengths(coeff, rtol)
-    magnitude = np.sum(np.abs(coeff), axis=(1, 2))
-    length[rows], bound[rows] = value, err + 16 * EPS * magnitude
+    ctrl = ctrl_all if every and len(rows) == len(idx) else ctrl_all[rows]
+    value, err, left = planar_cubic_lengths(hodograph_coefficients(ctrl), rtol)
+    length[rows], bound[rows] = value, err
     return np.sort(np.concatenate([idx[~flat], rows[left]]))
 
 

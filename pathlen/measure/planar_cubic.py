@@ -45,10 +45,12 @@ MAX_OPEN_PIECES = 64
 #: Shares of ``rtol · (lower bound of the length)``: quadrature, and all cusps treated as kinks.
 QUADRATURE_SHARE = 0.5
 KINK_SHARE = 0.1
+#: Roots farther than this from t = 1/2 are not used as centres of sinh maps.
+MAP_REACH = 2.0
 #: Ellipses are capped at this ρ: beyond it the bound no longer limits the order.
 RHO_CAP = 1e3
 #: Nodes evaluated per numpy pass (keeps temporaries small, see quadrature.BLOCK).
-NODES_PER_BLOCK = 16384
+NODES_PER_BLOCK = 32768
 
 
 @dataclass
@@ -58,11 +60,12 @@ class Hodograph:
     coeff: FloatArray  # [n, 3, 2] real power coefficients of B'(t) (x, y)
     lead: FloatArray  # |c2|
     q_abs: FloatArray  # |c2 · z_a| (finite even when c2 = 0)
-    roots: np.ndarray  # [n, 2] complex; inf where a root does not exist
-    root_error: FloatArray  # [n, 2] bound of each root's rounding error (parameter units)
-    kink: np.ndarray  # [n, 2] bool: treated as a real root (cusp), not a branch point
+    roots: np.ndarray  # [2, n] complex, root a then root b; inf where a root does not exist
+    root_error: FloatArray  # [2, n] bound of each root's rounding error (parameter units)
+    kink: np.ndarray  # [2, n] bool: treated as a real root (cusp), not a branch point
     kink_defect: FloatArray  # [n] error added for every kink of the curve
     placeable: np.ndarray  # [n] bool: roots well enough conditioned for the a priori bound
+    scale: FloatArray  # Σ |coefficients| (x and y)
 
 
 def hodograph(coeff: FloatArray, tolerance: FloatArray) -> Hodograph:
@@ -77,34 +80,36 @@ def hodograph(coeff: FloatArray, tolerance: FloatArray) -> Hodograph:
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         z_a = np.where(c2 != 0, q / np.where(c2 != 0, c2, 1), inf)
         z_b = np.where(q != 0, c0 / np.where(q != 0, q, 1), inf)
-        roots = np.stack([z_a, z_b], axis=1)
+        roots = np.stack([z_a, z_b])
         size = np.abs(roots)
         # first-order perturbation of a simple root: the coefficients are off by a few ulps of
         # Σ|c_j| (forward differences, then the backward-stable formula), over |P'(z)| = |s|;
         # 32 ulps is a fourfold margin on that count
-        scale = np.sum(np.abs(coeff[:, :, 0]) + np.abs(coeff[:, :, 1]), axis=1)
-        error = 32 * EPS * scale[:, None] * (1 + size + size * size) / np.abs(s)[:, None]
+        flat = np.abs(coeff.reshape(len(coeff), 6))
+        scale = flat[:, 0] + flat[:, 1] + flat[:, 2] + flat[:, 3] + flat[:, 4] + flat[:, 5]
+        error = 32 * EPS * scale * (1 + size + size * size) / np.abs(s)
         error = np.where(np.isfinite(size), error, 0.0)
-        separation = np.abs(s) / np.abs(c2)
-    lead = np.abs(c2)
+        lead = np.abs(c2)
+        reach = 0.01 * np.abs(s) / lead  # a hundredth of the roots' separation
+        placeable = ((error[0] <= reach) & (error[1] <= reach)  # false for NaN and inf too
+                     & ~((q == 0) & (c2 != 0)) & np.isfinite(scale))
     q_abs = np.abs(q)
-    placeable = (np.all(np.isfinite(error), axis=1) & np.all(error <= 0.01 * separation[:, None], axis=1)
-                 & ~((q == 0) & (c2 != 0)) & np.all(np.isfinite(coeff), axis=(1, 2)))
     # largest |B'(t)| / |t − z| on [0, 1] for each root: the other factor
     with np.errstate(invalid="ignore"):
-        other = np.stack([np.where(lead > 0, lead * (1 + np.abs(z_b)), 0.0), lead + q_abs], axis=1)
-        slack = (np.abs(roots.imag) + error) * other
-    kink = np.isfinite(size) & (2 * slack <= KINK_SHARE * tolerance[:, None])
-    kink_defect = np.sum(np.where(kink, 2 * slack, 0.0), axis=1)
-    return Hodograph(coeff, lead, q_abs, roots, error, kink, kink_defect, placeable)
+        other = np.stack([np.where(lead > 0, lead * (1 + size[1]), 0.0), lead + q_abs])
+        slack = 2 * (np.abs(roots.imag) + error) * other
+    kink = np.isfinite(size) & (slack <= KINK_SHARE * tolerance)
+    kink_defect = np.where(kink[0], slack[0], 0.0) + np.where(kink[1], slack[1], 0.0)
+    return Hodograph(coeff, lead, q_abs, roots, error, kink, kink_defect, placeable, scale)
 
 
-def _ellipse_rho(z: np.ndarray, error: FloatArray, mid: FloatArray, half: FloatArray) -> FloatArray:
+def _ellipse_rho(re: FloatArray | float, im: FloatArray | float, error: FloatArray, mid: FloatArray,
+                 half: FloatArray) -> FloatArray:
     """ρ of the Bernstein ellipse of ``[mid − half, mid + half]`` through the point nearest
-    the interval within ``error`` of ``z`` (1 when that point may lie on the interval)."""
-    with np.errstate(invalid="ignore", over="ignore"):
-        u_re = (z.real - mid) / half
-        u_im = z.imag / half
+    the interval within ``error`` of ``re + i·im`` (1 when that point may lie on the interval)."""
+    with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
+        u_re = (re - mid) / half
+        u_im = im / half
         im2 = u_im * u_im
         semi = 0.5 * (np.sqrt((u_re - 1) ** 2 + im2) + np.sqrt((u_re + 1) ** 2 + im2)) - error / half
         rho = np.where(semi > 1, semi + np.sqrt(np.maximum(semi * semi - 1, 0.0)), 1.0)
@@ -113,8 +118,8 @@ def _ellipse_rho(z: np.ndarray, error: FloatArray, mid: FloatArray, half: FloatA
 
 def _speed_bound(h: Hodograph, rows: IntArray, mid: FloatArray, semi_major: FloatArray) -> FloatArray:
     """Bound of |speed| on the disc of radius ``semi_major`` about ``mid`` (it holds the ellipse)."""
-    za, zb = take_rows(h.roots, rows).T
-    ea, eb = take_rows(h.root_error, rows).T
+    za, zb = h.roots[0][rows], h.roots[1][rows]
+    ea, eb = h.root_error[0][rows], h.root_error[1][rows]
     lead = h.lead[rows]
     with np.errstate(invalid="ignore", over="ignore"):
         near_a = lead * (semi_major + np.abs(mid - za) + ea)
@@ -183,9 +188,11 @@ def _direct_pass(h: Hodograph, p: _Pieces, density: FloatArray) -> tuple[np.ndar
     """Plain Gauss–Legendre in ``t`` (curves whose roots are all cusps or absent)."""
     mid = 0.5 * (p.lo + p.hi)
     half = 0.5 * (p.hi - p.lo)
-    branch = np.where(take_rows(h.kink, p.rows), complex(np.inf, 0.0), take_rows(h.roots, p.rows))
-    er = take_rows(h.root_error, p.rows)
-    rho = np.minimum(_ellipse_rho(branch[:, 0], er[:, 0], mid, half), _ellipse_rho(branch[:, 1], er[:, 1], mid, half))
+    rho = np.full(len(p), RHO_CAP)
+    for k in range(2):
+        z = h.roots[k][p.rows]
+        near = _ellipse_rho(z.real, z.imag, h.root_error[k][p.rows], mid, half)
+        np.minimum(rho, np.where(h.kink[k][p.rows], RHO_CAP, near), out=rho)
     sup = _speed_bound(h, p.rows, mid, 0.5 * half * (rho + 1 / rho))
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         ratio = 64 * sup / (15 * (1 - rho**-2) * 2 * density[p.rows])
@@ -203,7 +210,8 @@ class _SinhMaps:
     x: FloatArray
     y: FloatArray
     centre_error: FloatArray
-    other: np.ndarray  # complex: principal preimage asinh((z_o − x)/y) of the other root (inf if none)
+    other_re: FloatArray  # principal preimage asinh((z_o − x)/y) of the other root (inf if none) …
+    other_im: FloatArray  # … its imaginary part, made non-negative (the ellipses are symmetric)
     other_margin: FloatArray  # how far that preimage may be off, from the other root's error
     other_dist: FloatArray  # |x − z_o| + ε_o: bound of |t − z_o| at s = 0
     lead: FloatArray  # |c2|
@@ -212,14 +220,17 @@ class _SinhMaps:
     @classmethod
     def build(cls, h: Hodograph, row: IntArray, k: IntArray) -> _SinhMaps:
         """Maps centred on root ``k`` (0 or 1) of curve ``row``."""
-        flat = 2 * row + k
+        n = h.roots.shape[1]
+        flat, flat_o = k * n + row, (1 - k) * n + row
         z, err = h.roots.ravel()[flat], h.root_error.ravel()[flat]
-        zo, eo, ko = h.roots.ravel()[flat ^ 1], h.root_error.ravel()[flat ^ 1], h.kink.ravel()[flat ^ 1]
+        zo, eo, ko = h.roots.ravel()[flat_o], h.root_error.ravel()[flat_o], h.kink.ravel()[flat_o]
         x, y = z.real, np.abs(z.imag)
         live_o = np.isfinite(zo) & ~ko
         with np.errstate(all="ignore"):
             w = np.where(live_o, (zo - x) / y, 0.0)
-            other = np.where(live_o, np.arcsinh(w), complex(np.inf, 0.0))
+            so = np.arcsinh(w)
+            other_re = np.where(live_o, so.real, np.inf)
+            other_im = np.where(live_o, np.abs(so.imag), 0.0)
             # first order: ds = dz / (y sqrt(1 + w²)), doubled
             re, im = 1 + w.real * w.real - w.imag * w.imag, 2 * w.real * w.imag
             margin = 2 * eo / (y * np.sqrt(np.sqrt(re * re + im * im)))  # |sqrt(1 + w²)|
@@ -227,7 +238,7 @@ class _SinhMaps:
         # centre a (k = 0): speed = |c2|·|t − z_a|·|t − z_b|, other factor |c2|·|t − z_b|;
         # centre b (k = 1): other factor |c2|·|t − z_a| ≤ min(|c2|(|x − z_a| + …), |c2||t| + |q|)
         alt = np.where(k == 0, np.inf, h.q_abs[row] * (1 + 1e-12))
-        return cls(x, y, err, other, margin, dist, h.lead[row], alt)
+        return cls(x, y, err, other_re, other_im, margin, dist, h.lead[row], alt)
 
     def to_s(self, m: IntArray, t: FloatArray) -> FloatArray:
         """``s`` of parameter ``t`` under map ``m``."""
@@ -248,20 +259,18 @@ def _mapped_pass(h: Hodograph, maps: _SinhMaps, p: _Pieces, density: FloatArray
     """
     k = p.kind
     x, y, ec = maps.x[k], maps.y[k], maps.centre_error[k]
-    so, mo = maps.other[k], maps.other_margin[k]
+    so_re, so_im, mo = maps.other_re[k], maps.other_im[k], maps.other_margin[k]
     s_lo, s_hi = p.lo, p.hi
     with np.errstate(all="ignore"):
         sm = 0.5 * (s_lo + s_hi)
         hs = 0.5 * (s_hi - s_lo)
         t_width = 2 * y * np.cosh(sm) * np.sinh(hs)  # sinh(s_hi) − sinh(s_lo), times y
         strip = 1.5 * np.pi / hs
-        rho = np.minimum.reduce([
-            _ellipse_rho(so, mo, sm, hs),
-            _ellipse_rho(1j * np.pi - so, mo, sm, hs),
-            _ellipse_rho(1j * np.pi - np.conj(so), mo, sm, hs),
-            _ellipse_rho(np.full(len(p), 0.5j * np.pi), np.sqrt(8 * ec / y), sm, hs),
-            0.5 * (strip + np.sqrt(strip * strip + 4)),  # minor semi-axis 3π/2
-        ])
+        rho = 0.5 * (strip + np.sqrt(strip * strip + 4))  # minor semi-axis 3π/2
+        # s_o and iπ − s_o, iπ − s̄_o (with |Im s_o|: the conjugate pairs give the same ρ)
+        for re, im in ((so_re, so_im), (-so_re, np.pi - so_im), (-so_re, np.pi + so_im)):
+            np.minimum(rho, _ellipse_rho(re, im, mo, sm, hs), out=rho)
+        np.minimum(rho, _ellipse_rho(0.0, 0.5 * np.pi, np.sqrt(8 * ec / y), sm, hs), out=rho)
         ch = np.cosh(np.abs(sm) + 0.5 * hs * (rho + 1 / rho))
         yc = y * ch
         # sqrt(|t − z_c||t − z̄_c|) ≤ y cosh R + sqrt(2εy(cosh R + 1) + ε²) for the true root z_c
@@ -278,33 +287,33 @@ def _mapped_pass(h: Hodograph, maps: _SinhMaps, p: _Pieces, density: FloatArray
 def _initial_pieces(h: Hodograph, live: np.ndarray) -> tuple[_Pieces, _SinhMaps]:
     """[0, 1] of each live curve, cut at its cusps and between two nearby roots, each piece
     centred on the non-cusp root nearest to it (or on none), and the maps of those centres."""
-    roots = h.roots
-    branch = np.isfinite(roots) & ~h.kink
-    kx = np.where(h.kink, roots.real, np.nan)
-    both = np.all(branch, axis=1)
+    za, zb = h.roots
+    branch_a = np.isfinite(za) & ~h.kink[0]
+    branch_b = np.isfinite(zb) & ~h.kink[1]
     with np.errstate(invalid="ignore"):
-        gap = np.abs(roots[:, 0].real - roots[:, 1].real)
-        between = np.where(both & (np.max(np.abs(roots.imag), axis=1) < gap), roots.real.mean(axis=1), np.nan)
-    cuts = np.concatenate([kx, between[:, None]], axis=1)
-    cut = (cuts > 0) & (cuts < 1) & live[:, None]
-    cr, cc = np.nonzero(cut)
-    rows, lo, hi = _cut_unit_intervals(len(live), cr, cuts[cr, cc])
-    on = live[rows]
-    rows, lo, hi = rows[on], lo[on], hi[on]
-    mid, half = 0.5 * (lo + hi), 0.5 * (hi - lo)
-    z = take_rows(roots, rows)
-    br = take_rows(branch, rows)
-    er = take_rows(h.root_error, rows)
-    rho = np.stack([np.where(br[:, k], _ellipse_rho(z[:, k], er[:, k], mid, half), np.inf) for k in range(2)], axis=1)
-    centre = np.argmin(rho, axis=1)
-    mapped = np.nonzero(np.any(br, axis=1))[0]
-    key = 2 * rows[mapped] + centre[mapped]
+        close = branch_a & branch_b & (np.maximum(np.abs(za.imag), np.abs(zb.imag)) < np.abs(za.real - zb.real))
+    cuts = [np.where(h.kink[0], za.real, np.nan), np.where(h.kink[1], zb.real, np.nan),
+            np.where(close, 0.5 * (za.real + zb.real), np.nan)]
+    cut_rows = [np.nonzero((c > 0) & (c < 1) & live)[0] for c in cuts]
+    cr = np.concatenate(cut_rows)
+    rows, lo, hi = _cut_unit_intervals(len(live), cr, np.concatenate([c[r] for c, r in zip(cuts, cut_rows,
+                                                                                          strict=True)]))
+    if not np.all(live):
+        on = live[rows]
+        rows, lo, hi = rows[on], lo[on], hi[on]
+    # centre on the root nearest the piece (any choice is correct; the nearest pays best); only roots
+    # near [0, 1] centre a map: far ones gain nothing and would cost rounding in t = x + y sinh s
+    near = []
+    for z, branch in ((za[rows], branch_a[rows]), (zb[rows], branch_b[rows])):
+        with np.errstate(invalid="ignore"):
+            off = np.maximum(np.maximum(lo - z.real, z.real - hi), 0.0)
+            usable = branch & (np.abs(z - 0.5) <= MAP_REACH)
+            near.append(np.where(usable, off * off + z.imag * z.imag, np.inf))
+    centre = (near[1] < near[0]).astype(np.int64)
+    mapped = np.nonzero(np.isfinite(np.minimum(near[0], near[1])))[0]
     kind = np.full(len(rows), -1, dtype=np.int64)
-    if len(key) and np.all(key[1:] > key[:-1]):  # one map per piece (the usual case)
-        unique_keys, kind[mapped] = key, np.arange(len(key))
-    else:
-        unique_keys, kind[mapped] = np.unique(key, return_inverse=True)
-    maps = _SinhMaps.build(h, unique_keys // 2, unique_keys % 2)
+    kind[mapped] = np.arange(len(mapped))  # a map per piece (two pieces of a curve may share a centre)
+    maps = _SinhMaps.build(h, rows[mapped], centre[mapped])
     lo[mapped] = maps.to_s(kind[mapped], lo[mapped])
     hi[mapped] = maps.to_s(kind[mapped], hi[mapped])
     return _Pieces(rows, lo, hi, kind), maps
@@ -341,7 +350,11 @@ def _plan(h: Hodograph, density: FloatArray, live: np.ndarray) -> tuple[list[_Ac
         unsettled.append(rest.rows[stuck])
         pieces = rest.take(~stuck).split(at[~stuck])
     unsettled.append(pieces.rows)
-    return out, np.unique(np.concatenate(unsettled)).astype(np.int64)
+    mapped_parts = [a for a in out if len(a.rows) and not np.isnan(a.x[0])]
+    plain_parts = [a for a in out if len(a.rows) and np.isnan(a.x[0])]
+    merged = [_Accepted(*(np.concatenate(f) for f in zip(*(vars(a).values() for a in parts), strict=True)))
+              for parts in (mapped_parts, plain_parts) if parts]
+    return merged, np.unique(np.concatenate(unsettled)).astype(np.int64)
 
 
 def _take_accepted(acc: _Accepted, sel: np.ndarray) -> _Accepted:
@@ -349,20 +362,25 @@ def _take_accepted(acc: _Accepted, sel: np.ndarray) -> _Accepted:
 
 
 def _cut_unit_intervals(n: int, rows: IntArray, t: FloatArray) -> tuple[IntArray, FloatArray, FloatArray]:
-    """[0, 1] for each of ``n`` curves, cut at ``t`` on curve ``rows``; sorted by curve."""
+    """[0, 1] for each of ``n`` curves, cut at ``t`` on curve ``rows`` (at most two cuts per
+    curve); sorted by curve."""
+    if len(rows) == 0:
+        return np.arange(n, dtype=np.int64), np.zeros(n), np.ones(n)
     count = np.bincount(rows, minlength=n)
     pieces = count + 1
     out_rows = np.repeat(np.arange(n, dtype=np.int64), pieces)
     lo = np.zeros(len(out_rows))
     hi = np.ones(len(out_rows))
-    if len(rows):
-        order = np.lexsort((t, rows))
-        rows, t = rows[order], t[order]
-        first = np.cumsum(pieces) - pieces  # index of each curve's first piece
-        within = np.arange(len(rows)) - (np.cumsum(count) - count)[rows]
-        at = first[rows] + within
-        hi[at] = t
-        lo[at + 1] = t
+    order = np.argsort(rows, kind="stable")
+    rows, t = rows[order], t[order]
+    # at most two cuts per curve: put each pair in order
+    pair = np.nonzero((rows[1:] == rows[:-1]) & (t[1:] < t[:-1]))[0]
+    t[pair], t[pair + 1] = t[pair + 1], t[pair].copy()
+    first = np.cumsum(pieces) - pieces  # index of each curve's first piece
+    within = np.arange(len(rows)) - (np.cumsum(count) - count)[rows]
+    at = first[rows] + within
+    hi[at] = t
+    lo[at + 1] = t
     return out_rows, lo, hi
 
 
@@ -438,6 +456,20 @@ def _mapped_sums(cx: FloatArray, cy: FloatArray, r: IntArray, mid: FloatArray, h
 _QUARTER_POINTS = np.array([[t ** (j + 1) / (j + 1) for t in np.linspace(0.0, 1.0, 5)] for j in range(3)])
 
 
+def hodograph_coefficients(ctrl: FloatArray) -> FloatArray:
+    """Power coefficients ``[n, 3, 2]`` of ``B'(t)`` for cubics ``ctrl[n, 4, ≥2]`` (x, y only), from
+    forward differences: ``B' = d0 + 2(d1 − d0) t + (d0 − 2 d1 + d2) t²``, ``d_j = 3 (P_{j+1} − P_j)``."""
+    out = np.empty((len(ctrl), 3, 2))
+    for axis in range(2):
+        p = np.ascontiguousarray(ctrl[:, :, axis])
+        d = p[:, 1:] - p[:, :-1]
+        d *= 3.0
+        out[:, 0, axis] = d[:, 0]
+        out[:, 1, axis] = 2.0 * (d[:, 1] - d[:, 0])
+        out[:, 2, axis] = (d[:, 2] - d[:, 1]) - (d[:, 1] - d[:, 0])
+    return out
+
+
 def length_floor(coeff: FloatArray) -> FloatArray:
     """A lower bound of each flat cubic's length from its hodograph coefficients ``coeff[n, 3, 2]``:
     the polygon through B(0), B(1/4), …, B(1) (a chord path inscribed in a curve is never longer)."""
@@ -450,8 +482,8 @@ def length_floor(coeff: FloatArray) -> FloatArray:
 def planar_cubic_lengths(coeff: FloatArray, rtol: float) -> tuple[FloatArray, FloatArray, IntArray]:
     """Length and error bound of flat cubics from their hodograph power coefficients
     ``coeff[n, 3, ≥2]`` (``B'(t) = Σ_j coeff[:, j] t^j``), and the rows left for the adaptive
-    integrator.  The returned bound covers quadrature, cusps and summation; the caller adds
-    the rounding of the coefficients.
+    integrator.  The returned bound covers quadrature, cusps, summation and the rounding of
+    the coefficients.
     """
     n = len(coeff)
     coeff = np.ascontiguousarray(coeff[:, :, :2])
@@ -463,6 +495,8 @@ def planar_cubic_lengths(coeff: FloatArray, rtol: float) -> tuple[FloatArray, Fl
     live = h.placeable & (floor > 0)
     pieces, unsettled = _plan(h, density, live)
     value, bound = _gauss_sums(h.coeff, pieces, n)
-    bound += h.kink_defect + 32 * EPS * value
+    # rounding: coefficients and Horner (a few ulps of Σ|c_j| over [0, 1]), nodes t = x + y sinh s
+    # (|x| + |y cosh s| ≤ 5 parameter units: an ulp or two of that times |B''| ≤ 2 Σ|c_j|), summation
+    bound += h.kink_defect + 32 * EPS * value + 24 * EPS * h.scale
     left = np.union1d(np.nonzero(~live)[0], unsettled)
     return value, bound, left.astype(np.int64)
