@@ -99,7 +99,7 @@ def main() -> None:
     refs = np.array([float(bezier_length(ctrl[i])) for i in ref_idx])
 
     rows = []
-    for name, fn in [("pathlen (vectorised G7K15)", lambda: run_pathlen(ctrl, args.rtol)),
+    for name, fn in [("pathlen (a priori Gauss)", lambda: run_pathlen(ctrl, args.rtol)),
                      ("svgpathtools per segment", lambda: run_svgpathtools(ctrl)),
                      ("scipy quad per segment", lambda: run_quad(ctrl))]:
         out, secs = fn()

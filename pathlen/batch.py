@@ -126,6 +126,13 @@ def _totals_by(keys: list[str], length: np.ndarray, bound: np.ndarray) -> dict[s
     return {str(n): LayerTotal(float(a), float(b), int(c)) for n, a, b, c in rows}
 
 
+def _one_thread_each() -> None:
+    """Pool workers already share the cores: no threads of their own inside."""
+    from pathlen.measure import planar_cubic
+
+    planar_cubic.THREADS = 1
+
+
 def run_batch(paths: list[str], settings: Any, jobs: int = 1,
               work: Callable[[str, Any], Any] = measure_file,
               failed: Callable[..., Any] = FileResult) -> Iterator[tuple[int, Any]]:
@@ -140,7 +147,7 @@ def run_batch(paths: list[str], settings: Any, jobs: int = 1,
         for i, p in enumerate(paths):
             yield i, work(p, settings)
         return
-    with ProcessPoolExecutor(max_workers=min(workers, len(paths))) as pool:
+    with ProcessPoolExecutor(max_workers=min(workers, len(paths)), initializer=_one_thread_each) as pool:
         futures = {pool.submit(work, p, settings): i for i, p in enumerate(paths)}
         for fut in as_completed(futures):
             i = futures[fut]

@@ -28,6 +28,8 @@ too ill-conditioned to place (near double roots) or that do not settle in
 
 from __future__ import annotations
 
+import os
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
 import numpy as np
@@ -484,9 +486,24 @@ def planar_cubic_lengths(coeff: FloatArray, rtol: float) -> tuple[FloatArray, Fl
     ``coeff[n, 3, ≥2]`` (``B'(t) = Σ_j coeff[:, j] t^j``), and the rows left for the adaptive
     integrator.  The returned bound covers quadrature, cusps, summation and the rounding of
     the coefficients.
+
+    Large batches are cut into :data:`THREADS` contiguous parts measured on as many threads
+    (numpy releases the GIL inside its loops); the results do not depend on the split.
     """
     n = len(coeff)
     coeff = np.ascontiguousarray(coeff[:, :, :2])
+    parts = min(THREADS, n // MIN_CURVES_PER_THREAD)
+    if parts <= 1:
+        return _lengths(coeff, rtol)
+    edges = np.linspace(0, n, parts + 1).astype(int)
+    with ThreadPoolExecutor(max_workers=parts) as pool:
+        done = list(pool.map(lambda a, b: _lengths(coeff[a:b], rtol), edges[:-1], edges[1:]))
+    left = np.concatenate([rest + a for (_, _, rest), a in zip(done, edges[:-1], strict=True)])
+    return np.concatenate([d[0] for d in done]), np.concatenate([d[1] for d in done]), left
+
+
+def _lengths(coeff: FloatArray, rtol: float) -> tuple[FloatArray, FloatArray, IntArray]:
+    n = len(coeff)
     floor = length_floor(coeff)
     target = rtol * floor
     h = hodograph(coeff, target)
@@ -500,3 +517,16 @@ def planar_cubic_lengths(coeff: FloatArray, rtol: float) -> tuple[FloatArray, Fl
     bound += h.kink_defect + 32 * EPS * value + 24 * EPS * h.scale
     left = np.union1d(np.nonzero(~live)[0], unsettled)
     return value, bound, left.astype(np.int64)
+
+
+def _usable_cores() -> int:
+    try:
+        return len(os.sched_getaffinity(0))
+    except AttributeError:  # not on every platform
+        return os.cpu_count() or 1
+
+
+#: Threads for large batches (at most 4); batch workers of a process pool set it to 1.
+THREADS = min(4, _usable_cores())
+#: Below this many curves per thread, threads cost more than they save.
+MIN_CURVES_PER_THREAD = 8192
