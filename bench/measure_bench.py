@@ -3,7 +3,8 @@
     python bench/measure_bench.py [--count 100000] [--sample 40] [--dxf-entities 100000]
 
 Prints throughput for the same random cubic Béziers measured by
-1. pathlen (``bezier_lengths``, all segments at once),
+1. pathlen (``bezier_lengths``, all segments at once; median of five calls, on one thread
+   and on as many as it uses by default),
 2. svgpathtools ``CubicBezier.length()`` one segment at a time,
 3. ``scipy.integrate.quad`` on the speed, one segment at a time,
 with each method's largest relative error against mpmath on a sample; then the
@@ -24,8 +25,9 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from pathlen.batch import measure_file
+from pathlen.batch import measure_file, single_blas_thread
 from pathlen.geometry import Beziers
+from pathlen.measure import planar_cubic
 from pathlen.measure.bezier import bezier_lengths
 from tests.reference import bezier_length
 
@@ -37,11 +39,19 @@ def random_cubics(n: int, seed: int = 1) -> np.ndarray:
     return ctrl
 
 
-def run_pathlen(ctrl: np.ndarray, rtol: float) -> tuple[np.ndarray, float]:
+def run_pathlen(ctrl: np.ndarray, rtol: float, threads: int, repeats: int = 5) -> tuple[np.ndarray, float]:
+    """Median wall time of ``repeats`` calls (this machine's timings scatter by tens of percent)."""
     batch = Beziers(ctrl, np.ones(ctrl.shape[:2]), np.arange(len(ctrl)))
-    t = time.perf_counter()
-    length, _, _ = bezier_lengths(batch, rtol)
-    return length, time.perf_counter() - t
+    saved, planar_cubic.THREADS = planar_cubic.THREADS, threads
+    try:
+        times = []
+        for _ in range(repeats):
+            t = time.perf_counter()
+            length, _, _ = bezier_lengths(batch, rtol)
+            times.append(time.perf_counter() - t)
+    finally:
+        planar_cubic.THREADS = saved
+    return length, float(np.median(times))
 
 
 def run_svgpathtools(ctrl: np.ndarray) -> tuple[np.ndarray, float]:
@@ -93,19 +103,22 @@ def main() -> None:
     ap.add_argument("--dxf-entities", type=int, default=100_000)
     ap.add_argument("--rtol", type=float, default=1e-9)
     args = ap.parse_args()
+    single_blas_thread()  # as the command line does
 
     ctrl = random_cubics(args.count)
     ref_idx = np.linspace(0, args.count - 1, args.sample).astype(int)
     refs = np.array([float(bezier_length(ctrl[i])) for i in ref_idx])
 
     rows = []
-    for name, fn in [("pathlen (a priori Gauss)", lambda: run_pathlen(ctrl, args.rtol)),
+    threads = planar_cubic.THREADS
+    for name, fn in [("pathlen, 1 thread", lambda: run_pathlen(ctrl, args.rtol, 1)),
+                     (f"pathlen, {threads} threads", lambda: run_pathlen(ctrl, args.rtol, threads)),
                      ("svgpathtools per segment", lambda: run_svgpathtools(ctrl)),
                      ("scipy quad per segment", lambda: run_quad(ctrl))]:
         out, secs = fn()
         err = np.max(np.abs(out[ref_idx] - refs) / refs)
         rows.append((name, secs, args.count / secs, err, out.sum()))
-    base = rows[1][2]
+    base = rows[2][2]
     print(f"{args.count} random cubic Béziers, rtol {args.rtol:g}; error vs mpmath on {args.sample} of them")
     print(f"{'method':30s} {'seconds':>9s} {'segments/s':>12s} {'vs svgpathtools':>16s} {'max rel err':>12s}"
           f" {'total length (mm)':>20s}")

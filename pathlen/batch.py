@@ -126,11 +126,21 @@ def _totals_by(keys: list[str], length: np.ndarray, bound: np.ndarray) -> dict[s
     return {str(n): LayerTotal(float(a), float(b), int(c)) for n, a, b, c in rows}
 
 
+def single_blas_thread() -> None:
+    """Keep BLAS to one thread in this process.  pathlen's products are tall and thin (nodes times
+    weights, points times 3x3 maps): BLAS threads gain nothing there and, spinning beside
+    pathlen's own threads and workers, cost up to a third of the wall time on two cores."""
+    from threadpoolctl import threadpool_limits
+
+    threadpool_limits(limits=1, user_api="blas")
+
+
 def _one_thread_each() -> None:
     """Pool workers already share the cores: no threads of their own inside."""
     from pathlen.measure import planar_cubic
 
     planar_cubic.THREADS = 1
+    single_blas_thread()
 
 
 def run_batch(paths: list[str], settings: Any, jobs: int = 1,
