@@ -40,6 +40,7 @@ ADVERSARIAL = [
     [[1e6, 1e6, 0], [1e6 + 1e-3, 1e6 + 2e-3, 0], [1e6 + 2e-3, 1e6 - 1e-3, 0], [1e6 + 3e-3, 1e6, 0]],  # tiny, far away
     [[0, 0, 0], [4e5, 1e6, 0], [7e5, -1e6, 0], [1e6, 0, 0]],  # huge
     [[0, 0, 0], [1, 2, 3], [2, -1, 1], [3, 1, -2]],  # twisted space curve
+    [[0, 0, 0], [0, 1, 0], [0, 0, 0], [0, 0, 1e-6]],  # space curve, near-cusps inside and at t = 1
 ]
 
 
@@ -69,6 +70,8 @@ def test_cubic_lengths_and_bounds_against_mpmath(rtol, cubic_cases):
 def test_higher_degree_and_rational_against_mpmath():
     rng = np.random.default_rng(5)
     quartic = rng.normal(size=(4, 5, 3))
+    # and the near-cusp space cubic above raised to degree 4: a kink 5e-7 wide at the end t = 1
+    quartic = np.concatenate([quartic, [[[0, 0, 0], [0, 0.75, 0], [0, 0.5, 0], [0, 0, 2.5e-7], [0, 0, 1e-6]]]])
     quintic = rng.normal(size=(3, 6, 3))
     for ctrl in (quartic, quintic):
         length, bound, _ = bezier_lengths(_batch(ctrl), 1e-9)

@@ -230,10 +230,15 @@ def _planar_first(ctrl_all: FloatArray, idx: IntArray, rtol: float, length: Floa
 
 def _integrate(speed: PolynomialSpeed | RationalSpeed, ctrl: FloatArray, mr: IntArray, mt: FloatArray,
                rtol: float) -> Integral:
-    """Integrate over [0, 1], split at the speed minima and graded towards near-cusps."""
+    """Integrate over [0, 1], split at the speed minima and graded towards near-cusps, the
+    end points included (a near-cusp at t = 0 or 1 is no interior minimum, yet hides from the
+    rules just as well)."""
     n = len(ctrl)
     chord = np.linalg.norm(ctrl[:, -1] - ctrl[:, 0], axis=1)
     polygon = np.sum(np.linalg.norm(np.diff(ctrl, axis=1), axis=2), axis=1)
+    every = np.arange(n, dtype=np.int64)
+    mr = np.concatenate([mr, every, every])
+    mt = np.concatenate([mt, np.zeros(n), np.ones(n)])
     gr, gt, unseen = graded_splits(speed, mr, mt, rtol, polygon)
     rows, lo, hi = split_intervals(n, gr, gt)
     result = integrate_speed(speed, n, rows, lo, hi, chord, rtol)

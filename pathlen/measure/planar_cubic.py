@@ -44,9 +44,15 @@ _RULES = {int(n): leggauss(int(n)) for n in ORDERS}
 MAX_PASSES = 64
 #: A curve with more unsettled pieces than this goes to the adaptive integrator.
 MAX_OPEN_PIECES = 64
-#: Shares of ``rtol · (lower bound of the length)``: quadrature, and all cusps treated as kinks.
-QUADRATURE_SHARE = 0.5
+#: Of ``rtol · (lower bound of the length)``: the most the quadrature may take (it gets what the
+#: fixed terms leave, but never less than the floor share), and what one cusp treated as real may cost.
+QUADRATURE_SHARE = 0.9
+QUADRATURE_FLOOR_SHARE = 0.25
 KINK_SHARE = 0.1
+#: Rounding, in ulps of Σ|c_j|: coefficients and Horner (a few), nodes t = x + y sinh s (|x| + |y cosh s|
+#: ≤ 5 parameter units: an ulp or two of that times |B''| ≤ 2 Σ|c_j|); and of the length, summation.
+ROUNDING_ULPS_SCALE = 24
+ROUNDING_ULPS_VALUE = 32
 #: Roots farther than this from t = 1/2 are not used as centres of sinh maps.
 MAP_REACH = 2.0
 #: Ellipses are capped at this ρ: beyond it the bound no longer limits the order.
@@ -65,7 +71,7 @@ class Hodograph:
     roots: np.ndarray  # [2, n] complex, root a then root b; inf where a root does not exist
     root_error: FloatArray  # [2, n] bound of each root's rounding error (parameter units)
     kink: np.ndarray  # [2, n] bool: treated as a real root (cusp), not a branch point
-    kink_defect: FloatArray  # [n] error added for every kink of the curve
+    kink_defect: FloatArray  # [n] error added for the factored speed: the roots' rounding and the cusps
     placeable: np.ndarray  # [n] bool: roots well enough conditioned for the a priori bound
     scale: FloatArray  # Σ |coefficients| (x and y)
 
@@ -99,9 +105,17 @@ def hodograph(coeff: FloatArray, tolerance: FloatArray) -> Hodograph:
     # largest |B'(t)| / |t − z| on [0, 1] for each root: the other factor
     with np.errstate(invalid="ignore"):
         other = np.stack([np.where(lead > 0, lead * (1 + size[1]), 0.0), lead + q_abs])
-        slack = 2 * (np.abs(roots.imag) + error) * other
-    kink = np.isfinite(size) & (slack <= KINK_SHARE * tolerance)
-    kink_defect = np.where(kink[0], slack[0], 0.0) + np.where(kink[1], slack[1], 0.0)
+        slack = 2 * np.abs(roots.imag) * other
+        kink = np.isfinite(size) & (slack <= KINK_SHARE * tolerance)
+        # Mapped pieces integrate |P̃(t)| = |c2 (t − z_a)(t − z_b)| built from the computed roots (a
+        # cusp's made real): off the speed |P(t)| by at most |P − P̃| ≤ Σ_j |c_j − p_j| on [0, 1] (its
+        # coefficients, from the roots, plus their rounding), and by |Im z|·max|other factor| per
+        # cusp; twice (quadrature and integral).  c2·z_a is q (also when c2 = 0: P̃ = −q (t − z_b)).
+        c2za = np.where(c2 != 0, c2 * z_a, q)
+        zb = np.where(np.isfinite(z_b), z_b, 0.0)
+        p1, p0 = -(c2za + c2 * zb), c2za * zb
+        backward = np.abs(p1 - c1) + np.abs(p0 - c0) + 4 * EPS * (np.abs(p1) + np.abs(p0) + scale)
+    kink_defect = 2 * backward + np.where(kink[0], slack[0], 0.0) + np.where(kink[1], slack[1], 0.0)
     return Hodograph(coeff, lead, q_abs, roots, error, kink, kink_defect, placeable, scale)
 
 
@@ -155,14 +169,12 @@ class _Pieces:
 
 @dataclass
 class _Accepted:
-    """Accepted pieces with their Gauss order, their bound and, for mapped pieces, the map
-    ``t = x + y sinh(s)`` and the ``s`` range (``x = nan`` for plain pieces, ``s = t``)."""
+    """Accepted pieces ``[a, b]`` with their Gauss order and bound; ``kind`` as in :class:`_Pieces`."""
 
     rows: IntArray
     a: FloatArray
     b: FloatArray
-    x: FloatArray
-    y: FloatArray
+    kind: IntArray
     order: IntArray
     bound: FloatArray
 
@@ -199,48 +211,49 @@ def _direct_pass(h: Hodograph, p: _Pieces, density: FloatArray) -> tuple[np.ndar
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         ratio = 64 * sup / (15 * (1 - rho**-2) * 2 * density[p.rows])
     ok, order = _round_up(_best_order(ratio, rho))
-    nan = np.full(len(p), np.nan)
-    acc = _Accepted(p.rows, p.lo, p.hi, nan, nan, order, _gauss_bound(half, sup, rho, order))
+    acc = _Accepted(p.rows, p.lo, p.hi, p.kind, order, _gauss_bound(half, sup, rho, order))
     return ok, acc, mid
 
 
 @dataclass
 class _SinhMaps:
-    """Maps ``t = x + y sinh(s)``, each centred on one root ``x + iy`` of one curve, and what
-    bounds the integrand in ``s``."""
+    """Maps ``t = x + y sinh(s)``, each centred on one root ``x + iy`` of one curve.
+
+    Mapped pieces integrate the factored speed ``|c2|·|t − z_c|·|t − z_o|`` with the computed
+    roots (``z_o`` made real when it is a cusp), where ``|t − z_c| = y cosh s`` exactly:
+    ``g(s) = y² cosh² s · (A |t − z_o| + B)`` with ``(A, B) = (|c2|, 0)``, or ``(0, |q|)`` when
+    the hodograph is linear.  How far that is from the true speed is in the hodograph's defect.
+    """
 
     x: FloatArray
     y: FloatArray
-    centre_error: FloatArray
-    other_re: FloatArray  # principal preimage asinh((z_o − x)/y) of the other root (inf if none) …
+    other_re: FloatArray  # principal preimage asinh((z_o − x)/y) of a non-cusp other root (inf if none) …
     other_im: FloatArray  # … its imaginary part, made non-negative (the ellipses are symmetric)
-    other_margin: FloatArray  # how far that preimage may be off, from the other root's error
-    other_dist: FloatArray  # |x − z_o| + ε_o: bound of |t − z_o| at s = 0
-    lead: FloatArray  # |c2|
-    alt_base: FloatArray  # |q| for a second bound of |c2||t − z_a| when z_a is the other root, else inf
+    other_x: FloatArray  # the other root as the integrand uses it: x_o and y_o² (0 for a cusp)
+    other_y2: FloatArray
+    other_dist: FloatArray  # |x − z_o|: with y cosh R it bounds |t − z_o| on an ellipse
+    a_coef: FloatArray  # A and B
+    b_coef: FloatArray
 
     @classmethod
     def build(cls, h: Hodograph, row: IntArray, k: IntArray) -> _SinhMaps:
         """Maps centred on root ``k`` (0 or 1) of curve ``row``."""
         n = h.roots.shape[1]
         flat, flat_o = k * n + row, (1 - k) * n + row
-        z, err = h.roots.ravel()[flat], h.root_error.ravel()[flat]
-        zo, eo, ko = h.roots.ravel()[flat_o], h.root_error.ravel()[flat_o], h.kink.ravel()[flat_o]
+        z = h.roots.ravel()[flat]
+        zo, ko = h.roots.ravel()[flat_o], h.kink.ravel()[flat_o]
         x, y = z.real, np.abs(z.imag)
-        live_o = np.isfinite(zo) & ~ko
+        finite_o = np.isfinite(zo)
+        live_o = finite_o & ~ko
+        xo = np.where(finite_o, zo.real, 0.0)
+        yo = np.where(live_o, zo.imag, 0.0)
         with np.errstate(all="ignore"):
-            w = np.where(live_o, (zo - x) / y, 0.0)
-            so = np.arcsinh(w)
-            other_re = np.where(live_o, so.real, np.inf)
-            other_im = np.where(live_o, np.abs(so.imag), 0.0)
-            # first order: ds = dz / (y sqrt(1 + w²)), doubled
-            re, im = 1 + w.real * w.real - w.imag * w.imag, 2 * w.real * w.imag
-            margin = 2 * eo / (y * np.sqrt(np.sqrt(re * re + im * im)))  # |sqrt(1 + w²)|
-            dist = np.abs(x - zo) + eo
-        # centre a (k = 0): speed = |c2|·|t − z_a|·|t − z_b|, other factor |c2|·|t − z_b|;
-        # centre b (k = 1): other factor |c2|·|t − z_a| ≤ min(|c2|(|x − z_a| + …), |c2||t| + |q|)
-        alt = np.where(k == 0, np.inf, h.q_abs[row] * (1 + 1e-12))
-        return cls(x, y, err, other_re, other_im, margin, dist, h.lead[row], alt)
+            so = np.arcsinh(np.where(live_o, (zo - x) / y, 0.0))
+            dist = np.where(finite_o, np.sqrt((x - xo) ** 2 + yo * yo), 0.0)
+        # root a goes with |c2|; without it (c2 = 0) the speed is |q|·|t − z_b|
+        lead = h.lead[row]
+        return cls(x, y, np.where(live_o, so.real, np.inf), np.where(live_o, np.abs(so.imag), 0.0), xo, yo * yo,
+                   dist, np.where(finite_o, lead, 0.0), np.where(finite_o, 0.0, h.q_abs[row]))
 
     def to_s(self, m: IntArray, t: FloatArray) -> FloatArray:
         """``s`` of parameter ``t`` under map ``m``."""
@@ -248,20 +261,17 @@ class _SinhMaps:
             return np.arcsinh((t - self.x[m]) / self.y[m])
 
 
-def _mapped_pass(h: Hodograph, maps: _SinhMaps, p: _Pieces, density: FloatArray
-                 ) -> tuple[np.ndarray, _Accepted, FloatArray]:
+def _mapped_pass(maps: _SinhMaps, p: _Pieces, density: FloatArray) -> tuple[np.ndarray, _Accepted, FloatArray]:
     """Gauss–Legendre in ``s`` for ``t = x + y sinh(s)``, ``x + iy`` the centre root.
 
-    The centre pair's factor ``|t − z||t − z̄|`` becomes ``y² cosh² s`` (entire);
-    what remains singular are the other root's preimages ``s_o = asinh((z_o − x)/y)``,
-    ``iπ − s_o``, ``iπ − s̄_o`` and conjugates, and, as the centre root is known
-    only to within ``ε``, points within ``sqrt(2ε/y)`` of ``±iπ/2``.  Ellipses
-    stay below ``|Im s| = 3π/2``, where no other preimage lies.  On an ellipse
-    with ``|Re s| ≤ R``: ``|sinh s|, |cosh s| ≤ cosh R``.
+    The integrand ``g(s)`` (see :class:`_SinhMaps`) is singular only at the other root's
+    preimages ``s_o = asinh((z_o − x)/y)``, ``iπ − s_o``, ``iπ − s̄_o`` and their conjugates
+    within ``|Im s| < 3π/2``, where the ellipses stay.  On an ellipse with ``|Re s| ≤ R``:
+    ``|sinh s|, |cosh s| ≤ cosh R``, so ``|g| ≤ y² cosh² R (A (|x − z_o| + y cosh R) + B)``.
     """
     k = p.kind
-    x, y, ec = maps.x[k], maps.y[k], maps.centre_error[k]
-    so_re, so_im, mo = maps.other_re[k], maps.other_im[k], maps.other_margin[k]
+    y = maps.y[k]
+    so_re, so_im = maps.other_re[k], maps.other_im[k]
     s_lo, s_hi = p.lo, p.hi
     with np.errstate(all="ignore"):
         sm = 0.5 * (s_lo + s_hi)
@@ -269,20 +279,15 @@ def _mapped_pass(h: Hodograph, maps: _SinhMaps, p: _Pieces, density: FloatArray
         t_width = 2 * y * np.cosh(sm) * np.sinh(hs)  # sinh(s_hi) − sinh(s_lo), times y
         strip = 1.5 * np.pi / hs
         rho = 0.5 * (strip + np.sqrt(strip * strip + 4))  # minor semi-axis 3π/2
+        margin = np.where(np.isfinite(so_re), 64 * EPS * (1 + np.abs(so_re) + so_im), 0.0)  # rounding of asinh
         # s_o and iπ − s_o, iπ − s̄_o (with |Im s_o|: the conjugate pairs give the same ρ)
         for re, im in ((so_re, so_im), (-so_re, np.pi - so_im), (-so_re, np.pi + so_im)):
-            np.minimum(rho, _ellipse_rho(re, im, mo, sm, hs), out=rho)
-        np.minimum(rho, _ellipse_rho(0.0, 0.5 * np.pi, np.sqrt(8 * ec / y), sm, hs), out=rho)
-        ch = np.cosh(np.abs(sm) + 0.5 * hs * (rho + 1 / rho))
-        yc = y * ch
-        # sqrt(|t − z_c||t − z̄_c|) ≤ y cosh R + sqrt(2εy(cosh R + 1) + ε²) for the true root z_c
-        centre_f = yc + np.sqrt(2 * ec * (yc + y) + ec * ec)
-        lead = maps.lead[k]
-        other_f = np.fmin(lead * (maps.other_dist[k] + yc), lead * (np.abs(x) + yc) + maps.alt_base[k])
-        sup = yc * centre_f * other_f
+            np.minimum(rho, _ellipse_rho(re, im, margin, sm, hs), out=rho)
+        yc = y * np.cosh(np.abs(sm) + 0.5 * hs * (rho + 1 / rho))
+        sup = yc * yc * (maps.a_coef[k] * (maps.other_dist[k] + yc) + maps.b_coef[k])
         ratio = 64 * sup * hs / (15 * (1 - rho**-2) * density[p.rows] * t_width)
     ok, order = _round_up(_best_order(ratio, rho))
-    acc = _Accepted(p.rows, s_lo, s_hi, x, y, order, _gauss_bound(hs, sup, rho, order))
+    acc = _Accepted(p.rows, s_lo, s_hi, k, order, _gauss_bound(hs, sup, rho, order))
     return ok, acc, sm
 
 
@@ -321,9 +326,9 @@ def _initial_pieces(h: Hodograph, live: np.ndarray) -> tuple[_Pieces, _SinhMaps]
     return _Pieces(rows, lo, hi, kind), maps
 
 
-def _plan(h: Hodograph, density: FloatArray, live: np.ndarray) -> tuple[list[_Accepted], IntArray]:
+def _plan(h: Hodograph, density: FloatArray, live: np.ndarray) -> tuple[list[_Accepted], _SinhMaps, IntArray]:
     """Pieces and Gauss orders meeting ``density`` (tolerance per unit parameter) for the
-    ``live`` curves, and the curves that did not settle."""
+    ``live`` curves (mapped ones first), their maps, and the curves that did not settle."""
     pieces, maps = _initial_pieces(h, live)
     out: list[_Accepted] = []
     unsettled: list[IntArray] = []
@@ -337,7 +342,7 @@ def _plan(h: Hodograph, density: FloatArray, live: np.ndarray) -> tuple[list[_Ac
             if np.any(sel):
                 part = pieces.take(sel)
                 if sel is mapped:
-                    good, acc, cut_at = _mapped_pass(h, maps, part, density)
+                    good, acc, cut_at = _mapped_pass(maps, part, density)
                 else:
                     good, acc, cut_at = _direct_pass(h, part, density)
                 out.append(_take_accepted(acc, good))
@@ -352,15 +357,15 @@ def _plan(h: Hodograph, density: FloatArray, live: np.ndarray) -> tuple[list[_Ac
         unsettled.append(rest.rows[stuck])
         pieces = rest.take(~stuck).split(at[~stuck])
     unsettled.append(pieces.rows)
-    mapped_parts = [a for a in out if len(a.rows) and not np.isnan(a.x[0])]
-    plain_parts = [a for a in out if len(a.rows) and np.isnan(a.x[0])]
+    mapped_parts = [a for a in out if len(a.rows) and a.kind[0] >= 0]
+    plain_parts = [a for a in out if len(a.rows) and a.kind[0] < 0]
     merged = [_Accepted(*(np.concatenate(f) for f in zip(*(vars(a).values() for a in parts), strict=True)))
               for parts in (mapped_parts, plain_parts) if parts]
-    return merged, np.unique(np.concatenate(unsettled)).astype(np.int64)
+    return merged, maps, np.unique(np.concatenate(unsettled)).astype(np.int64)
 
 
 def _take_accepted(acc: _Accepted, sel: np.ndarray) -> _Accepted:
-    return _Accepted(acc.rows[sel], acc.a[sel], acc.b[sel], acc.x[sel], acc.y[sel], acc.order[sel], acc.bound[sel])
+    return _Accepted(acc.rows[sel], acc.a[sel], acc.b[sel], acc.kind[sel], acc.order[sel], acc.bound[sel])
 
 
 def _cut_unit_intervals(n: int, rows: IntArray, t: FloatArray) -> tuple[IntArray, FloatArray, FloatArray]:
@@ -386,9 +391,8 @@ def _cut_unit_intervals(n: int, rows: IntArray, t: FloatArray) -> tuple[IntArray
     return out_rows, lo, hi
 
 
-def _speed_sums(cx: FloatArray, cy: FloatArray, r: IntArray, t: FloatArray, jac: FloatArray | None,
-                weights: FloatArray) -> FloatArray:
-    """``Σ_j weights[j] · |B'(t[i, j])| · jac[i, j]`` for curves ``r[i]``."""
+def _speed_sums(cx: FloatArray, cy: FloatArray, r: IntArray, t: FloatArray, weights: FloatArray) -> FloatArray:
+    """``Σ_j weights[j] · |B'(t[i, j])|`` for curves ``r[i]`` (Horner on the power coefficients)."""
     x = take_rows(cx, r)
     y = take_rows(cy, r)
     vx = x[:, 2, None] * t
@@ -403,13 +407,34 @@ def _speed_sums(cx: FloatArray, cy: FloatArray, r: IntArray, t: FloatArray, jac:
     vy *= vy
     vx += vy
     np.sqrt(vx, out=vx)
-    if jac is not None:
-        vx *= jac
     return vx @ weights
 
 
-def _gauss_sums(coeff: FloatArray, pieces: list[_Accepted], n: int) -> tuple[FloatArray, FloatArray]:
-    """Per curve: the Gauss–Legendre sums of |B'(t)| over the accepted pieces, and their bounds."""
+def _mapped_sums(maps: _SinhMaps, k: IntArray, mid: FloatArray, half: FloatArray, nodes: FloatArray,
+                 weights: FloatArray) -> FloatArray:
+    """Gauss sums in ``s`` of ``g(s) = y² cosh² s · (A |t − z_o| + B)``, ``t = x + y sinh s``, over
+    ``[mid ± half]`` for maps ``k``."""
+    e = np.exp(mid[:, None] + half[:, None] * nodes)
+    inv = 1.0 / e
+    y = maps.y[k]
+    d = e - inv  # 2 sinh s
+    d *= 0.5 * y[:, None]
+    d += (maps.x[k] - maps.other_x[k])[:, None]  # t − x_o
+    d *= d
+    d += maps.other_y2[k][:, None]
+    np.sqrt(d, out=d)
+    quarter = 0.25 * y * y
+    d *= (quarter * maps.a_coef[k])[:, None]
+    d += (quarter * maps.b_coef[k])[:, None]
+    e += inv  # 2 cosh s
+    e *= e
+    d *= e
+    return d @ weights
+
+
+def _gauss_sums(coeff: FloatArray, pieces: list[_Accepted], maps: _SinhMaps, n: int
+                ) -> tuple[FloatArray, FloatArray]:
+    """Per curve: the Gauss–Legendre sums over the accepted pieces, and their bounds."""
     if not pieces:
         return np.zeros(n), np.zeros(n)
     cx = np.ascontiguousarray(coeff[:, :, 0])
@@ -419,39 +444,23 @@ def _gauss_sums(coeff: FloatArray, pieces: list[_Accepted], n: int) -> tuple[Flo
     value = np.empty(len(rows))
     start = 0
     for acc in pieces:
-        mapped = len(acc.rows) > 0 and not np.isnan(acc.x[0])
+        mapped = acc.kind[0] >= 0
         for k in np.unique(acc.order):
             nodes, weights = _RULES[int(k)]
             sel = np.nonzero(acc.order == k)[0]
             step = max(1, NODES_PER_BLOCK // int(k))
             for s in range(0, len(sel), step):
                 part = sel[s:s + step]
-                r = acc.rows[part]
                 half = 0.5 * (acc.b[part] - acc.a[part])
                 mid = 0.5 * (acc.b[part] + acc.a[part])
                 if mapped:
-                    value[start + part] = half * _mapped_sums(cx, cy, r, mid, half, acc.x[part], acc.y[part],
-                                                              nodes, weights)
+                    value[start + part] = half * _mapped_sums(maps, acc.kind[part], mid, half, nodes, weights)
                 else:  # plain pieces: the node is t
                     t = mid[:, None] + half[:, None] * nodes
-                    value[start + part] = half * _speed_sums(cx, cy, r, t, None, weights)
+                    value[start + part] = half * _speed_sums(cx, cy, acc.rows[part], t, weights)
         start += len(acc.rows)
     return (np.bincount(rows, weights=value, minlength=n).astype(float),
             np.bincount(rows, weights=bound, minlength=n).astype(float))
-
-
-def _mapped_sums(cx: FloatArray, cy: FloatArray, r: IntArray, mid: FloatArray, half: FloatArray, x: FloatArray,
-                 y: FloatArray, nodes: FloatArray, weights: FloatArray) -> FloatArray:
-    """Gauss sums in ``s`` of ``|B'(x + y sinh s)| · y cosh s`` over ``[mid ± half]``."""
-    e = np.exp(mid[:, None] + half[:, None] * nodes)
-    inv = 1.0 / e
-    yy = 0.5 * y[:, None]
-    t = e - inv
-    t *= yy
-    t += x[:, None]
-    e += inv
-    e *= yy
-    return _speed_sums(cx, cy, r, t, e, weights)
 
 
 #: B(k/4) − B(0) from the hodograph's power coefficients: ``Σ_j c_j t^{j+1} / (j+1)``.
@@ -507,14 +516,13 @@ def _lengths(coeff: FloatArray, rtol: float) -> tuple[FloatArray, FloatArray, In
     floor = length_floor(coeff)
     target = rtol * floor
     h = hodograph(coeff, target)
-    density = QUADRATURE_SHARE * target
+    fixed = h.kink_defect + (ROUNDING_ULPS_SCALE + ROUNDING_ULPS_VALUE) * EPS * h.scale  # |B'| ≤ Σ|c_j|
+    density = np.maximum(QUADRATURE_SHARE * target - fixed, QUADRATURE_FLOOR_SHARE * target)
     # a zero floor (a point, or a loop whose samples coincide) cannot set a tolerance
     live = h.placeable & (floor > 0)
-    pieces, unsettled = _plan(h, density, live)
-    value, bound = _gauss_sums(h.coeff, pieces, n)
-    # rounding: coefficients and Horner (a few ulps of Σ|c_j| over [0, 1]), nodes t = x + y sinh s
-    # (|x| + |y cosh s| ≤ 5 parameter units: an ulp or two of that times |B''| ≤ 2 Σ|c_j|), summation
-    bound += h.kink_defect + 32 * EPS * value + 24 * EPS * h.scale
+    pieces, maps, unsettled = _plan(h, density, live)
+    value, bound = _gauss_sums(h.coeff, pieces, maps, n)
+    bound += h.kink_defect + ROUNDING_ULPS_VALUE * EPS * value + ROUNDING_ULPS_SCALE * EPS * h.scale
     left = np.union1d(np.nonzero(~live)[0], unsettled)
     return value, bound, left.astype(np.int64)
 
