@@ -2,28 +2,31 @@
 
 Written as a complex number, the hodograph of a flat cubic is a quadratic,
 ``B'(t) = c0 + c1 t + c2 t²``, and factors: on the real line the speed is
-``|B'(t)| = |c2|·|t − z_a|·|t − z_b|``.  Its analytic continuation
+``|B'(t)| = |c2|·|t − z_a|·|t − z_b|``, whose continuation
 ``|c2|·sqrt((t − z_a)(t − z̄_a)(t − z_b)(t − z̄_b))`` is analytic away from the
 two roots and their conjugates.  On an interval ``[m − h, m + h]`` whose
 Bernstein ellipse ``E_ρ`` (foci at the ends, semi-axis sum ``ρh``) holds none
 of them, ``n``-point Gauss–Legendre errs by at most
 
-    h · 64 M / (15 (1 − ρ⁻²) ρ^{2n}),   M = sup of |speed| on E_ρ
+    h · 64 M / (15 (1 − ρ⁻²) ρ^{2n}),   M = sup of |integrand| on E_ρ
 
 (fungrim.org, topic "Gaussian quadrature"; L. N. Trefethen, SIAM Review 50,
-2008, theorem 4.5), and ``M ≤ |c2| ∏ (A + |m − z|)`` with ``A = h(ρ + 1/ρ)/2``
-the ellipse's semi-major axis.  So the error is bounded before the speed is
-evaluated: each interval gets the fewest nodes in :data:`ORDERS` that meet
-its share of the tolerance, and intervals that would need more are split (at
-the real part of the root that limits them when it lies well inside, else in
-the middle), which grades them geometrically towards near-cusps.
+2008).  So the error is bounded before anything is evaluated: each piece gets
+the fewest nodes in :data:`ORDERS` that meet its share of the tolerance, and
+pieces that would need more are split.
 
-Cusps: a root within rounding of the real axis (``|Im z| ≤ y``) is treated as
-real, where ``|t − z|`` becomes ``±(t − x)``, analytic on either side of a
-split at ``x``; the difference, at most ``y·max|B'|/|t − z|`` per point, is
-added to the bound twice (quadrature and integral).  Curves whose roots are
-too ill-conditioned to place (near double roots) or that do not settle in
-:data:`MAX_PASSES` splits are returned for the general adaptive integrator.
+A root ``x + iy`` near [0, 1] costs many nodes in ``t``; in ``s`` with
+``t = x + y sinh s`` its factor becomes ``y cosh s``, entire, so pieces near it
+are integrated in ``s`` (a "mapped" piece), where only the other root's
+preimages limit the ellipse.  Mapped pieces integrate the factored speed
+built from the computed roots; its distance from the true speed is bounded
+by the computed backward error of the roots and added to the bound.  Roots
+within a small share of the tolerance of the real axis (cusps) are taken as
+real: ``|t − z|`` becomes ``±(t − x)``, analytic on either side of a cut at
+``x``, and the difference goes into the bound.  Pieces without a usable root
+near them are integrated in ``t`` with margins for the roots' rounding.
+Curves whose roots are too ill-conditioned to place (near double roots) or
+whose pieces do not settle are returned for the adaptive integrator.
 """
 
 from __future__ import annotations
@@ -58,7 +61,7 @@ MAP_REACH = 2.0
 #: Ellipses are capped at this ρ: beyond it the bound no longer limits the order.
 RHO_CAP = 1e3
 #: Nodes evaluated per numpy pass (keeps temporaries small, see quadrature.BLOCK).
-NODES_PER_BLOCK = 32768
+NODES_PER_BLOCK = 16384
 
 
 @dataclass
@@ -277,12 +280,22 @@ def _mapped_pass(maps: _SinhMaps, p: _Pieces, density: FloatArray) -> tuple[np.n
         sm = 0.5 * (s_lo + s_hi)
         hs = 0.5 * (s_hi - s_lo)
         t_width = 2 * y * np.cosh(sm) * np.sinh(hs)  # sinh(s_hi) − sinh(s_lo), times y
-        strip = 1.5 * np.pi / hs
-        rho = 0.5 * (strip + np.sqrt(strip * strip + 4))  # minor semi-axis 3π/2
+        # an ellipse's minor semi-axis is hs (ρ − 1/ρ) / 2; keep it below 3π/2 (less a hair)
+        strip = (3 * np.pi - 1e-9) / hs
+        rho = 0.5 * (strip + np.sqrt(strip * strip + 4))
         margin = np.where(np.isfinite(so_re), 64 * EPS * (1 + np.abs(so_re) + so_im), 0.0)  # rounding of asinh
-        # s_o and iπ − s_o, iπ − s̄_o (with |Im s_o|: the conjugate pairs give the same ρ)
-        for re, im in ((so_re, so_im), (-so_re, np.pi - so_im), (-so_re, np.pi + so_im)):
-            np.minimum(rho, _ellipse_rho(re, im, margin, sm, hs), out=rho)
+        # s_o (with |Im s_o|: a conjugate pair gives the same ρ) …
+        np.minimum(rho, _ellipse_rho(so_re, so_im, margin, sm, hs), out=rho)
+        # … and iπ − s_o, iπ − s̄_o, which only an ellipse reaching |Im s| = π − |Im s_o| can meet
+        reach = 2 * (np.pi - so_im - margin) / hs
+        far = rho <= 0.5 * (reach + np.sqrt(reach * reach + 4))
+    near = np.nonzero(~far)[0]
+    if len(near):
+        with np.errstate(all="ignore"):
+            re_n, im_n, mg, m_n, h_n = -so_re[near], so_im[near], margin[near], sm[near], hs[near]
+            rho[near] = np.minimum(rho[near], np.minimum(_ellipse_rho(re_n, np.pi - im_n, mg, m_n, h_n),
+                                                         _ellipse_rho(re_n, np.pi + im_n, mg, m_n, h_n)))
+    with np.errstate(all="ignore"):
         yc = y * np.cosh(np.abs(sm) + 0.5 * hs * (rho + 1 / rho))
         sup = yc * yc * (maps.a_coef[k] * (maps.other_dist[k] + yc) + maps.b_coef[k])
         ratio = 64 * sup * hs / (15 * (1 - rho**-2) * density[p.rows] * t_width)
