@@ -53,9 +53,11 @@ QUADRATURE_SHARE = 0.9
 QUADRATURE_FLOOR_SHARE = 0.25
 KINK_SHARE = 0.1
 #: Rounding, in ulps of Σ|c_j|: coefficients and Horner (a few), nodes t = x + y sinh s (|x| + |y cosh s|
-#: ≤ 5 parameter units: an ulp or two of that times |B''| ≤ 2 Σ|c_j|); and of the length, summation.
+#: ≤ 5 parameter units: an ulp or two of that times |B''| ≤ 2 Σ|c_j|); and in ulps of the length: the
+#: exponentials of mapped pieces (arguments up to about 40 in size, relative error that many ulps,
+#: squared in cosh²) and summation.
 ROUNDING_ULPS_SCALE = 24
-ROUNDING_ULPS_VALUE = 32
+ROUNDING_ULPS_VALUE = 96
 #: Roots farther than this from t = 1/2 are not used as centres of sinh maps.
 MAP_REACH = 2.0
 #: Ellipses are capped at this ρ: beyond it the bound no longer limits the order.
@@ -198,7 +200,7 @@ def _round_up(need: FloatArray) -> tuple[np.ndarray, IntArray]:
 def _gauss_bound(half: FloatArray, sup: FloatArray, rho: FloatArray, order: IntArray) -> FloatArray:
     """``half · 64 M / (15 (1 − ρ⁻²) ρ^{2n})``: the Gauss–Legendre error bound."""
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        return half * 64 * sup / (15 * (1 - rho**-2) * rho ** (2.0 * order))
+        return half * 64 * sup / (15 * (1 - rho**-2)) * np.exp(-2.0 * order * np.log(rho))
 
 
 def _direct_pass(h: Hodograph, p: _Pieces, density: FloatArray) -> tuple[np.ndarray, _Accepted, FloatArray]:
@@ -426,22 +428,21 @@ def _speed_sums(cx: FloatArray, cy: FloatArray, r: IntArray, t: FloatArray, weig
 def _mapped_sums(maps: _SinhMaps, k: IntArray, mid: FloatArray, half: FloatArray, nodes: FloatArray,
                  weights: FloatArray) -> FloatArray:
     """Gauss sums in ``s`` of ``g(s) = y² cosh² s · (A |t − z_o| + B)``, ``t = x + y sinh s``, over
-    ``[mid ± half]`` for maps ``k``."""
-    e = np.exp(mid[:, None] + half[:, None] * nodes)
-    inv = 1.0 / e
-    y = maps.y[k]
-    d = e - inv  # 2 sinh s
-    d *= 0.5 * y[:, None]
+    ``[mid ± half]`` for maps ``k``.  With ``E = (y/2) e^s`` and ``F = (y/2)² / E = (y/2) e^{−s}``:
+    ``t − x = E − F`` and ``y cosh s = E + F``."""
+    y_half = 0.5 * maps.y[k]
+    big = np.exp((mid + np.log(y_half))[:, None] + half[:, None] * nodes)
+    small = (y_half * y_half)[:, None] / big
+    d = big - small
     d += (maps.x[k] - maps.other_x[k])[:, None]  # t − x_o
     d *= d
     d += maps.other_y2[k][:, None]
     np.sqrt(d, out=d)
-    quarter = 0.25 * y * y
-    d *= (quarter * maps.a_coef[k])[:, None]
-    d += (quarter * maps.b_coef[k])[:, None]
-    e += inv  # 2 cosh s
-    e *= e
-    d *= e
+    d *= maps.a_coef[k][:, None]
+    d += maps.b_coef[k][:, None]
+    big += small
+    big *= big
+    d *= big
     return d @ weights
 
 
@@ -476,8 +477,10 @@ def _gauss_sums(coeff: FloatArray, pieces: list[_Accepted], maps: _SinhMaps, n: 
             np.bincount(rows, weights=bound, minlength=n).astype(float))
 
 
-#: B(k/4) − B(0) from the hodograph's power coefficients: ``Σ_j c_j t^{j+1} / (j+1)``.
-_QUARTER_POINTS = np.array([[t ** (j + 1) / (j + 1) for t in np.linspace(0.0, 1.0, 5)] for j in range(3)])
+#: Chords B(k/4) − B((k−1)/4), k = 1…4, from the hodograph's power coefficients:
+#: ``Σ_j c_j (t_k^{j+1} − t_{k−1}^{j+1}) / (j+1)``.
+_QUARTER_CHORDS = np.diff(np.array([[t ** (j + 1) / (j + 1) for t in np.linspace(0.0, 1.0, 5)]
+                                    for j in range(3)]), axis=1)
 
 
 def hodograph_coefficients(ctrl: FloatArray) -> FloatArray:
@@ -498,9 +501,10 @@ def length_floor(coeff: FloatArray) -> FloatArray:
     """A lower bound of each flat cubic's length from its hodograph coefficients ``coeff[n, 3, 2]``:
     the polygon through B(0), B(1/4), …, B(1) (a chord path inscribed in a curve is never longer)."""
     n = len(coeff)
-    pts = (coeff.transpose(0, 2, 1).reshape(2 * n, 3) @ _QUARTER_POINTS).reshape(n, 2, 5)
-    d = np.diff(pts, axis=2)
-    return np.sum(np.sqrt(d[:, 0] ** 2 + d[:, 1] ** 2), axis=1) * (1 - 1e-12)
+    d = (coeff.transpose(0, 2, 1).reshape(2 * n, 3) @ _QUARTER_CHORDS).reshape(n, 2, 4)
+    d *= d
+    chords = np.sqrt(d[:, 0] + d[:, 1])
+    return (chords[:, 0] + chords[:, 1] + chords[:, 2] + chords[:, 3]) * (1 - 1e-12)
 
 
 def planar_cubic_lengths(coeff: FloatArray, rtol: float) -> tuple[FloatArray, FloatArray, IntArray]:
