@@ -10,8 +10,9 @@ of them, ``n``-point Gauss–Legendre errs by at most
 
     h · 64 M / (15 (1 − ρ⁻²) ρ^{2n}),   M = sup of |integrand| on E_ρ
 
-(fungrim.org, topic "Gaussian quadrature"; L. N. Trefethen, SIAM Review 50,
-2008).  So the error is bounded before anything is evaluated: each piece gets
+(fungrim.org, topic "Gaussian quadrature"; the same as theorem 19.3 of
+L. N. Trefethen, Approximation Theory and Approximation Practice, which counts
+n + 1 nodes).  So the error is bounded before anything is evaluated: each piece gets
 the fewest nodes in :data:`ORDERS` that meet its share of the tolerance, and
 pieces that would need more are split.
 
