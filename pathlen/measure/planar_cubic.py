@@ -205,7 +205,8 @@ def _gauss_bound(half: FloatArray, sup: FloatArray, rho: FloatArray, order: IntA
 
 
 def _direct_pass(h: Hodograph, p: _Pieces, density: FloatArray) -> tuple[np.ndarray, _Accepted, FloatArray]:
-    """Plain Gauss–Legendre in ``t`` (curves whose roots are all cusps or absent)."""
+    """Plain Gauss–Legendre in ``t``, for pieces with no root near enough to centre a map (roots all
+    cusps, absent or far); the true speed is evaluated, so roots count with their rounding margins."""
     mid = 0.5 * (p.lo + p.hi)
     half = 0.5 * (p.hi - p.lo)
     rho = np.full(len(p), RHO_CAP)
