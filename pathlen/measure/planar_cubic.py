@@ -41,6 +41,7 @@ from numpy.polynomial.legendre import leggauss
 
 from pathlen.geometry import FloatArray, IntArray, take_rows
 from pathlen.measure.closed_forms import EPS
+from pathlen.measure.quadrature import split_intervals
 
 #: Gauss–Legendre orders tried, smallest first; intervals needing more are split.
 ORDERS = np.array([2, 3, 4, 5, 6, 7, 8, 10, 12, 14, 16, 20, 24, 28, 32])
@@ -318,10 +319,9 @@ def _initial_pieces(h: Hodograph, live: np.ndarray) -> tuple[_Pieces, _SinhMaps]
         close = branch_a & branch_b & (np.maximum(np.abs(za.imag), np.abs(zb.imag)) < np.abs(za.real - zb.real))
     cuts = [np.where(h.kink[0], za.real, np.nan), np.where(h.kink[1], zb.real, np.nan),
             np.where(close, 0.5 * (za.real + zb.real), np.nan)]
-    cut_rows = [np.nonzero((c > 0) & (c < 1) & live)[0] for c in cuts]
-    cr = np.concatenate(cut_rows)
-    rows, lo, hi = _cut_unit_intervals(len(live), cr, np.concatenate([c[r] for c, r in zip(cuts, cut_rows,
-                                                                                          strict=True)]))
+    cut_rows = [np.nonzero(np.isfinite(c) & live)[0] for c in cuts]
+    rows, lo, hi = split_intervals(len(live), np.concatenate(cut_rows),
+                                   np.concatenate([c[r] for c, r in zip(cuts, cut_rows, strict=True)]))
     if not np.all(live):
         on = live[rows]
         rows, lo, hi = rows[on], lo[on], hi[on]
@@ -383,29 +383,6 @@ def _plan(h: Hodograph, density: FloatArray, live: np.ndarray) -> tuple[list[_Ac
 
 def _take_accepted(acc: _Accepted, sel: np.ndarray) -> _Accepted:
     return _Accepted(acc.rows[sel], acc.a[sel], acc.b[sel], acc.kind[sel], acc.order[sel], acc.bound[sel])
-
-
-def _cut_unit_intervals(n: int, rows: IntArray, t: FloatArray) -> tuple[IntArray, FloatArray, FloatArray]:
-    """[0, 1] for each of ``n`` curves, cut at ``t`` on curve ``rows`` (at most two cuts per
-    curve); sorted by curve."""
-    if len(rows) == 0:
-        return np.arange(n, dtype=np.int64), np.zeros(n), np.ones(n)
-    count = np.bincount(rows, minlength=n)
-    pieces = count + 1
-    out_rows = np.repeat(np.arange(n, dtype=np.int64), pieces)
-    lo = np.zeros(len(out_rows))
-    hi = np.ones(len(out_rows))
-    order = np.argsort(rows, kind="stable")
-    rows, t = rows[order], t[order]
-    # at most two cuts per curve: put each pair in order
-    pair = np.nonzero((rows[1:] == rows[:-1]) & (t[1:] < t[:-1]))[0]
-    t[pair], t[pair + 1] = t[pair + 1], t[pair].copy()
-    first = np.cumsum(pieces) - pieces  # index of each curve's first piece
-    within = np.arange(len(rows)) - (np.cumsum(count) - count)[rows]
-    at = first[rows] + within
-    hi[at] = t
-    lo[at + 1] = t
-    return out_rows, lo, hi
 
 
 def _speed_sums(cx: FloatArray, cy: FloatArray, r: IntArray, t: FloatArray, weights: FloatArray) -> FloatArray:

@@ -175,18 +175,14 @@ def split_intervals(n: int, split_rows: IntArray, split_t: FloatArray,
     order = order[np.argsort(sr[order], kind="stable")]
     sr, st = sr[order], st[order]
     count = np.bincount(sr, minlength=n)
-    first = np.concatenate([[0], np.cumsum(count + 2)[:-1]])  # offset of each row's boundaries
-    bounds = np.empty(int(np.sum(count + 2)))
-    bounds[first] = t_start
-    bounds[first + count + 1] = t_end
-    within = np.arange(len(sr)) - np.repeat(np.cumsum(count) - count, count)
-    bounds[first[sr] + 1 + within] = st
-    rows = np.repeat(np.arange(n, dtype=np.int64), count + 1)
-    lo_idx = np.arange(len(bounds) - 1)
-    keep = np.ones(len(bounds) - 1, dtype=bool)
-    keep[(first + count + 1)[:-1]] = False  # pairs that would straddle two rows
-    lo = bounds[lo_idx[keep]]
-    hi = bounds[lo_idx[keep] + 1]
+    pieces = count + 1
+    rows = np.repeat(np.arange(n, dtype=np.int64), pieces)
+    lo = np.repeat(t_start, pieces)
+    hi = np.repeat(t_end, pieces)
+    # the j-th cut of a row ends that row's j-th piece and starts its next
+    at = (np.cumsum(pieces) - pieces)[sr] + np.arange(len(sr)) - (np.cumsum(count) - count)[sr]
+    hi[at] = st
+    lo[at + 1] = st
     nonempty = hi > lo
     return rows[nonempty], lo[nonempty], hi[nonempty]
 
