@@ -1,43 +1,14 @@
-"""Speed of (rational) Bézier pieces and their arc length by quadrature.
-
-Polynomial coefficients are built from forward differences of the control
-points (never from absolute coordinates), so tiny curves far from the origin
-keep their relative accuracy.
-"""
+"""Speed of (rational) Bézier pieces and their arc length by quadrature."""
 
 from __future__ import annotations
-
-from math import comb
 
 import numpy as np
 
 from pathlen.geometry import Beziers, FloatArray, IntArray, take_rows
 from pathlen.measure.closed_forms import EPS, quadratic_bezier_lengths
 from pathlen.measure.planar_cubic import hodograph_coefficients, planar_cubic_lengths
+from pathlen.measure.polynomial import horner, power_coefficients
 from pathlen.measure.quadrature import Integral, golden_minima, graded_splits, integrate_speed, split_intervals
-
-
-def power_coefficients(points: FloatArray) -> FloatArray:
-    """Power-basis coefficients of a Bézier with control points ``points[n, k+1, dim]``.
-
-    ``B(t) = sum_j c_j t^j`` with ``c_j = C(k, j) Δ^j P_0`` (forward differences).
-    """
-    k = points.shape[1] - 1
-    out = np.empty_like(points)
-    diff = points
-    for j in range(k + 1):
-        out[:, j] = comb(k, j) * diff[:, 0]
-        diff = np.diff(diff, axis=1)
-    return out
-
-
-def _horner(c: FloatArray, t: FloatArray) -> FloatArray:
-    """Evaluate ``sum_j c[:, j] t^j`` for ``c[m, k]`` and ``t[m, q]``."""
-    val = np.broadcast_to(c[:, -1, None], t.shape).copy()
-    for j in range(c.shape[1] - 2, -1, -1):
-        val *= t
-        val += c[:, j, None]
-    return val
 
 
 def _flat_dims(coeffs: FloatArray) -> int:
@@ -60,7 +31,7 @@ class PolynomialSpeed:
     def __call__(self, rows: IntArray, t: FloatArray) -> FloatArray:
         acc = None
         for c in self.coeffs:
-            x = _horner(take_rows(c, rows), t)
+            x = horner(take_rows(c, rows), t)
             acc = x * x if acc is None else acc + x * x
         return np.sqrt(acc)
 
@@ -87,11 +58,11 @@ class RationalSpeed:
         self.magnitude = np.sum(np.abs(c[:, :, :3]), axis=(1, 2)) / np.min(w, axis=1)
 
     def __call__(self, rows: IntArray, t: FloatArray) -> FloatArray:
-        w = _horner(take_rows(self.den, rows), t)
-        wd = _horner(take_rows(self.den_d, rows), t)
+        w = horner(take_rows(self.den, rows), t)
+        wd = horner(take_rows(self.den_d, rows), t)
         acc = None
         for c, cd in zip(self.num, self.num_d, strict=False):
-            x = _horner(take_rows(cd, rows), t) * w - _horner(take_rows(c, rows), t) * wd
+            x = horner(take_rows(cd, rows), t) * w - horner(take_rows(c, rows), t) * wd
             acc = x * x if acc is None else acc + x * x
         return np.sqrt(acc) / (w * w)
 
@@ -128,8 +99,8 @@ def cubic_speed_minima(ctrl: FloatArray) -> tuple[IntArray, FloatArray]:
     lo = cuts[:, :3].ravel()
     hi = cuts[:, 1:].ravel()
     gc = g[rows]
-    glo = _horner(gc, lo[:, None])[:, 0]
-    ghi = _horner(gc, hi[:, None])[:, 0]
+    glo = horner(gc, lo[:, None])[:, 0]
+    ghi = horner(gc, hi[:, None])[:, 0]
     sel = (glo < 0) & (ghi > 0)
     rows, lo, hi, gc = rows[sel], lo[sel], hi[sel], gc[sel]
     return rows.astype(np.int64), _bracketed_root(gc, lo, hi)
@@ -146,7 +117,7 @@ def _bracketed_root(g: FloatArray, lo: FloatArray, hi: FloatArray) -> FloatArray
     dg = g[:, 1:] * np.arange(1, g.shape[1])  # coefficients of g'
 
     def value(c: FloatArray, t: FloatArray) -> FloatArray:
-        return _horner(c, t[:, None])[:, 0]
+        return horner(c, t[:, None])[:, 0]
 
     for _ in range(12):
         if len(live) == 0:

@@ -41,6 +41,7 @@ from numpy.polynomial.legendre import leggauss
 
 from pathlen.geometry import FloatArray, IntArray, take_rows
 from pathlen.measure.closed_forms import EPS
+from pathlen.measure.polynomial import horner, power_coefficients
 from pathlen.measure.quadrature import split_intervals
 
 #: Gauss–Legendre orders tried, smallest first; intervals needing more are split.
@@ -387,16 +388,8 @@ def _take_accepted(acc: _Accepted, sel: np.ndarray) -> _Accepted:
 
 def _speed_sums(cx: FloatArray, cy: FloatArray, r: IntArray, t: FloatArray, weights: FloatArray) -> FloatArray:
     """``Σ_j weights[j] · |B'(t[i, j])|`` for curves ``r[i]`` (Horner on the power coefficients)."""
-    x = take_rows(cx, r)
-    y = take_rows(cy, r)
-    vx = x[:, 2, None] * t
-    vx += x[:, 1, None]
-    vx *= t
-    vx += x[:, 0, None]
-    vy = y[:, 2, None] * t
-    vy += y[:, 1, None]
-    vy *= t
-    vy += y[:, 0, None]
+    vx = horner(take_rows(cx, r), t)
+    vy = horner(take_rows(cy, r), t)
     vx *= vx
     vy *= vy
     vx += vy
@@ -463,17 +456,9 @@ _QUARTER_CHORDS = np.diff(np.array([[t ** (j + 1) / (j + 1) for t in np.linspace
 
 
 def hodograph_coefficients(ctrl: FloatArray) -> FloatArray:
-    """Power coefficients ``[n, 3, 2]`` of ``B'(t)`` for cubics ``ctrl[n, 4, ≥2]`` (x, y only), from
-    forward differences: ``B' = d0 + 2(d1 − d0) t + (d0 − 2 d1 + d2) t²``, ``d_j = 3 (P_{j+1} − P_j)``."""
-    out = np.empty((len(ctrl), 3, 2))
-    for axis in range(2):
-        p = np.ascontiguousarray(ctrl[:, :, axis])
-        d = p[:, 1:] - p[:, :-1]
-        d *= 3.0
-        out[:, 0, axis] = d[:, 0]
-        out[:, 1, axis] = 2.0 * (d[:, 1] - d[:, 0])
-        out[:, 2, axis] = (d[:, 2] - d[:, 1]) - (d[:, 1] - d[:, 0])
-    return out
+    """Power coefficients ``[n, 3, 2]`` of ``B'(t)`` for cubics ``ctrl[n, 4, ≥2]`` (x, y only): those of
+    the derivative's control points ``3 (P_{j+1} − P_j)``."""
+    return power_coefficients(3 * np.diff(ctrl[:, :, :2], axis=1))
 
 
 def length_floor(coeff: FloatArray) -> FloatArray:
