@@ -150,10 +150,12 @@ def run_batch(paths: list[str], settings: Any, jobs: int = 1,
 
     ``work`` never raises for bad input (it returns a failed result); ``jobs > 1`` runs on a
     process pool, ``jobs = 0`` uses every core.  A worker that dies fails its file only, with
-    ``failed(path, ok=False, error=...)`` as its result.
+    ``failed(path, ok=False, error=...)`` as its result.  Whoever does the work keeps BLAS to
+    one thread (:func:`single_blas_thread`).
     """
     workers = (os.cpu_count() or 1) if jobs == 0 else jobs
     if workers <= 1 or len(paths) == 1:
+        single_blas_thread()
         for i, p in enumerate(paths):
             yield i, work(p, settings)
         return

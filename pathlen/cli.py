@@ -14,7 +14,7 @@ import click
 from rich.console import Console
 from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
 
-from pathlen.batch import FileResult, MeasureSettings, find_drawings, measure_file, run_batch, single_blas_thread
+from pathlen.batch import FileResult, MeasureSettings, find_drawings, measure_file, run_batch
 from pathlen.errors import PathlenError
 from pathlen.export import OUTPUT_UNITS
 from pathlen.export import csv as csv_out
@@ -31,7 +31,6 @@ DRAWING_UNITS = tuple(sorted(k for k in MM_PER_UNIT if k not in ("px", "pt", "pc
 @click.version_option(package_name="pathlen")
 def main() -> None:
     """pathlen: exact path lengths from drawings, with error bounds."""
-    single_blas_thread()
 
 
 def reading_options(paths_required: bool = True) -> Callable[[Callable[..., Any]], Callable[..., Any]]:
