@@ -14,6 +14,7 @@ import numpy as np
 from pathlen.contours import DEFAULT_JOIN_TOL_MM, count_contours
 from pathlen.errors import PathlenError, UsageError
 from pathlen.importers import SUFFIXES, ImportOptions, read_drawing
+from pathlen.instances import DEFAULT_MAX_SEGMENTS, TooManySegments, expand
 from pathlen.measure import DEFAULT_RTOL, measure
 
 
@@ -24,6 +25,8 @@ class MeasureSettings:
     rtol: float = DEFAULT_RTOL
     join_tol_mm: float = DEFAULT_JOIN_TOL_MM
     import_options: ImportOptions = field(default_factory=ImportOptions)
+    #: most segments a drawing's copies may be written out to (for contours)
+    max_segments: int = DEFAULT_MAX_SEGMENTS
 
 
 @dataclass
@@ -53,6 +56,8 @@ class FileResult(FileOutcome):
     colors: dict[str, LayerTotal] = field(default_factory=dict)
     closed: int = 0
     open: int = 0
+    #: False when the copies were too many to write out (see ``max_segments``)
+    contours_counted: bool = True
     warnings: list[str] = field(default_factory=list)
 
 
@@ -101,27 +106,33 @@ def measure_file(path: str, settings: MeasureSettings = MeasureSettings()) -> Fi
 def _measure_file(path: str, settings: MeasureSettings) -> FileResult:
     drawing = read_drawing(Path(path), settings.import_options)
     result = measure(drawing, settings.rtol)
-    contours = count_contours(drawing, settings.join_tol_mm)
-    layers = _totals_by([e.layer for e in drawing.entities], result.entity_length, result.entity_bound)
-    colors = _totals_by([e.color for e in drawing.entities], result.entity_length, result.entity_bound)
-    colors.pop("", None)
     warnings = list(drawing.warnings)
+    try:
+        contours = count_contours(expand(drawing, settings.max_segments, "counting contours"), settings.join_tol_mm)
+    except TooManySegments as exc:
+        contours = None
+        warnings.append(f"contours not counted: {exc}; lengths are exact all the same")
+    copies = [e.copies for e in drawing.entities]
+    layers = _totals_by([e.layer for e in drawing.entities], result.entity_length, result.entity_bound, copies)
+    colors = _totals_by([e.color for e in drawing.entities], result.entity_length, result.entity_bound, copies)
+    colors.pop("", None)
     if result.unconverged:
         warnings.append(f"{result.unconverged} integration intervals did not reach the tolerance; "
                         "their error is included in the bound")
     return FileResult(
         path, ok=True, length_mm=float(np.sum(result.entity_length)),
         bound_mm=float(np.sum(result.entity_bound)), layers=layers, colors=colors,
-        closed=contours.closed, open=contours.open, warnings=warnings,
+        closed=contours.closed if contours else 0, open=contours.open if contours else 0,
+        contours_counted=contours is not None, warnings=warnings,
     )
 
 
-def _totals_by(keys: list[str], length: np.ndarray, bound: np.ndarray) -> dict[str, LayerTotal]:
-    """Per-key sums of entity lengths and bounds, keys sorted (one ``np.bincount`` per column)."""
+def _totals_by(keys: list[str], length: np.ndarray, bound: np.ndarray, copies: list[int]) -> dict[str, LayerTotal]:
+    """Per-key sums of entity lengths, bounds and counts (each entity counted ``copies`` times), keys sorted."""
     names, index = np.unique(np.array(keys, dtype=object), return_inverse=True) if keys else ([], [])
     lengths = np.bincount(index, weights=length, minlength=len(names))
     bounds = np.bincount(index, weights=bound, minlength=len(names))
-    counts = np.bincount(index, minlength=len(names))
+    counts = np.bincount(index, weights=np.array(copies, dtype=float), minlength=len(names))
     rows = zip(names, lengths, bounds, counts, strict=True)
     return {str(n): LayerTotal(float(a), float(b), int(c)) for n, a, b, c in rows}
 

@@ -160,6 +160,35 @@ class Entity:
     kind: str
     #: stroke colour as ``#rrggbb`` ("none", "other"); "" where the format has none to report
     color: str = ""
+    #: how many times the entity is drawn (instances of a block or ``<use>`` share one row)
+    copies: int = 1
+
+
+@dataclass(frozen=True)
+class Placement:
+    """Copies of a definition drawing (a DXF block, an SVG ``<use>`` target) in a parent drawing.
+
+    Copy ``k`` is ``definition`` under the 4x4 map ``matrices[k]``; with a ``grid`` (rows, columns,
+    row step, column step: a DXF MINSERT) each of those is repeated at the translations
+    ``i * row_step + j * column_step`` (mm, parent coordinates).  ``entity[e]`` is the parent's
+    entity row that stands for every copy of the definition's entity ``e``.
+    """
+
+    definition: Drawing
+    matrices: FloatArray
+    entity: IntArray
+    grid: tuple[int, int, FloatArray, FloatArray] | None = None
+
+    def copies(self) -> int:
+        """How many copies of the definition this placement draws (a Python int: never overflows)."""
+        rows, cols = (self.grid[0], self.grid[1]) if self.grid is not None else (1, 1)
+        return len(self.matrices) * rows * cols
+
+    def transformed(self, m: FloatArray) -> Placement:
+        grid = self.grid
+        if grid is not None:
+            grid = (grid[0], grid[1], apply_vectors(m, grid[2]), apply_vectors(m, grid[3]))
+        return Placement(self.definition, m @ self.matrices, self.entity, grid)
 
 
 @dataclass
@@ -173,16 +202,21 @@ class Drawing:
     warnings: list[str] = field(default_factory=list)
     #: entity kinds found but not measured (TEXT, HATCH ...), with counts
     skipped: Counter[str] = field(default_factory=Counter)
+    #: instances of other drawings (blocks, ``<use>`` targets), kept as a tree: see :mod:`pathlen.instances`
+    placements: list[Placement] = field(default_factory=list)
 
     def segment_count(self) -> int:
+        """Segments drawn explicitly here (not counting placements)."""
         return len(self.lines) + len(self.arcs) + sum(len(b) for b in self.beziers.values())
 
     def transformed(self, m: FloatArray) -> Drawing:
-        """The same drawing under the affine map ``m`` (used for unit scaling)."""
+        """The same drawing under the affine map ``m`` (used for unit scaling); placements are
+        composed with ``m``, their definitions shared."""
         return Drawing(
             self.lines.transformed(m), self.arcs.transformed(m),
             {d: b.transformed(m) for d, b in self.beziers.items()},
             self.entities, list(self.warnings), Counter(self.skipped),
+            [p.transformed(m) for p in self.placements],
         )
 
 
@@ -203,7 +237,8 @@ class SegmentCollector:
         self._lines: list[tuple] = []
         self._arcs: list[tuple] = []
         self._beziers: dict[int, list[tuple]] = {}
-        self._chunks: list[Drawing] = []
+        #: placements grouped by key: (definition, matrices, layer_of, handle prefix, grid)
+        self._placed: dict[object, tuple[Drawing, list[FloatArray], Callable[[str], str], str, tuple | None]] = {}
 
     def entity(self, layer: str, handle: str, kind: str) -> int:
         self.entities.append(Entity(layer, handle, kind))
@@ -233,20 +268,24 @@ class SegmentCollector:
         w = (1.0,) * (d + 1) if weights is None else tuple(weights)
         self._beziers.setdefault(d, []).append((ctrl, w, entity))
 
-    def add_drawing(self, sub: Drawing, m: FloatArray, layer_of: Callable[[str], str], handle_prefix: str) -> None:
-        """Append ``sub`` under affine map ``m``, re-homing its entities.
+    def add_placement(self, sub: Drawing, m: FloatArray, key: object, layer_of: Callable[[str], str],
+                      handle_prefix: str, grid: tuple[int, int, FloatArray, FloatArray] | None = None) -> None:
+        """Place ``sub`` under the affine map ``m`` (4x4), without copying its segments.
 
-        Each entity of ``sub`` gets a new row here with layer ``layer_of(layer)``
-        and handle ``handle_prefix + handle``.
+        Placements with one ``key`` (the same definition and inherited layer, say) share entity
+        rows: one per entity of ``sub``, with layer ``layer_of(layer)`` and handle ``handle_prefix +
+        handle``.  ``grid`` repeats the copy on a grid (see :class:`Placement`); a key with a grid is
+        never merged with another.
         """
-        base = len(self.entities)
-        self.entities.extend(
-            Entity(layer_of(e.layer), handle_prefix + e.handle, e.kind, e.color) for e in sub.entities
-        )
-        moved = sub.transformed(m)
-        self._chunks.append(_offset_entities(moved, base))
-        self.warn(*sub.warnings)
-        self.skipped.update(sub.skipped)
+        if grid is not None:
+            key = (key, len(self._placed))
+        entry = self._placed.get(key)
+        if entry is None:
+            self._placed[key] = (sub, [m], layer_of, handle_prefix, grid)
+            self.warn(*sub.warnings)
+            self.skipped.update(sub.skipped)
+        else:
+            entry[1].append(m)
 
     def warn(self, *messages: str) -> None:
         """Record warnings once each, in order."""
@@ -255,40 +294,24 @@ class SegmentCollector:
                 self.warnings.append(msg)
 
     def drawing(self) -> Drawing:
-        own = Drawing(
+        placements = []
+        for sub, matrices, layer_of, prefix, grid in self._placed.values():
+            base = len(self.entities)
+            p = Placement(sub, np.array(matrices, dtype=float).reshape(-1, 4, 4),
+                          np.arange(base, base + len(sub.entities), dtype=np.int64), grid)
+            n = p.copies()
+            self.entities.extend(Entity(layer_of(e.layer), prefix + e.handle, e.kind, e.color, e.copies * n)
+                                 for e in sub.entities)
+            placements.append(p)
+        return Drawing(
             lines=_lines_from(self._lines),
             arcs=_arcs_from(self._arcs),
             beziers={d: _beziers_from(rows, d) for d, rows in self._beziers.items()},
-            entities=[],
-        )
-        parts = [own, *self._chunks]
-        degrees = sorted({d for p in parts for d in p.beziers})
-        return Drawing(
-            lines=Lines(*(_cat([getattr(p.lines, f) for p in parts]) for f in ("p0", "p1", "entity"))),
-            arcs=EllipticArcs(*(_cat([getattr(p.arcs, f) for p in parts])
-                                for f in ("center", "u", "v", "t0", "t1", "entity"))),
-            beziers={
-                d: Beziers(*(_cat([getattr(p.beziers[d], f) for p in parts if d in p.beziers])
-                             for f in ("ctrl", "weights", "entity")))
-                for d in degrees
-            },
             entities=self.entities,
             warnings=self.warnings,
             skipped=self.skipped,
+            placements=placements,
         )
-
-
-def _cat(arrays: list[NDArray]) -> NDArray:
-    return arrays[0] if len(arrays) == 1 else np.concatenate(arrays)
-
-
-def _offset_entities(d: Drawing, base: int) -> Drawing:
-    return Drawing(
-        Lines(d.lines.p0, d.lines.p1, d.lines.entity + base),
-        EllipticArcs(d.arcs.center, d.arcs.u, d.arcs.v, d.arcs.t0, d.arcs.t1, d.arcs.entity + base),
-        {k: Beziers(b.ctrl, b.weights, b.entity + base) for k, b in d.beziers.items()},
-        [],
-    )
 
 
 def _ent(rows: list, k: int) -> IntArray:

@@ -11,6 +11,7 @@ import pytest
 from pathlen.batch import measure_file
 from pathlen.errors import InputError
 from pathlen.importers import ImportOptions, read_drawing
+from pathlen.instances import expand
 from pathlen.measure import measure
 
 
@@ -24,7 +25,7 @@ def measured(doc, tmp_path, name="t.dxf", **opts):
     path = tmp_path / name
     doc.saveas(path)
     drawing = read_drawing(path, ImportOptions(**opts))
-    return drawing, measure(drawing)
+    return expand(drawing), measure(drawing)  # copies measured as instances, written out for geometry checks
 
 
 def test_line_arc_circle(tmp_path):
@@ -193,15 +194,21 @@ def test_unsupported_entities_are_counted(tmp_path):
     assert "1 MTEXT entity not measured" in drawing.warnings
 
 
-def test_recursive_block_is_reported_not_fatal(tmp_path):
+@pytest.mark.parametrize("chain", [["SELF"], ["A", "B"], ["A", "B", "C"]])
+def test_block_cycle_fails_the_file_naming_the_chain(tmp_path, chain):
+    # DXF reference (BLOCK): a block may not reference itself, directly or through other blocks
     doc = new_doc()
-    blk = doc.blocks.new("SELF")
-    blk.add_line((0, 0), (1, 0))
-    blk.add_blockref("SELF", (2, 0))
-    doc.modelspace().add_blockref("SELF", (0, 0))
-    drawing, m = measured(doc, tmp_path)
-    assert m.length == 1.0
-    assert any("refers to itself" in w for w in drawing.warnings)
+    for name, nxt in zip(chain, [*chain[1:], chain[0]], strict=True):
+        blk = doc.blocks.new(name)
+        blk.add_line((0, 0), (1, 0))
+        blk.add_blockref(nxt, (2, 0))
+    doc.modelspace().add_blockref(chain[0], (0, 0))
+    path = tmp_path / "cycle.dxf"
+    doc.saveas(path)
+    result = measure_file(str(path))
+    assert not result.ok
+    steps = [f"{a!r} inserts {b!r}" for a, b in zip(chain, [*chain[1:], chain[0]], strict=True)]
+    assert result.error == f"block cycle: {', '.join(steps)}; a block cannot contain itself"
 
 
 @pytest.mark.parametrize("content", [b"", b"\x00\x01\x02\xff" * 100, b"0\nSECTION\n2\nENTITIES\n0\nLINE\n10\n",

@@ -253,11 +253,23 @@ def test_use_of_element_and_group_with_offsets(tmp_path):
     assert [e.layer for e in drawing.entities] == ["CUT", "COPIES", "COPIES"]
 
 
-def test_use_cycle_is_reported_not_followed(tmp_path):
-    body = '<g id="a"><line x2="5"/><use href="#b"/></g><g id="b"><use href="#a"/></g>'
+@pytest.mark.parametrize(("body", "expected"), [
+    # two groups using each other: both <use> elements are in the cycle; only g#a's own line is drawn
+    ('<g id="a"><line x2="5"/><use href="#b"/></g><g id="b"><use href="#a"/></g>', 5),
+    # a <use> of its own ancestor; the line is drawn once where it stands
+    ('<g id="a"><line x2="5"/><g><use href="#a" x="10"/></g></g>', 5),
+    # a <use> of itself
+    ('<line x2="5"/><use id="u" href="#u"/>', 5),
+    # a <use> outside the cycle still draws its target; the target's circular <use> draws nothing
+    ('<defs><g id="a"><line x2="5"/><use href="#b"/></g><g id="b"><use href="#a"/></g></defs>'
+     '<use href="#a"/><use href="#a" y="3"/>', 10),
+])
+def test_circular_use_is_not_rendered(tmp_path, body, expected):
+    # SVG 2, 5.6 (the 'use' element): a reference to the element itself or an ancestor, directly or
+    # through other <use> elements, is a circular reference error: that <use> is not rendered
     drawing, result = svg(tmp_path, body)
-    assert any("loops" in w for w in drawing.warnings)
-    assert result.length == pytest.approx(5 * 3)  # a, b -> a, and a -> b -> (a stops): three lines
+    assert any("circular reference" in w for w in drawing.warnings)
+    assert result.length == pytest.approx(expected, rel=1e-15)
 
 
 def test_layers_are_outermost_group_ids(tmp_path):

@@ -89,15 +89,22 @@ def test_huge_file_is_refused_before_reading(tmp_path):
     check_fails(big, "refused", "MB")
 
 
-def test_use_bomb_is_refused(tmp_path, monkeypatch):
-    # <use> of <use>: every level multiplies the copies (10 levels of 10 -> 10^10 segments if expanded).
-    monkeypatch.setattr(svg_module, "MAX_SEGMENTS", 50_000)
+def test_use_bomb_is_measured_exactly_as_instances(tmp_path):
+    # <use> of <use>: every level multiplies the copies (10 levels of 10 -> 10^10 copies of a 1 mm line).
+    # Each copy is a translation, and arc length is invariant under translation: the total is exactly
+    # 10^10 mm, found by measuring the line once, without writing out a copy.
     levels = ['<g id="u0"><line x2="1"/></g>'] + [
-        f'<g id="u{i}">' + f'<use href="#u{i - 1}"/>' * 10 + "</g>" for i in range(1, 10)]
+        f'<g id="u{i}">' + "".join(f'<use href="#u{i - 1}" x="{k}"/>' for k in range(10)) + "</g>"
+        for i in range(1, 11)]
     bomb = tmp_path / "usebomb.svg"
-    bomb.write_text(f'<svg xmlns="http://www.w3.org/2000/svg"><defs>{"".join(levels)}</defs>'
-                    '<use href="#u9"/></svg>')
-    check_fails(bomb, "segments", "refused")
+    bomb.write_text('<svg xmlns="http://www.w3.org/2000/svg" width="10mm" height="10mm" viewBox="0 0 10 10">'
+                    f'<defs>{"".join(levels)}</defs><use href="#u10"/></svg>')
+    result = measure_file(str(bomb))
+    assert result.ok
+    assert abs(result.length_mm - 1e10) <= max(result.bound_mm, 4e-16 * 1e10)  # mm per px rounds in the last bit
+    assert result.layers["u10"].count == 10**10
+    assert not result.contours_counted
+    assert any("10,000,000,000 segments, over the limit" in w for w in result.warnings)
 
 
 def test_pathological_path_data_is_linear(tmp_path):

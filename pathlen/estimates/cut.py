@@ -32,6 +32,7 @@ from pathlen.estimates.kinematics import junction_speed, move_times, sequence_ti
 from pathlen.estimates.tour import plan_tour
 from pathlen.estimates.waterjet import WaterjetInputs, waterjet_feed_mm_min
 from pathlen.importers import ImportOptions, read_drawing
+from pathlen.instances import DEFAULT_MAX_SEGMENTS, expand
 from pathlen.measure import DEFAULT_RTOL, measure
 from pathlen.nesting import contour_polygon, kerf_length_change, nesting_depth, offset_length_change
 from pathlen.profiles import Profile
@@ -53,6 +54,7 @@ class CutSettings:
     rtol: float = DEFAULT_RTOL
     home: tuple[float, float] = (0.0, 0.0)
     import_options: ImportOptions = field(default_factory=ImportOptions)
+    max_segments: int = DEFAULT_MAX_SEGMENTS
 
 
 @dataclass
@@ -110,7 +112,7 @@ def _role_of_entities(drawing_entities: list, s: CutSettings) -> np.ndarray:
 
 def _estimate(path: str, s: CutSettings) -> CutEstimate:
     p = s.profile
-    drawing = read_drawing(Path(path), s.import_options)
+    drawing = expand(read_drawing(Path(path), s.import_options), s.max_segments, "the cut estimate")
     measured = measure(drawing, s.rtol)
     table = segment_table(drawing, measured)
     layer_names, layer = segment_layers(drawing, table)

@@ -9,6 +9,7 @@ import numpy as np
 
 from pathlen.errors import InputError
 from pathlen.geometry import Drawing
+from pathlen.instances import definitions
 
 #: Coordinates beyond this many millimetres (1,000 km) are taken as a broken file.
 MAX_COORDINATE_MM = 1.0e9
@@ -45,11 +46,29 @@ def read_drawing(path: Path, options: ImportOptions = ImportOptions()) -> Drawin
 
 
 def check_geometry(drawing: Drawing) -> None:
-    """Reject non-finite or absurdly large coordinates, naming the first bad entity."""
+    """Reject non-finite or absurdly large coordinates, naming the first bad entity.
+
+    What is checked is what the file gave: end points and control points, and for arcs their
+    start, middle and end points and finite axes, never a derived centre (a nearly straight bulge
+    has its centre far away, legitimately).  Every definition placed by the drawing is checked once.
+    """
+    for d in definitions(drawing):
+        _check_own(d)
+        for p in d.placements:
+            if not np.all(np.isfinite(p.matrices)):
+                raise InputError("a block or <use> placement has a non-finite transformation")
+
+
+def _check_own(drawing: Drawing) -> None:
+    arcs = drawing.arcs
+    finite_axes = np.isfinite(arcs.u).all(axis=1) & np.isfinite(arcs.v).all(axis=1)
+    t0, t1 = np.where(finite_axes, arcs.t0, 0.0), np.where(finite_axes, arcs.t1, 0.0)
+    with np.errstate(invalid="ignore", over="ignore"):
+        arc_points = [arcs.points(t0), arcs.points((t0 + t1) / 2.0), arcs.points(t1)]
     arrays = [
         (drawing.lines.entity, (drawing.lines.p0, drawing.lines.p1)),
-        (drawing.arcs.entity, (drawing.arcs.center, drawing.arcs.u, drawing.arcs.v,
-                               drawing.arcs.t0[:, None], drawing.arcs.t1[:, None])),
+        (arcs.entity, (*arc_points, np.where(finite_axes, 0.0, np.nan)[:, None],
+                       arcs.t0[:, None], arcs.t1[:, None])),
         *((b.entity, (b.ctrl.reshape(len(b), -1), b.weights)) for b in drawing.beziers.values()),
     ]
     for entity, parts in arrays:

@@ -7,6 +7,7 @@ Entities on layer "0" inside a block take the layer of the INSERT placing it.
 
 from __future__ import annotations
 
+import itertools
 import math
 from collections.abc import Callable
 from pathlib import Path
@@ -89,7 +90,7 @@ class _DxfImporter:
     def __init__(self, doc: ezdxf.document.Drawing) -> None:
         self.doc = doc
         self.blocks: dict[str, Drawing] = {}
-        self.open_blocks: set[str] = set()
+        self.open_blocks: list[str] = []
 
     def add(self, entity: DXFGraphic, coll: SegmentCollector) -> None:
         kind = entity.dxftype()
@@ -105,34 +106,58 @@ class _DxfImporter:
                 coll.warn(f"{kind} #{entity.dxf.handle} skipped: {_first_line(exc)}")
 
     def add_insert(self, insert: Insert, coll: SegmentCollector) -> None:
+        """Place the block once per INSERT (a MINSERT as one placement with a grid); its geometry is
+        read once per block name, never copied."""
         name = insert.dxf.name
         block = self.block(name, coll)
         if block is None:
             return
         layer = insert.dxf.layer
-        prefix = f"{insert.dxf.handle}/"
-        placements = list(insert.multi_insert()) if insert.mcount > 1 else [insert]
-        for placed in placements:
-            rows = np.array(list(placed.matrix44().rows()), dtype=float)
-            coll.add_drawing(block, rows.T, lambda lay: layer if lay == "0" else lay, prefix)
+        rows = np.array(list(insert.matrix44().rows()), dtype=float)
+        if not np.all(np.isfinite(rows)):
+            coll.warn(f"INSERT #{insert.dxf.handle} of block {name!r} skipped: non-finite insertion point, "
+                      "scale or rotation")
+            return
+        coll.add_placement(block, rows.T, (name, layer), lambda lay: layer if lay == "0" else lay,
+                           f"{name}/", _minsert_grid(insert))
 
     def block(self, name: str, coll: SegmentCollector) -> Drawing | None:
         if name in self.blocks:
             return self.blocks[name]
         if name in self.open_blocks:
-            coll.warn(f"block {name!r} refers to itself: inner reference skipped")
-            return None
+            chain = [*self.open_blocks[self.open_blocks.index(name):], name]
+            steps = ", ".join(f"{a!r} inserts {b!r}" for a, b in itertools.pairwise(chain))
+            raise InputError(f"block cycle: {steps}; a block cannot contain itself")
         layout = self.doc.blocks.get(name)
         if layout is None:
             coll.warn(f"block {name!r} is not defined: INSERT skipped")
             return None
-        self.open_blocks.add(name)
+        self.open_blocks.append(name)
         sub = SegmentCollector()
         for entity in layout:
             self.add(entity, sub)
-        self.open_blocks.discard(name)
+        self.open_blocks.pop()
         self.blocks[name] = sub.drawing()
         return self.blocks[name]
+
+
+def _minsert_grid(insert: Insert) -> tuple[int, int, np.ndarray, np.ndarray] | None:
+    """A MINSERT's grid in WCS (rows, columns, row step, column step), or None for one copy.
+
+    As the DXF reference and ezdxf's ``multi_insert`` have it: steps along the block's rotated
+    OCS axes, not scaled; a zero spacing puts every copy of that direction in one place (drawn once).
+    """
+    rows, cols = int(insert.dxf.row_count), int(insert.dxf.column_count)
+    dy, dx = float(insert.dxf.row_spacing), float(insert.dxf.column_spacing)
+    rows, cols = (max(rows, 0) if dy else min(rows, 1)), (max(cols, 0) if dx else min(cols, 1))
+    if rows * cols == 1:
+        return None
+    ocs = insert.ocs()
+    angle = math.radians(insert.dxf.rotation)
+    c, s = math.cos(angle), math.sin(angle)
+    row_step = np.array(ocs.to_wcs((-s * dy, c * dy, 0.0)).xyz, dtype=float)
+    col_step = np.array(ocs.to_wcs((c * dx, s * dx, 0.0)).xyz, dtype=float)
+    return rows, cols, row_step, col_step
 
 
 def _entity(e: DXFGraphic, coll: SegmentCollector) -> int:

@@ -20,7 +20,7 @@ import math
 import xml.etree.ElementTree as ET
 from array import array
 from collections import Counter
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from functools import lru_cache
 from pathlib import Path
 
@@ -29,7 +29,7 @@ import defusedxml.ElementTree as SafeET
 import numpy as np
 
 from pathlen.errors import InputError
-from pathlen.geometry import Drawing, Entity
+from pathlen.geometry import Drawing, Entity, SegmentCollector, affine
 from pathlen.importers.svg_css import Rule, cascade, parse_stylesheet
 from pathlen.importers.svg_path import parse_careful, parse_many
 from pathlen.importers.svg_segments import ROW_WIDTH, RawSegments, full_ellipse, to_drawing
@@ -79,7 +79,6 @@ class _State:
     color: str
     visible: bool
     viewport: tuple[float, float]  # width, height in the current user units, for percentages
-    uses: tuple[str, ...] = ()  # ids of the <use> targets being expanded, to stop cycles
 
 
 def read_svg(path: Path, dpi: float | None = None) -> Drawing:
@@ -177,15 +176,31 @@ def _colour(stroke: str, color: str) -> str:
     return normalise_color(stroke, normalise_color(color))
 
 
+@dataclass
+class _Canvas:
+    """What one drawing collects: the document itself, or one ``<use>`` target in one context."""
+
+    raw: RawSegments = field(default_factory=RawSegments)
+    transforms: list[Affine2] = field(default_factory=list)
+    entities: list[Entity] = field(default_factory=list)
+    #: path elements drawn, parsed together at the end: (path data, entity, transform)
+    paths: list[tuple[str, int, int]] = field(default_factory=list)
+    #: copies of other definitions: (definition key, user units -> this canvas, handle prefix)
+    placements: list[tuple[tuple, Affine2, str]] = field(default_factory=list)
+
+
 class _Importer:
-    """One document's walk: element tree -> raw segments -> Drawing."""
+    """One document's walk: element tree -> raw segments -> Drawing.
+
+    A ``<use>`` does not copy its target: the target is drawn once per context that can change
+    what it reports (layer, stroke, colour, visibility, viewport) into a definition drawing of its
+    own, and placed there by the ``<use>``'s transform (see :mod:`pathlen.instances`).
+    """
 
     def __init__(self, root: ET.Element, dpi: float | None) -> None:
         self.root = root
         self.dpi = dpi
-        self.raw = RawSegments()
-        self.transforms: list[Affine2] = []
-        self.entities: list[Entity] = []
+        self.canvas = _Canvas()
         self.warnings: list[str] = []
         self.not_measured: Counter[str] = Counter()
         self.by_id: dict[str, ET.Element] = {}
@@ -193,8 +208,12 @@ class _Importer:
         self.drawn: set[int] = set()
         self.definitions: list[ET.Element] = []
         self.rules: list[Rule] = []
-        #: path elements drawn, parsed together at the end: (path data, entity, transform)
-        self.paths: list[tuple[str, int, int]] = []
+        #: ids (Python ``id``) of <use> elements in a circular reference (SVG 2, 5.6): never rendered
+        self.circular: set[int] = set()
+        #: definition drawings by key (target id, layer, stroke, colour, visibility, viewport)
+        self.defined: dict[tuple, Drawing] = {}
+        #: ids of the <use> targets being drawn, innermost last (a target met again is a cycle)
+        self.building: list[str] = []
 
     # -- set-up ---------------------------------------------------------------------------
     def run(self) -> Drawing:
@@ -209,6 +228,7 @@ class _Importer:
                 self.rules.extend(rules)
                 css_skipped += skipped
         self.rules.sort(key=lambda r: r.specificity)
+        self.circular = self.circular_uses()
         if css_skipped:
             self.warnings.append(f"{css_skipped} CSS selectors too complex to apply were ignored")
         top, viewport = self.root_transform()
@@ -216,11 +236,26 @@ class _Importer:
         state = _State(self.add_transform(top), None, props.get("stroke", "none"), props.get("color", "black"),
                        props.get("visibility", "visible") == "visible", viewport)
         self.walk_children(self.root, state)
+        drawing = self.finish_canvas()
+        self.report()
+        drawing.warnings.extend(self.warnings)
+        return drawing
+
+    def finish_canvas(self) -> Drawing:
+        """The current canvas as a Drawing, with its placements."""
         self.add_paths()
         self.drop_empty_entities()
-        self.report()
-        drawing = to_drawing(self.raw, np.array(self.transforms, dtype=float).reshape(-1, 6), self.entities)
-        drawing.warnings.extend(self.warnings)
+        c = self.canvas
+        drawing = to_drawing(c.raw, np.array(c.transforms, dtype=float).reshape(-1, 6), c.entities)
+        coll = SegmentCollector()
+        coll.entities = drawing.entities
+        for key, m, prefix in c.placements:
+            a, b, cc, d, e, f = m
+            matrix = affine([[a, cc], [b, d]], (e, f))
+            coll.add_placement(self.defined[key], matrix, key, lambda lay: lay, prefix)
+        placed = coll.drawing()
+        drawing.entities = placed.entities
+        drawing.placements = placed.placements
         return drawing
 
     def root_transform(self) -> tuple[Affine2, tuple[float, float]]:
@@ -281,12 +316,16 @@ class _Importer:
         return cascade(local_name(elem.tag), elem.attrib, self.rules)
 
     def add_transform(self, m: Affine2) -> int:
-        self.transforms.append(m)
-        return len(self.transforms) - 1
+        self.canvas.transforms.append(m)
+        return len(self.canvas.transforms) - 1
 
     def walk_children(self, parent: ET.Element, state: _State) -> None:
-        """Draw the children of ``parent`` in document order (iteratively: depth is bounded, not recursion)."""
-        stack: list[tuple[ET.Element, _State]] = [(c, state) for c in reversed(parent)]
+        """Draw the children of ``parent`` in document order."""
+        self.walk([(c, state) for c in parent])
+
+    def walk(self, items: list[tuple[ET.Element, _State]]) -> None:
+        """Draw elements in order, with their subtrees (iteratively: depth is bounded, not recursion)."""
+        stack = list(reversed(items))
         while stack:
             elem, st = stack.pop()
             for child_and_state in reversed(self.visit(elem, st)):
@@ -337,7 +376,7 @@ class _Importer:
         if tag == "svg":  # a nested viewport
             local, viewport = self.nested_viewport(elem, local, st.viewport)
         if local != IDENTITY:
-            transform = self.add_transform(compose(self.transforms[st.transform], local))
+            transform = self.add_transform(compose(self.canvas.transforms[st.transform], local))
         layer = st.layer
         if layer is None and tag == "g":
             layer = elem.get("id", "")
@@ -362,6 +401,11 @@ class _Importer:
         return compose(local, compose(place, fit)), (viewbox[2], viewbox[3])
 
     def use(self, elem: ET.Element, st: _State) -> list[tuple[ET.Element, _State]]:
+        """Place the target of a ``<use>``: drawn once per context as a definition, placed here by transform.
+
+        SVG 2 (5.6, the 'use' element): a reference to the ``<use>`` itself or to an ancestor, directly
+        or through other ``<use>`` elements, is an error and the ``<use>`` is not rendered.
+        """
         href = elem.get("href") or elem.get(XLINK_HREF) or ""
         if not href.startswith("#"):
             self.warn_element(elem, "use", f"reference {href[:40]!r} is not a local #id; not measured")
@@ -370,16 +414,19 @@ class _Importer:
         if target is None:
             self.warn_element(elem, "use", f"refers to missing {href!r}; not measured")
             return []
-        if href in st.uses or len(st.uses) >= MAX_USE_DEPTH:
-            self.warn_element(elem, "use", f"reference chain through {href!r} loops or is too deep; not expanded")
+        if id(elem) in self.circular or href[1:] in self.building:
+            self.warn_element(elem, "use", f"refers to {href!r}, which contains this <use> (a circular "
+                                           "reference): not rendered")
             return []
+        if len(self.building) >= MAX_USE_DEPTH:
+            self.warn_element(elem, "use", f"<use> references nested more than {MAX_USE_DEPTH} deep; not rendered")
+            return []
+        target_tag = local_name(target.tag)
         try:
             x = self.length(elem, "x", st.viewport[0])
             y = self.length(elem, "y", st.viewport[1])
-            m = self.transforms[st.transform]
-            m = compose(m, translate(x, y))
+            m = compose(self.canvas.transforms[st.transform], translate(x, y))
             viewport = st.viewport
-            target_tag = local_name(target.tag)
             if target_tag in ("symbol", "svg"):
                 local, viewport = self.nested_viewport(target, IDENTITY, st.viewport,
                                                        (elem.get("width"), elem.get("height")))
@@ -389,11 +436,64 @@ class _Importer:
         except BadValue as exc:
             self.warn_element(elem, "use", str(exc))
             return []
-        inner = replace(st, transform=self.add_transform(m), viewport=viewport, uses=(*st.uses, href))
+        inner = replace(st, viewport=viewport)
         if target_tag in ("symbol", "svg"):
             inner = _paint(inner, self.props(target))
-            return [(c, inner) for c in target]
-        return [(target, inner)]
+        key = (href[1:], inner.layer, inner.stroke, inner.color, inner.visible, inner.viewport)
+        if key not in self.defined:
+            self.define(key, target, inner)
+        self.canvas.placements.append((key, m, self.handle(elem, "use") + "/"))
+        return []
+
+    def define(self, key: tuple, target: ET.Element, inner: _State) -> None:
+        """Draw ``target`` (a symbol or nested svg: its children) on a canvas of its own."""
+        saved = self.canvas
+        self.canvas = _Canvas()
+        self.building.append(key[0])
+        try:
+            base = replace(inner, transform=self.add_transform(IDENTITY))
+            if local_name(target.tag) in ("symbol", "svg"):
+                self.walk_children(target, base)
+            else:
+                self.walk([(target, base)])
+            self.defined[key] = self.finish_canvas()
+        finally:
+            self.building.pop()
+            self.canvas = saved
+
+    def circular_uses(self) -> set[int]:
+        """The ``<use>`` elements that reference themselves, an ancestor, or anything that leads back to
+        them through other ``<use>`` elements (SVG 2, 5.6: in error, not rendered).
+
+        In the graph of element -> child and ``<use>`` -> target edges, child edges form a tree, so a
+        ``<use>`` is circular exactly when it lies on a cycle: in a strongly connected component of
+        more than one element, or referencing itself.  Linear in the number of elements.
+        """
+        uses = [e for e in self.root.iter() if local_name(e.tag) == "use"]
+        if not uses:
+            return set()
+        from scipy.sparse import coo_matrix
+        from scipy.sparse.csgraph import connected_components
+
+        src, dst, own = [], [], set()
+        for elem in self.root.iter():
+            k = self.ordinal[id(elem)]
+            for child in elem:
+                src.append(k)
+                dst.append(self.ordinal[id(child)])
+        for u in uses:
+            href = u.get("href") or u.get(XLINK_HREF) or ""
+            target = self.by_id.get(href[1:]) if href.startswith("#") else None
+            if target is u:
+                own.add(id(u))
+            elif target is not None:
+                src.append(self.ordinal[id(u)])
+                dst.append(self.ordinal[id(target)])
+        n = len(self.ordinal)
+        graph = coo_matrix((np.ones(len(src), dtype=np.int8), (src, dst)), shape=(n, n)).tocsr()
+        _, label = connected_components(graph, directed=True, connection="strong")
+        size = np.bincount(label)
+        return own | {id(u) for u in uses if size[label[self.ordinal[id(u)]]] > 1}
 
     # -- shapes ---------------------------------------------------------------------------
     def length(self, elem: ET.Element, name: str, percent_of: float, default: float = 0.0) -> float:
@@ -403,14 +503,14 @@ class _Importer:
         return parse_length(text, percent_of)[0]
 
     def shape(self, elem: ET.Element, tag: str, st: _State) -> None:
-        raw = self.raw
+        raw = self.canvas.raw
         w, h = st.viewport
         diagonal = math.hypot(w, h) / math.sqrt(2.0)  # SVG: percentages of radii use the normalised diagonal
         error = None
         if tag == "path":
-            self.paths.append((elem.get("d", ""), len(self.entities), st.transform))
+            self.canvas.paths.append((elem.get("d", ""), len(self.canvas.entities), st.transform))
             self.add_entity(elem, tag, st)
-            if len(self.paths) > MAX_SEGMENTS:
+            if len(self.canvas.paths) > MAX_SEGMENTS:
                 raise InputError(f"more than {MAX_SEGMENTS:,} paths after expanding <use>; file refused")
             return
         try:
@@ -435,14 +535,14 @@ class _Importer:
             error = f"{exc}; not measured"
         if error:
             self.warn_element(elem, tag, error)
-        if raw.tag(len(self.entities), st.transform):
+        if raw.tag(len(self.canvas.entities), st.transform):
             self.add_entity(elem, tag, st)
             if self.raw_count() > MAX_SEGMENTS:
                 raise InputError(f"more than {MAX_SEGMENTS:,} segments after expanding <use>; file refused")
 
     def add_entity(self, elem: ET.Element, tag: str, st: _State) -> None:
         """The entity row for a drawn shape: layer, handle, kind and stroke colour."""
-        self.entities.append(Entity(st.layer or "", self.handle(elem, tag), tag, _colour(st.stroke, st.color)))
+        self.canvas.entities.append(Entity(st.layer or "", self.handle(elem, tag), tag, _colour(st.stroke, st.color)))
         self.drawn.add(id(elem))
 
     def poly(self, text: str, closed: bool) -> str | None:
@@ -456,7 +556,7 @@ class _Importer:
         pts = list(zip(v[0::2], v[1::2], strict=True))
         if closed and len(pts) > 2 and pts[0] != pts[-1]:
             pts.append(pts[0])
-        rows = self.raw.rows["line"]
+        rows = self.canvas.raw.rows["line"]
         for (x0, y0), (x1, y1) in itertools.pairwise(pts):
             rows.extend((x0, y0, x1, y1))
         return error
@@ -470,7 +570,7 @@ class _Importer:
         rx, ry = self.length(elem, "rx", vw, -1.0), self.length(elem, "ry", vh, -1.0)
         rx, ry = (ry if rx < 0 else rx), (rx if ry < 0 else ry)
         rx, ry = min(max(rx, 0.0), w / 2.0), min(max(ry, 0.0), h / 2.0)
-        lines, ellipses = self.raw.rows["line"], self.raw.rows["ellipse"]
+        lines, ellipses = self.canvas.raw.rows["line"], self.canvas.raw.rows["ellipse"]
         if rx == 0.0 or ry == 0.0:
             lines.extend((x, y, x + w, y, x + w, y, x + w, y + h, x + w, y + h, x, y + h, x, y + h, x, y))
             return
@@ -487,19 +587,19 @@ class _Importer:
 
     def add_paths(self) -> None:
         """Parse every distinct path once, all together, then place each drawn copy (entity, transform)."""
-        if not self.paths:
+        if not self.canvas.paths:
             return
         distinct: dict[str, int] = {}
-        copy_of = np.array([distinct.setdefault(d, len(distinct)) for d, _, _ in self.paths], dtype=np.int64)
-        entity = np.array([e for _, e, _ in self.paths], dtype=np.int64)
-        transform = np.array([t for _, _, t in self.paths], dtype=np.int64)
+        copy_of = np.array([distinct.setdefault(d, len(distinct)) for d, _, _ in self.canvas.paths], dtype=np.int64)
+        entity = np.array([e for _, e, _ in self.canvas.paths], dtype=np.int64)
+        transform = np.array([t for _, _, t in self.canvas.paths], dtype=np.int64)
         texts = list(distinct)
         rows, ok = _parse_in_chunks(texts)
         for u in np.flatnonzero(~ok).tolist():
             one = RawSegments()
             error = parse_careful(texts[u], one)
             if error:
-                first = self.entities[int(entity[np.argmax(copy_of == u)])]
+                first = self.canvas.entities[int(entity[np.argmax(copy_of == u)])]
                 self.warnings.append(f"<path> {first.handle}: {error}")
             for kind, width in ROW_WIDTH.items():
                 extra = np.frombuffer(one.rows[kind], dtype=np.float64).reshape(-1, width)
@@ -514,25 +614,25 @@ class _Importer:
             r = r[np.argsort(owner, kind="stable")]  # rows of each distinct path together
             first = (np.cumsum(counts[kind]) - counts[kind])[copy_of]
             n = counts[kind][copy_of]
-            self.raw.add(kind, r[expand_ranges(copies, first, first + n)[:, 1]])
-            self.raw.entity[kind].frombytes(np.repeat(entity, n).tobytes())
-            self.raw.transform[kind].frombytes(np.repeat(transform, n).tobytes())
+            self.canvas.raw.add(kind, r[expand_ranges(copies, first, first + n)[:, 1]])
+            self.canvas.raw.entity[kind].frombytes(np.repeat(entity, n).tobytes())
+            self.canvas.raw.transform[kind].frombytes(np.repeat(transform, n).tobytes())
 
     def raw_count(self) -> int:
-        return sum(len(a) for a in self.raw.entity.values())
+        return sum(len(a) for a in self.canvas.raw.entity.values())
 
     def drop_empty_entities(self) -> None:
         """Forget entities that gave no segment (an empty path), renumbering the rest."""
-        tags = {k: np.frombuffer(a, dtype=np.int64) for k, a in self.raw.entity.items()}
-        used = np.zeros(len(self.entities), dtype=bool)
+        tags = {k: np.frombuffer(a, dtype=np.int64) for k, a in self.canvas.raw.entity.items()}
+        used = np.zeros(len(self.canvas.entities), dtype=bool)
         for t in tags.values():
             used[t] = True
         if used.all():
             return
         renumber = np.cumsum(used) - 1
         for k, t in tags.items():
-            self.raw.entity[k] = array("q", renumber[t].tobytes())
-        self.entities = [e for e, keep in zip(self.entities, used.tolist(), strict=True) if keep]
+            self.canvas.raw.entity[k] = array("q", renumber[t].tobytes())
+        self.canvas.entities = [e for e, keep in zip(self.canvas.entities, used.tolist(), strict=True) if keep]
 
     # -- reporting ------------------------------------------------------------------------
     def handle(self, elem: ET.Element, tag: str) -> str:
