@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import os
 from collections.abc import Callable, Iterable, Iterator
-from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -58,6 +57,8 @@ class FileResult(FileOutcome):
     open: int = 0
     #: False when the copies were too many to write out (see ``max_segments``)
     contours_counted: bool = True
+    #: read only through structural recovery of a damaged file (``--recover``)
+    recovered: bool = False
     warnings: list[str] = field(default_factory=list)
 
 
@@ -90,7 +91,9 @@ def one_line_failure(path: str, work: Callable[[], Any], failed: Callable[..., A
     except PathlenError as exc:
         return failed(path, ok=False, error=str(exc))
     except MemoryError:
-        return failed(path, ok=False, error="out of memory while reading this file")
+        limit = f"the memory limit of {_memory_limit_mb:,} MB per file (--max-memory)" if _memory_limit_mb else \
+            "the memory available"
+        return failed(path, ok=False, error=f"needed more than {limit}")
     except RecursionError:
         return failed(path, ok=False, error="structure nested too deeply")
     except Exception as exc:  # noqa: BLE001 - one bad file must not stop the batch
@@ -123,7 +126,7 @@ def _measure_file(path: str, settings: MeasureSettings) -> FileResult:
         path, ok=True, length_mm=float(np.sum(result.entity_length)),
         bound_mm=float(np.sum(result.entity_bound)), layers=layers, colors=colors,
         closed=contours.closed if contours else 0, open=contours.open if contours else 0,
-        contours_counted=contours is not None, warnings=warnings,
+        contours_counted=contours is not None, recovered=drawing.recovered, warnings=warnings,
     )
 
 
@@ -146,35 +149,170 @@ def single_blas_thread() -> None:
     threadpool_limits(limits=1, user_api="blas")
 
 
-def _one_thread_each() -> None:
-    """Pool workers already share the cores: no threads of their own inside."""
-    from pathlen.measure import planar_cubic
+#: Default limits per file (``--timeout``, ``--max-memory``).
+DEFAULT_TIMEOUT_S = 300.0
+DEFAULT_MAX_MEMORY_MB = 4096
 
-    planar_cubic.THREADS = 1
+
+@dataclass(frozen=True)
+class Limits:
+    """What one file may cost: wall time (s) and memory (MB) beyond what a worker starts with."""
+
+    timeout_s: float = DEFAULT_TIMEOUT_S
+    max_memory_mb: int = DEFAULT_MAX_MEMORY_MB
+
+
+#: The memory limit in force in this process (set in workers), for the out-of-memory message.
+_memory_limit_mb: int | None = None
+
+
+def _limit_memory(mb: int) -> None:
+    """Cap this process's address space at its present size plus ``mb`` megabytes (RLIMIT_AS: the
+    kernel refuses larger allocations, which Python raises as MemoryError)."""
+    global _memory_limit_mb
+    import resource
+
+    with open("/proc/self/status", encoding="ascii") as fh:
+        size_kb = next(int(line.split()[1]) for line in fh if line.startswith("VmSize:"))
+    cap = size_kb * 1024 + mb * 1024 * 1024
+    _soft, hard = resource.getrlimit(resource.RLIMIT_AS)
+    if hard != resource.RLIM_INFINITY:
+        cap = min(cap, hard)
+    resource.setrlimit(resource.RLIMIT_AS, (cap, hard))
+    _memory_limit_mb = mb
+
+
+def _worker(conn: Any, work: Callable[[str, Any], Any], settings: Any, limits: Limits, own_threads: bool) -> None:
+    """A worker process: measure the files it is sent, one at a time, under the memory limit."""
+    import signal
+
+    signal.signal(signal.SIGINT, signal.SIG_IGN)  # Ctrl-C is the parent's to handle
+    if not own_threads:
+        from pathlen.measure import planar_cubic
+
+        planar_cubic.THREADS = 1
     single_blas_thread()
+    try:
+        _limit_memory(limits.max_memory_mb)
+    except (OSError, ValueError, StopIteration):
+        pass  # no /proc or no rlimits here: the timeout still holds
+    while True:
+        try:
+            job = conn.recv()
+        except EOFError:
+            return
+        if job is None:
+            return
+        index, path = job
+        conn.send((index, work(path, settings)))
+
+
+class _Slot:
+    """One worker process and the file it is working on."""
+
+    def __init__(self, ctx: Any, work: Callable[[str, Any], Any], settings: Any, limits: Limits,
+                 own_threads: bool) -> None:
+        self.conn, child = ctx.Pipe()
+        self.process = ctx.Process(target=_worker, args=(child, work, settings, limits, own_threads), daemon=True)
+        self.process.start()
+        child.close()
+        self.index: int | None = None
+        self.started = 0.0
+
+    def give(self, index: int, path: str) -> None:
+        import time
+
+        self.index, self.started = index, time.monotonic()
+        self.conn.send((index, path))
+
+    def stop(self, kill: bool = False) -> None:
+        if kill:
+            self.process.kill()
+        else:
+            try:
+                self.conn.send(None)
+            except OSError:
+                self.process.kill()
+        self.process.join(5)
+        if self.process.is_alive():
+            self.process.kill()
+            self.process.join()
+        self.conn.close()
+
+
+def _death(process: Any) -> str:
+    import signal
+
+    code = process.exitcode
+    if code is not None and code < 0:
+        name = signal.Signals(-code).name if -code in signal.Signals._value2member_map_ else str(-code)
+        hint = " (killed: out of memory?)" if -code == signal.SIGKILL else ""
+        return f"the worker measuring this file died with signal {name}{hint}"
+    return f"the worker measuring this file exited unexpectedly (status {code})"
 
 
 def run_batch(paths: list[str], settings: Any, jobs: int = 1,
               work: Callable[[str, Any], Any] = measure_file,
-              failed: Callable[..., Any] = FileResult) -> Iterator[tuple[int, Any]]:
+              failed: Callable[..., Any] = FileResult, limits: Limits = Limits()) -> Iterator[tuple[int, Any]]:
     """Yield ``(index, work(path, settings))`` for every path as results finish.
 
-    ``work`` never raises for bad input (it returns a failed result); ``jobs > 1`` runs on a
-    process pool, ``jobs = 0`` uses every core.  A worker that dies fails its file only, with
-    ``failed(path, ok=False, error=...)`` as its result.  Whoever does the work keeps BLAS to
-    one thread (:func:`single_blas_thread`).
+    Every file is measured in a worker process (``jobs`` of them; 0: one per core) under
+    ``limits``: a file that runs past the timeout has its worker killed, one that needs more memory
+    fails with MemoryError inside its worker, and a worker that dies (out-of-memory killer, a crash
+    in a C library) fails its own file only; a new worker takes its place.  Failed files get
+    ``failed(path, ok=False, error=...)`` naming the limit.  The workers are started before this
+    returns (before any progress display starts its thread).
     """
-    workers = (os.cpu_count() or 1) if jobs == 0 else jobs
-    if workers <= 1 or len(paths) == 1:
-        single_blas_thread()
-        for i, p in enumerate(paths):
-            yield i, work(p, settings)
-        return
-    with ProcessPoolExecutor(max_workers=min(workers, len(paths)), initializer=_one_thread_each) as pool:
-        futures = {pool.submit(work, p, settings): i for i, p in enumerate(paths)}
-        for fut in as_completed(futures):
-            i = futures[fut]
-            try:
-                yield i, fut.result()
-            except Exception as exc:  # noqa: BLE001 - a dead worker fails its file only
-                yield i, failed(paths[i], ok=False, error=f"worker failed: {type(exc).__name__}")
+    import multiprocessing
+
+    workers = max(1, min((os.cpu_count() or 1) if jobs == 0 else jobs, len(paths)))
+    ctx = multiprocessing.get_context("fork")
+    spawn = lambda: _Slot(ctx, work, settings, limits, own_threads=workers == 1)  # noqa: E731
+    slots = [spawn() for _ in range(workers)]
+    return _drive(paths, slots, spawn, failed, limits)
+
+
+def _drive(paths: list[str], slots: list[_Slot], spawn: Callable[[], _Slot], failed: Callable[..., Any],
+           limits: Limits) -> Iterator[tuple[int, Any]]:
+    import time
+    from multiprocessing.connection import wait
+
+    queue = list(range(len(paths)))
+    queue.reverse()
+    try:
+        while True:
+            for slot in slots:
+                if slot.index is None and queue:
+                    i = queue.pop()
+                    slot.give(i, paths[i])
+            busy = [s for s in slots if s.index is not None]
+            if not busy:
+                return
+            now = time.monotonic()
+            soonest = min(s.started + limits.timeout_s for s in busy)
+            ready = wait([s.conn for s in busy] + [s.process.sentinel for s in busy], max(0.0, soonest - now))
+            for k, slot in enumerate(slots):
+                if slot.index is None:
+                    continue
+                i = slot.index
+                if slot.conn in ready:
+                    try:
+                        got, result = slot.conn.recv()
+                    except (EOFError, OSError):
+                        got, result = i, None
+                    if result is not None:
+                        slot.index = None
+                        yield got, result
+                        continue
+                if slot.process.sentinel in ready or slot.conn in ready:
+                    yield i, failed(paths[i], ok=False, error=_death(slot.process))
+                    slot.stop(kill=True)
+                    slots[k] = spawn()
+                elif time.monotonic() - slot.started >= limits.timeout_s:
+                    slot.stop(kill=True)
+                    yield i, failed(paths[i], ok=False,
+                                    error=f"stopped after {limits.timeout_s:g} s: the time limit per file (--timeout)")
+                    slots[k] = spawn()
+    finally:
+        for slot in slots:
+            slot.stop(kill=slot.index is not None)

@@ -2,11 +2,14 @@
 
 from __future__ import annotations
 
+import functools
 import io
+import math
 import os
 import sys
 import tempfile
 from collections.abc import Callable
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -14,7 +17,16 @@ import click
 from rich.console import Console
 from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
 
-from pathlen.batch import FileResult, MeasureSettings, find_drawings, measure_file, run_batch
+from pathlen.batch import (
+    DEFAULT_MAX_MEMORY_MB,
+    DEFAULT_TIMEOUT_S,
+    FileResult,
+    Limits,
+    MeasureSettings,
+    find_drawings,
+    measure_file,
+    run_batch,
+)
 from pathlen.errors import PathlenError
 from pathlen.export import OUTPUT_UNITS
 from pathlen.export import csv as csv_out
@@ -22,6 +34,7 @@ from pathlen.export import json as json_out
 from pathlen.export import table as table_out
 from pathlen.geometry import MM_PER_UNIT
 from pathlen.importers import ImportOptions
+from pathlen.instances import DEFAULT_MAX_SEGMENTS
 from pathlen.measure import DEFAULT_RTOL
 
 DRAWING_UNITS = tuple(sorted(k for k in MM_PER_UNIT if k not in ("px", "pt", "pc", "q")))
@@ -33,13 +46,54 @@ def main() -> None:
     """pathlen: exact path lengths from drawings, with error bounds."""
 
 
+@dataclass(frozen=True)
+class Reading:
+    """The options every command that reads drawings shares (see :func:`reading_options`)."""
+
+    paths: tuple[str, ...]
+    fmt: str
+    output: str | None
+    units: str
+    rtol: float
+    join_tol: float
+    jobs: int
+    import_options: ImportOptions
+    max_segments: int
+    limits: Limits
+    strict: bool
+
+    def files(self) -> list[str]:
+        """The drawing files named or found in folders; a usage error when there are none."""
+        return drawing_files(self.paths)
+
+
+def _finite(ctx: click.Context, param: click.Parameter, value: float | None) -> float | None:
+    if value is not None and not math.isfinite(value):
+        raise click.BadParameter("must be a finite number")
+    return value
+
+
 def reading_options(paths_required: bool = True) -> Callable[[Callable[..., Any]], Callable[..., Any]]:
-    """Options shared by every command that reads drawings."""
-    return lambda f: _with_options(f, paths_required)
+    """Options shared by every command that reads drawings, handed to the command as ``reading``."""
+    def decorate(f: Callable[..., Any]) -> Callable[..., Any]:
+        @functools.wraps(f)
+        def command(**kwargs: Any) -> Any:
+            reading = _reading(**{k: kwargs.pop(k) for k in _READING_KEYS})
+            return f(reading=reading, **kwargs)
+
+        for option in reversed(_reading_options(paths_required)):
+            command = option(command)
+        return command
+
+    return decorate
 
 
-def _with_options(f: Callable[..., Any], paths_required: bool) -> Callable[..., Any]:
-    options = [
+_READING_KEYS = ("paths", "fmt", "output", "units", "rtol", "drawing_units", "svg_dpi", "join_tol", "jobs",
+                 "max_segments", "timeout", "max_memory", "strict", "recover")
+
+
+def _reading_options(paths_required: bool) -> list[Callable[[Callable[..., Any]], Callable[..., Any]]]:
+    return [
         click.argument("paths", nargs=-1, required=paths_required),
         click.option("--format", "fmt", type=click.Choice(["table", "json", "csv"]), default="table",
                      show_default=True, help="Output format."),
@@ -52,24 +106,38 @@ def _with_options(f: Callable[..., Any], paths_required: bool) -> Callable[..., 
         click.option("--drawing-units", type=click.Choice(DRAWING_UNITS), default=None,
                      help="Units of DXF drawing coordinates, overriding $INSUNITS (unitless files are "
                           "otherwise taken as mm)."),
-        click.option("--svg-dpi", type=click.FloatRange(min=1.0), default=None,
+        click.option("--svg-dpi", type=click.FloatRange(min=1.0), default=None, callback=_finite,
                      help="Pixels per inch of SVG files sized in px or not sized at all (default 96, the CSS "
                           "value; some drawing programs export at 72 or 90)."),
-        click.option("--join-tol", type=float, default=0.01, show_default=True,
+        click.option("--join-tol", type=float, default=0.01, show_default=True, callback=_finite,
                      help="Distance in mm within which segment ends join into one contour."),
         click.option("--jobs", "-j", type=click.IntRange(min=0), default=1, show_default=True,
                      help="Worker processes (0: one per core)."),
+        click.option("--max-segments", type=click.IntRange(min=1), default=DEFAULT_MAX_SEGMENTS, show_default=True,
+                     help="Most segments a drawing's block and <use> copies are written out to, for contours and "
+                          "cut order (lengths never need it)."),
+        click.option("--timeout", type=click.FloatRange(min=0, min_open=True), default=DEFAULT_TIMEOUT_S,
+                     show_default=True, callback=_finite, help="Seconds one file may take; past it the file fails."),
+        click.option("--max-memory", type=click.IntRange(min=64), default=DEFAULT_MAX_MEMORY_MB, show_default=True,
+                     metavar="MB", help="Memory one file may take (MB); past it the file fails."),
+        click.option("--strict", is_flag=True, help="Fail a file on any warning (for automated pipelines)."),
+        click.option("--recover", is_flag=True,
+                     help="Measure what can be read of a damaged DXF file (refused by default)."),
     ]
-    for option in reversed(options):
-        f = option(f)
-    return f
 
 
-def check_reading_options(rtol: float, join_tol: float) -> None:
+def _reading(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rtol: float, drawing_units: str | None,
+             svg_dpi: float | None, join_tol: float, jobs: int, max_segments: int, timeout: float, max_memory: int,
+             strict: bool, recover: bool) -> Reading:
     if not 0 < rtol < 1:
         raise click.BadParameter("must lie between 0 and 1", param_hint="--rtol")
     if not join_tol >= 0:
         raise click.BadParameter("must not be negative", param_hint="--join-tol")
+    if output is not None and not (Path(output).parent or Path(".")).is_dir():
+        raise click.BadParameter(f"folder {str(Path(output).parent)!r} does not exist", param_hint="--output")
+    return Reading(paths, fmt, output, units, rtol, join_tol, jobs,
+                   ImportOptions(drawing_units, svg_dpi, recover), max_segments,
+                   Limits(timeout, max_memory), strict)
 
 
 def drawing_files(paths: tuple[str, ...]) -> list[str]:
@@ -81,16 +149,14 @@ def drawing_files(paths: tuple[str, ...]) -> list[str]:
 
 @main.command()
 @reading_options()
-def measure(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rtol: float,
-            drawing_units: str | None, svg_dpi: float | None, join_tol: float, jobs: int) -> None:
+def measure(reading: Reading) -> None:
     """Measure every path in the drawings PATHS (DXF or SVG files, or folders searched for them)."""
-    check_reading_options(rtol, join_tol)
-    files = drawing_files(paths)
-    settings = MeasureSettings(rtol=rtol, join_tol_mm=join_tol,
-                               import_options=ImportOptions(drawing_units, svg_dpi))
-    results = collect(files, settings, jobs)
-    emit(results, fmt, output, lambda console: table_out.render(results, units, console),
-         lambda: json_out.render(results, units) if fmt == "json" else csv_out.render(results, units))
+    r = reading
+    settings = MeasureSettings(rtol=r.rtol, join_tol_mm=r.join_tol, import_options=r.import_options,
+                               max_segments=r.max_segments)
+    results = collect(r.files(), settings, r)
+    emit(results, r.fmt, r.output, lambda console: table_out.render(results, r.units, console),
+         lambda: json_out.render(results, r.units) if r.fmt == "json" else csv_out.render(results, r.units))
 
 
 def emit(results: list[Any], fmt: str, output: str | None, table: Callable[[Console], None],
@@ -121,12 +187,13 @@ def emit(results: list[Any], fmt: str, output: str | None, table: Callable[[Cons
     sys.exit(1 if any(not r.ok for r in results) else 0)
 
 
-def collect(files: list[str], settings: Any, jobs: int, work: Callable[[str, Any], Any] = measure_file,
+def collect(files: list[str], settings: Any, reading: Reading, work: Callable[[str, Any], Any] = measure_file,
             failed: Callable[..., Any] = FileResult, verb: str = "measuring") -> list[Any]:
-    """Run the batch, with a progress bar when standard error is a terminal."""
+    """Run the batch under the reading's limits, with a progress bar when standard error is a terminal;
+    with ``--strict`` a file with warnings fails, its first warning as the reason."""
     results: list[Any] = [None] * len(files)
     console = Console(stderr=True)
-    batch = run_batch(files, settings, jobs, work, failed)
+    batch = run_batch(files, settings, reading.jobs, work, failed, reading.limits)
     if console.is_terminal and len(files) > 1:
         columns = (TextColumn(verb), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn())
         with Progress(*columns, console=console, transient=True) as bar:
@@ -137,7 +204,12 @@ def collect(files: list[str], settings: Any, jobs: int, work: Callable[[str, Any
     else:
         for i, r in batch:
             results[i] = r
-    return [r for r in results if r is not None]
+    done = [r for r in results if r is not None]
+    if reading.strict:
+        for r in done:
+            if r.ok and r.warnings:
+                r.ok, r.error = False, f"warning taken as an error (--strict): {r.warnings[0]}"
+    return done
 
 
 def write_atomic(path: str, text: str) -> None:

@@ -13,9 +13,8 @@ import click
 from rich.console import Console
 from rich.table import Table
 
-from pathlen.cli import check_reading_options, collect, drawing_files, emit, main, reading_options
+from pathlen.cli import Reading, collect, emit, main, reading_options
 from pathlen.errors import PathlenError
-from pathlen.importers import ImportOptions
 from pathlen.profiles import BUILTIN, Profile, load_profiles, write_setting
 
 if TYPE_CHECKING:
@@ -59,8 +58,7 @@ def _pick(profiles: dict[str, Profile], name: str | None) -> Profile:
               help="With --calibrate: thickness of the test cut (default: the profile's).")
 @click.option("--test-quality", type=click.FloatRange(1, 5), metavar="Q",
               help="With --calibrate: quality level 1-5 of the test cut (default: the profile's).")
-def cut(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rtol: float, drawing_units: str | None,
-        svg_dpi: float | None, join_tol: float, jobs: int, profile_name: str | None, profile_files: tuple[str, ...],
+def cut(reading: Reading, profile_name: str | None, profile_files: tuple[str, ...],
         quantity: int, layers: str | None, engrave: str | None, ignore: str | None, dedupe: bool,
         calibrate_speed: float | None, test_thickness: float | None, test_quality: float | None) -> None:
     """Estimate cutting time and cost of the drawings PATHS (DXF or SVG files, or folders) with a process
@@ -73,19 +71,19 @@ def cut(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rtol: 
     if calibrate_speed is not None:
         _calibrate(profile, calibrate_speed, test_thickness, test_quality)
         return
-    if not paths:
+    r = reading
+    if not r.paths:
         raise click.UsageError("Missing argument 'PATHS...': drawings or folders to estimate")
-    check_reading_options(rtol, join_tol)
     if engrave and profile.values.get("engrave_feed_mm_min") is None:
         raise click.UsageError(f"profile {profile.name!r} has no engrave_feed_mm_min, needed for --engrave")
-    files = drawing_files(paths)
+    files = r.files()
     settings = CutSettings(profile, quantity, _layer_list(layers), _layer_list(engrave), _layer_list(ignore), dedupe,
-                           join_tol, rtol=rtol, import_options=ImportOptions(drawing_units, svg_dpi))
-    results: list[CutEstimate] = collect(files, settings, jobs, estimate_file, CutEstimate, "estimating")
+                           r.join_tol, rtol=r.rtol, import_options=r.import_options, max_segments=r.max_segments)
+    results: list[CutEstimate] = collect(files, settings, r, estimate_file, CutEstimate, "estimating")
     notes = cautions(profile)
-    emit(results, fmt, output, lambda console: cut_out.render_table(results, units, profile, notes, console),
-         lambda: cut_out.render_json(results, units, profile, notes) if fmt == "json"
-         else cut_out.render_csv(results, units), notes)
+    emit(results, r.fmt, r.output, lambda console: cut_out.render_table(results, r.units, profile, notes, console),
+         lambda: cut_out.render_json(results, r.units, profile, notes) if r.fmt == "json"
+         else cut_out.render_csv(results, r.units), notes)
 
 
 def _calibrate(profile: Profile, speed: float, thickness: float | None, quality: float | None) -> None:

@@ -11,6 +11,7 @@ Conventions
 from __future__ import annotations
 
 import itertools
+import math
 from collections import Counter
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
@@ -42,6 +43,20 @@ MM_PER_UNIT: dict[str, float] = {
     "pt": 25.4 / 72.0,
     "pc": 25.4 / 6.0,
     "q": 0.25,
+    # the rest of the DXF $INSUNITS table: SI prefixes exact; astronomical unit (IAU 2012 B2), light
+    # year (IAU: c x Julian year) and parsec (IAU 2015 B2: 648000/pi au) by definition; US survey
+    # units from the US survey foot, 1200/3937 m (NIST SP 811, appendix B)
+    "angstrom": 1.0e-7,
+    "dam": 1.0e4,
+    "hm": 1.0e5,
+    "Gm": 1.0e12,
+    "au": 149_597_870_700_000.0,
+    "ly": 9_460_730_472_580_800_000.0,
+    "parsec": 149_597_870_700_000.0 * 648_000.0 / math.pi,
+    "us_ft": 1_200_000.0 / 3937.0,
+    "us_in": 100_000.0 / 3937.0,
+    "us_yd": 3_600_000.0 / 3937.0,
+    "us_mi": 6_336_000_000.0 / 3937.0,
 }
 
 
@@ -162,6 +177,8 @@ class Entity:
     color: str = ""
     #: how many times the entity is drawn (instances of a block or ``<use>`` share one row)
     copies: int = 1
+    #: on a layer the author switched off or froze: not measured unless asked for
+    hidden: bool = False
 
 
 @dataclass(frozen=True)
@@ -204,6 +221,8 @@ class Drawing:
     skipped: Counter[str] = field(default_factory=Counter)
     #: instances of other drawings (blocks, ``<use>`` targets), kept as a tree: see :mod:`pathlen.instances`
     placements: list[Placement] = field(default_factory=list)
+    #: read only through structural recovery of a damaged file
+    recovered: bool = False
 
     def segment_count(self) -> int:
         """Segments drawn explicitly here (not counting placements)."""
@@ -230,7 +249,9 @@ class SegmentCollector:
     transformed as arrays in one step.
     """
 
-    def __init__(self) -> None:
+    def __init__(self, hidden_layers: frozenset[str] = frozenset()) -> None:
+        #: layers whose entities are marked hidden (final layer names, after a block's layer "0" is mapped)
+        self.hidden_layers = hidden_layers
         self.entities: list[Entity] = []
         self.warnings: list[str] = []
         self.skipped: Counter[str] = Counter()
@@ -241,7 +262,7 @@ class SegmentCollector:
         self._placed: dict[object, tuple[Drawing, list[FloatArray], Callable[[str], str], str, tuple | None]] = {}
 
     def entity(self, layer: str, handle: str, kind: str) -> int:
-        self.entities.append(Entity(layer, handle, kind))
+        self.entities.append(Entity(layer, handle, kind, hidden=layer in self.hidden_layers))
         return len(self.entities) - 1
 
     def add_line(self, p0: Sequence[float], p1: Sequence[float], entity: int) -> None:
@@ -302,6 +323,9 @@ class SegmentCollector:
             n = p.copies()
             self.entities.extend(Entity(layer_of(e.layer), prefix + e.handle, e.kind, e.color, e.copies * n)
                                  for e in sub.entities)
+            if self.hidden_layers:
+                for e in self.entities[base:]:
+                    e.hidden = e.layer in self.hidden_layers
             placements.append(p)
         return Drawing(
             lines=_lines_from(self._lines),

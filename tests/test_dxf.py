@@ -8,7 +8,7 @@ import mpmath as mp
 import numpy as np
 import pytest
 
-from pathlen.batch import measure_file
+from pathlen.batch import MeasureSettings, measure_file
 from pathlen.errors import InputError
 from pathlen.importers import ImportOptions, read_drawing
 from pathlen.instances import expand
@@ -217,12 +217,15 @@ def test_bad_files_fail_with_one_line(tmp_path, content):
     path = tmp_path / "bad.dxf"
     path.write_bytes(content)
     result = measure_file(str(path))
-    if content.startswith(b"0\nSECTION"):  # truncated DXF: recovered, with a warning, nothing invented
-        assert result.ok and result.length_mm == 0.0
-        assert any("recovered" in w for w in result.warnings)
+    assert not result.ok
+    if content.startswith(b"0\nSECTION"):  # truncated DXF: refused by default, read with --recover
+        assert result.error.startswith("DXF damaged: ")
+        assert result.error.endswith("--recover measures what can be read")
+        recovered = measure_file(str(path), MeasureSettings(import_options=ImportOptions(recover=True)))
+        assert recovered.ok and recovered.length_mm == 0.0 and recovered.recovered
+        assert any("structural recovery" in w for w in recovered.warnings)
     else:
-        assert not result.ok
-        assert result.error == "not a DXF file (no DXF structure found)"
+        assert result.error == ("empty file" if not content else "not a DXF file (no DXF structure found)")
 
 
 def test_nan_and_absurd_coordinates_fail_the_file(tmp_path):

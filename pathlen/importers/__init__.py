@@ -24,6 +24,7 @@ class ImportOptions:
 
     drawing_units: str | None = None  # DXF: overrides $INSUNITS
     svg_dpi: float | None = None  # SVG sized in px or not sized: px per inch (None: 96, with a warning)
+    recover: bool = False  # DXF: measure what structural recovery can read of a damaged file
 
 
 def read_drawing(path: Path, options: ImportOptions = ImportOptions()) -> Drawing:
@@ -32,7 +33,7 @@ def read_drawing(path: Path, options: ImportOptions = ImportOptions()) -> Drawin
     if suffix == ".dxf":
         from pathlen.importers.dxf import read_dxf
 
-        drawing = read_dxf(path, options.drawing_units)
+        drawing = read_dxf(path, options.drawing_units, options.recover)
     elif suffix == ".svg":
         from pathlen.importers.svg import read_svg
 

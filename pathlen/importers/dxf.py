@@ -7,14 +7,18 @@ Entities on layer "0" inside a block take the layer of the INSERT placing it.
 
 from __future__ import annotations
 
+import io
 import itertools
+import logging
 import math
+import re
+import struct
 from collections.abc import Callable
 from pathlib import Path
 
 import ezdxf
 import numpy as np
-from ezdxf import recover
+from ezdxf import recover as ezdxf_recover
 from ezdxf.entities import DXFGraphic, Insert
 from ezdxf.lldxf.const import DXFError
 
@@ -25,52 +29,162 @@ from pathlen.importers.nurbs import SplineError, bezier_pieces
 #: ``$INSUNITS`` codes (DXF reference, header variables) -> unit names of
 #: :data:`~pathlen.geometry.MM_PER_UNIT`; codes absent here cannot be used.
 INSUNITS: dict[int, str] = {
-    1: "in", 2: "ft", 3: "mi", 4: "mm", 5: "cm", 6: "m", 7: "km", 8: "uin", 9: "mil",
-    10: "yd", 13: "um", 14: "dm",
+    1: "in", 2: "ft", 3: "mi", 4: "mm", 5: "cm", 6: "m", 7: "km", 8: "uin", 9: "mil", 10: "yd",
+    11: "angstrom", 12: "nm", 13: "um", 14: "dm", 15: "dam", 16: "hm", 17: "Gm", 18: "au", 19: "ly",
+    20: "parsec", 21: "us_ft", 22: "us_in", 23: "us_yd", 24: "us_mi",
 }
+#: Sections of a DXF file (DXF reference, "DXF Files"); any other name is a damaged file.
+KNOWN_SECTIONS = frozenset({"HEADER", "CLASSES", "TABLES", "BLOCKS", "ENTITIES", "OBJECTS", "THUMBNAILIMAGE",
+                            "ACDSDATA"})
+#: The header given to a file that has none, so that its entities are read with every group code
+#: (ezdxf reads a header-less file as R12 and drops what R12 did not have).  No $INSUNITS: unitless.
+MINIMAL_HEADER = "  0\nSECTION\n  2\nHEADER\n  9\n$ACADVER\n  1\nAC1027\n  0\nENDSEC\n"
 TWO_PI = 2.0 * math.pi
 
 
-def read_dxf(path: Path, drawing_units: str | None = None) -> Drawing:
+def read_dxf(path: Path, drawing_units: str | None = None, recover: bool = False,
+             hidden_layers: bool = False) -> Drawing:
     """Read a DXF file's model space.
 
-    ``drawing_units`` (a key of ``MM_PER_UNIT``) overrides ``$INSUNITS``;
-    without either the drawing is taken as millimetres, with a warning.
+    ``drawing_units`` (a key of ``MM_PER_UNIT``) overrides ``$INSUNITS``; without either the
+    drawing is taken as millimetres, with a warning.  A damaged file is refused unless
+    ``recover``.  Entities on layers that are off or frozen are marked hidden (measured only
+    with ``hidden_layers``: the caller decides).  ezdxf's own log messages become warnings.
     """
-    doc, notes = _load(path)
-    importer = _DxfImporter(doc)
-    coll = SegmentCollector()
-    coll.warn(*notes)
-    for entity in doc.modelspace():
-        importer.add(entity, coll)
-    drawing = coll.drawing()
+    with _LogCapture() as log:
+        doc, notes, recovered = _load(path, recover)
+        hidden = frozenset() if hidden_layers else _hidden_layers(doc)
+        importer = _DxfImporter(doc, hidden)
+        coll = SegmentCollector(hidden)
+        coll.warn(*notes)
+        for entity in doc.modelspace():
+            importer.add(entity, coll)
+        drawing = coll.drawing()
+    drawing.warnings.extend(log.messages)
+    drawing.recovered = recovered
     unit = drawing_units or _header_unit(doc, drawing)
     scale = MM_PER_UNIT[unit]
     return drawing if scale == 1.0 else drawing.transformed(affine(np.eye(3) * scale))
 
 
-def _load(path: Path) -> tuple[ezdxf.document.Drawing, list[str]]:
+class _LogCapture(logging.Handler):
+    """ezdxf's log records of WARNING and above, as one-line warnings of this file (not printed)."""
+
+    def __init__(self) -> None:
+        super().__init__(logging.WARNING)
+        self.messages: list[str] = []
+
+    def emit(self, record: logging.LogRecord) -> None:
+        text = _first_line(Exception(record.getMessage()))
+        message = f"DXF reader: {text}"
+        if message not in self.messages and len(self.messages) < 20:
+            self.messages.append(message)
+
+    def __enter__(self) -> _LogCapture:
+        self.logger = logging.getLogger("ezdxf")
+        self.saved = self.logger.propagate
+        self.logger.addHandler(self)
+        self.logger.propagate = False
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.logger.removeHandler(self)
+        self.logger.propagate = self.saved
+
+
+#: What ezdxf raises on files it cannot make sense of (besides OSError).
+_UNREADABLE = (DXFError, UnicodeError, ValueError, TypeError, IndexError, KeyError, OverflowError, AttributeError,
+               StopIteration, struct.error, EOFError)
+
+
+def _load(path: Path, recover: bool) -> tuple[ezdxf.document.Drawing, list[str], bool]:
+    """The document, notes for the report, and whether structural recovery was needed."""
     if not path.is_file():
         raise InputError("no such file" if not path.exists() else "not a regular file")
     try:
-        return ezdxf.readfile(path), []
+        doc = _read_whole(path)
+        damage = _damage(doc)
     except OSError as exc:
         if exc.strerror:
             raise InputError(f"cannot read file: {exc.strerror}") from None
         raise InputError("not a DXF file (no DXF structure found)") from None
-    except (DXFError, UnicodeError, ValueError, TypeError, IndexError, KeyError, OverflowError):
-        pass
+    except _UNREADABLE as exc:
+        damage = _plain_reason(exc)
+    if damage is None:
+        return doc, [], False
+    if not recover:
+        raise InputError(f"DXF damaged: {damage}; --recover measures what can be read")
     try:
-        doc, auditor = recover.readfile(path)
-    except (DXFError, UnicodeError, ValueError, TypeError, IndexError, KeyError, OverflowError) as exc:
-        raise InputError(f"not a readable DXF file ({_first_line(exc)})") from None
+        doc, auditor = ezdxf_recover.readfile(path)
+    except (*_UNREADABLE, OSError) as exc:
+        raise InputError(f"DXF structure not readable: {_plain_reason(exc)}") from None
     fixes = len(auditor.fixes) + len(auditor.errors)
-    return doc, [f"damaged DXF structure recovered ({fixes} repairs); check the result"]
+    return doc, [f"damaged DXF read by structural recovery ({damage}; {fixes} repairs): check the result"], True
+
+
+def _read_whole(path: Path) -> ezdxf.document.Drawing:
+    """ezdxf's reading, except that a text file without a HEADER section gets a minimal one."""
+    with path.open("rb") as fh:
+        head = fh.read(65536)
+    if not head.strip():
+        raise InputError("empty file")
+    binary = head.startswith(b"AutoCAD Binary DXF")
+    if not binary and _SECTION.search(head) is None:
+        raise InputError("not a DXF file (no DXF structure found)")
+    if binary or _HEADER_SECTION.search(head) is not None:
+        return ezdxf.readfile(path)
+    raw = path.read_bytes()
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError:
+        text = raw.decode("cp1252", errors="replace")
+    return ezdxf.read(io.StringIO(MINIMAL_HEADER + text.lstrip("\ufeff")))
+
+
+_HEADER_SECTION = re.compile(rb"(?m)^[ \t]*0[ \t]*\r?\n[ \t]*SECTION[ \t]*\r?\n"
+                             rb"[ \t]*2[ \t]*\r?\n[ \t]*HEADER[ \t]*\r?$")
+
+
+_SECTION = re.compile(rb"(?m)^[ \t]*0[ \t]*\r?\n[ \t]*SECTION[ \t]*\r?$")
+
+
+def _damage(doc: ezdxf.document.Drawing) -> str | None:
+    """What is wrong with a document ezdxf read without complaint, or None."""
+    unknown = sorted({str(s.entities[0][1].value) for s in doc.stored_sections
+                      if s.entities and len(s.entities[0]) > 1} - KNOWN_SECTIONS)
+    if unknown:
+        return f"unknown section {', '.join(repr(u[:40]) for u in unknown)} (a misspelt ENTITIES?)"
+    return None
+
+
+def _plain_reason(exc: BaseException) -> str:
+    """ezdxf's reason for refusing a file, in words a shop user can act on."""
+    if isinstance(exc, StopIteration | EOFError | struct.error):
+        return "the file ends early (truncated?)"
+    if isinstance(exc, UnicodeError):
+        return "text in an encoding that cannot be decoded"
+    if isinstance(exc, DXFError):
+        text = _first_line(exc).removeprefix(f"{type(exc).__name__}: ").rstrip(".")
+        return text + ("; file truncated?" if "missing" in text.lower() or "EOF" in text else "")
+    return f"not a DXF structure ({type(exc).__name__})"
 
 
 def _first_line(exc: BaseException) -> str:
     text = str(exc).strip().splitlines()
-    return text[0] if text else type(exc).__name__
+    return text[0][:200] if text else type(exc).__name__
+
+
+def _hidden_layers(doc: ezdxf.document.Drawing) -> frozenset[str]:
+    """Layers switched off or frozen in the layer table (DXF reference, LAYER: negative colour = off,
+    flag 1 = frozen)."""
+    out = set()
+    for layer in doc.layers:
+        try:
+            if layer.is_off() or layer.is_frozen():
+                out.add(layer.dxf.name)
+        except (AttributeError, ValueError, TypeError):
+            continue
+    return frozenset(out)
 
 
 def _header_unit(doc: ezdxf.document.Drawing, drawing: Drawing) -> str:
@@ -87,8 +201,9 @@ def _header_unit(doc: ezdxf.document.Drawing, drawing: Drawing) -> str:
 class _DxfImporter:
     """Walks entities, caching each block's geometry by name."""
 
-    def __init__(self, doc: ezdxf.document.Drawing) -> None:
+    def __init__(self, doc: ezdxf.document.Drawing, hidden: frozenset[str] = frozenset()) -> None:
         self.doc = doc
+        self.hidden = hidden
         self.blocks: dict[str, Drawing] = {}
         self.open_blocks: list[str] = []
 
@@ -133,7 +248,7 @@ class _DxfImporter:
             coll.warn(f"block {name!r} is not defined: INSERT skipped")
             return None
         self.open_blocks.append(name)
-        sub = SegmentCollector()
+        sub = SegmentCollector(self.hidden)
         for entity in layout:
             self.add(entity, sub)
         self.open_blocks.pop()
