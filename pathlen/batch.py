@@ -12,6 +12,7 @@ import numpy as np
 
 from pathlen.contours import DEFAULT_JOIN_TOL_MM, count_contours
 from pathlen.errors import PathlenError, UsageError
+from pathlen.geometry import Drawing, keep_entities
 from pathlen.importers import SUFFIXES, ImportOptions, read_drawing
 from pathlen.instances import DEFAULT_MAX_SEGMENTS, TooManySegments, expand
 from pathlen.measure import DEFAULT_RTOL, measure
@@ -110,24 +111,42 @@ def _measure_file(path: str, settings: MeasureSettings) -> FileResult:
     drawing = read_drawing(Path(path), settings.import_options)
     result = measure(drawing, settings.rtol)
     warnings = list(drawing.warnings)
+    shown = np.array([not e.hidden for e in drawing.entities], dtype=bool)
+    warnings.extend(hidden_note(drawing, result.entity_length))
     try:
-        contours = count_contours(expand(drawing, settings.max_segments, "counting contours"), settings.join_tol_mm)
+        flat = expand(drawing, settings.max_segments, "counting contours")
+        contours = count_contours(flat if shown.all() else keep_entities(flat, shown), settings.join_tol_mm)
     except TooManySegments as exc:
         contours = None
         warnings.append(f"contours not counted: {exc}; lengths are exact all the same")
-    copies = [e.copies for e in drawing.entities]
-    layers = _totals_by([e.layer for e in drawing.entities], result.entity_length, result.entity_bound, copies)
-    colors = _totals_by([e.color for e in drawing.entities], result.entity_length, result.entity_bound, copies)
+    entities = [e for e, s in zip(drawing.entities, shown.tolist(), strict=True) if s]
+    length, bound = result.entity_length[shown], result.entity_bound[shown]
+    copies = [e.copies for e in entities]
+    layers = _totals_by([e.layer for e in entities], length, bound, copies)
+    colors = _totals_by([e.color for e in entities], length, bound, copies)
     colors.pop("", None)
+    if not entities:
+        warnings.append("nothing measurable in this drawing: no lines, arcs or curves where they are drawn")
     if result.unconverged:
         warnings.append(f"{result.unconverged} integration intervals did not reach the tolerance; "
                         "their error is included in the bound")
     return FileResult(
-        path, ok=True, length_mm=float(np.sum(result.entity_length)),
-        bound_mm=float(np.sum(result.entity_bound)), layers=layers, colors=colors,
+        path, ok=True, length_mm=float(np.sum(length)), bound_mm=float(np.sum(bound)), layers=layers, colors=colors,
         closed=contours.closed if contours else 0, open=contours.open if contours else 0,
         contours_counted=contours is not None, recovered=drawing.recovered, warnings=warnings,
     )
+
+
+def hidden_note(drawing: Drawing, entity_length: np.ndarray) -> list[str]:
+    """A warning naming the layers switched off or frozen and the length left out on them (mm)."""
+    hidden = [i for i, e in enumerate(drawing.entities) if e.hidden]
+    if not hidden:
+        return []
+    names = sorted({drawing.entities[i].layer for i in hidden})
+    left_out = float(np.sum(entity_length[hidden]))
+    shown = ", ".join(repr(n) for n in names[:10]) + (f" and {len(names) - 10} more" if len(names) > 10 else "")
+    return [f"layer{'s' if len(names) > 1 else ''} {shown} off or frozen: {left_out:.3f} mm on "
+            f"{'them' if len(names) > 1 else 'it'} not measured (--hidden-layers includes them)"]
 
 
 def _totals_by(keys: list[str], length: np.ndarray, bound: np.ndarray, copies: list[int]) -> dict[str, LayerTotal]:
@@ -305,6 +324,7 @@ def _drive(paths: list[str], slots: list[_Slot], spawn: Callable[[], _Slot], fai
                         yield got, result
                         continue
                 if slot.process.sentinel in ready or slot.conn in ready:
+                    slot.process.join(5)  # the pipe can close a moment before the exit status is known
                     yield i, failed(paths[i], ok=False, error=_death(slot.process))
                     slot.stop(kill=True)
                     slots[k] = spawn()

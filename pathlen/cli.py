@@ -28,7 +28,7 @@ from pathlen.batch import (
     run_batch,
 )
 from pathlen.errors import PathlenError
-from pathlen.export import OUTPUT_UNITS
+from pathlen.export import OUTPUT_UNITS, plain
 from pathlen.export import csv as csv_out
 from pathlen.export import json as json_out
 from pathlen.export import table as table_out
@@ -89,7 +89,7 @@ def reading_options(paths_required: bool = True) -> Callable[[Callable[..., Any]
 
 
 _READING_KEYS = ("paths", "fmt", "output", "units", "rtol", "drawing_units", "svg_dpi", "join_tol", "jobs",
-                 "max_segments", "timeout", "max_memory", "strict", "recover")
+                 "max_segments", "timeout", "max_memory", "strict", "recover", "hidden_layers")
 
 
 def _reading_options(paths_required: bool) -> list[Callable[[Callable[..., Any]], Callable[..., Any]]]:
@@ -123,12 +123,14 @@ def _reading_options(paths_required: bool) -> list[Callable[[Callable[..., Any]]
         click.option("--strict", is_flag=True, help="Fail a file on any warning (for automated pipelines)."),
         click.option("--recover", is_flag=True,
                      help="Measure what can be read of a damaged DXF file (refused by default)."),
+        click.option("--hidden-layers", is_flag=True,
+                     help="Measure DXF layers that are switched off or frozen too (left out by default)."),
     ]
 
 
 def _reading(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rtol: float, drawing_units: str | None,
              svg_dpi: float | None, join_tol: float, jobs: int, max_segments: int, timeout: float, max_memory: int,
-             strict: bool, recover: bool) -> Reading:
+             strict: bool, recover: bool, hidden_layers: bool) -> Reading:
     if not 0 < rtol < 1:
         raise click.BadParameter("must lie between 0 and 1", param_hint="--rtol")
     if not join_tol >= 0:
@@ -136,7 +138,7 @@ def _reading(paths: tuple[str, ...], fmt: str, output: str | None, units: str, r
     if output is not None and not (Path(output).parent or Path(".")).is_dir():
         raise click.BadParameter(f"folder {str(Path(output).parent)!r} does not exist", param_hint="--output")
     return Reading(paths, fmt, output, units, rtol, join_tol, jobs,
-                   ImportOptions(drawing_units, svg_dpi, recover), max_segments,
+                   ImportOptions(drawing_units, svg_dpi, recover, hidden_layers), max_segments,
                    Limits(timeout, max_memory), strict)
 
 
@@ -165,7 +167,7 @@ def emit(results: list[Any], fmt: str, output: str | None, table: Callable[[Cons
     err = Console(stderr=True, highlight=False, soft_wrap=True)
     for r in results:
         if not r.ok:
-            err.print(f"[red]error[/red] {r.path}: {r.error}")
+            err.print(f"[red]error[/red] {plain(r.path)}: {plain(r.error)}")
     if fmt == "table":
         if output:
             buf = io.StringIO()
@@ -181,9 +183,9 @@ def emit(results: list[Any], fmt: str, output: str | None, table: Callable[[Cons
             click.echo(report, nl=False)
         for r in results:
             for w in r.warnings:
-                err.print(f"warning {r.path}: {w}")
+                err.print(f"warning {plain(r.path)}: {plain(w)}")
         for c in cautions or []:
-            err.print(f"caution: {c}")
+            err.print(f"caution: {plain(c)}")
     sys.exit(1 if any(not r.ok for r in results) else 0)
 
 

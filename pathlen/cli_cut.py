@@ -15,6 +15,7 @@ from rich.table import Table
 
 from pathlen.cli import Reading, collect, emit, main, reading_options
 from pathlen.errors import PathlenError
+from pathlen.export import plain
 from pathlen.profiles import BUILTIN, Profile, load_profiles, write_setting
 
 if TYPE_CHECKING:
@@ -126,7 +127,7 @@ def profiles(profile_files: tuple[str, ...]) -> None:
         v = p.values
         feed = cutting_feed_mm_min(p)
         origin = "built in" if Path(p.source).resolve() == BUILTIN.resolve() else p.source
-        table.add_row(p.name, v["process"], v["material"], f"{v['thickness_mm']:g}",
+        table.add_row(plain(p.name), plain(v["process"]), plain(v["material"]), f"{v['thickness_mm']:g}",
                       f"{feed:,.0f}" + (" (model)" if p.uses_waterjet_model else ""),
-                      f"{v['rate_per_hour']:g} {v['currency']}".strip(), origin)
+                      plain(f"{v['rate_per_hour']:g} {v['currency']}".strip()), plain(origin))
     Console(soft_wrap=False).print(table)

@@ -239,6 +239,20 @@ class Drawing:
         )
 
 
+def keep_entities(drawing: Drawing, keep: NDArray[np.bool_]) -> Drawing:
+    """The drawing's own segments whose entity row is kept (``keep[entity]``); placements dropped
+    (expand first).  The entity table is unchanged."""
+    lines, arcs = drawing.lines, drawing.arcs
+    kl, ka = keep[lines.entity], keep[arcs.entity]
+    return Drawing(
+        Lines(lines.p0[kl], lines.p1[kl], lines.entity[kl]),
+        EllipticArcs(arcs.center[ka], arcs.u[ka], arcs.v[ka], arcs.t0[ka], arcs.t1[ka], arcs.entity[ka]),
+        {d: Beziers(b.ctrl[keep[b.entity]], b.weights[keep[b.entity]], b.entity[keep[b.entity]])
+         for d, b in drawing.beziers.items()},
+        drawing.entities, drawing.warnings, drawing.skipped, recovered=drawing.recovered,
+    )
+
+
 class SegmentCollector:
     """Accumulates segments from an importer and freezes them into a :class:`Drawing`.
 

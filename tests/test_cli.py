@@ -54,8 +54,73 @@ def test_csv_rows(runner, square, tmp_path):
     res = runner.invoke(main, ["measure", str(square), "--format", "csv", "--output", str(out), "--units", "in"])
     assert res.exit_code == 0
     rows = list(csv.reader(io.StringIO(out.read_text())))
-    assert rows[0] == ["path", "layer", "length_in", "error_bound_in", "count"]
+    assert rows[0] == ["path", "layer", "length_in", "error_bound_in", "count", "ok", "error"]
     assert rows[1][1] == "CUT" and float(rows[1][2]) == pytest.approx(8 + math.pi, rel=1e-14)
+
+
+def test_csv_has_a_row_for_a_failed_file(runner, square, tmp_path):
+    bad = tmp_path / "broken.dxf"
+    bad.write_bytes(b"\x00garbage\xff")
+    res = runner.invoke(main, ["measure", str(bad), str(square), "--format", "csv"])
+    assert res.exit_code == 1
+    rows = list(csv.DictReader(io.StringIO(res.stdout)))
+    failed = [r for r in rows if r["path"] == str(bad)]
+    assert len(failed) == 1 and failed[0]["ok"] == "false" and failed[0]["error"]
+    assert failed[0]["length_mm"] == ""
+
+
+MARKUP = "part [v2] [bold]"
+
+
+@pytest.mark.parametrize("fmt", ["table", "json", "csv"])
+def test_text_from_drawings_is_never_console_markup(runner, tmp_path, fmt):
+    # A file name, layer name and error text holding rich markup: printed as the characters they are
+    import ezdxf
+
+    folder = tmp_path / MARKUP
+    folder.mkdir()
+    good = folder / f"{MARKUP}.svg"
+    good.write_text('<svg xmlns="http://www.w3.org/2000/svg" width="10mm" height="10mm" viewBox="0 0 10 10">'
+                    '<g id="CUT [/x]"><line x2="10"/></g></svg>')
+    doc = ezdxf.new()
+    doc.blocks.new("B [bold]").add_blockref("B [bold]", (0, 0))  # a block cycle: its error names the block
+    doc.modelspace().add_blockref("B [bold]", (0, 0))
+    bad = folder / f"bad {MARKUP}.dxf"
+    doc.saveas(bad)
+    res = runner.invoke(main, ["measure", str(good), str(bad), "--format", fmt])
+    assert res.exit_code == 1, res.output
+    assert isinstance(res.exception, SystemExit)
+    assert f"bad {MARKUP}.dxf: block cycle: 'B [bold]' inserts 'B [bold]'" in " ".join(res.stderr.split())
+    if fmt == "table":
+        flat = "".join(res.stdout.split())
+        assert "CUT[/x]" in flat and "[v2]" in flat
+
+
+def test_output_into_a_missing_folder_is_a_usage_error(runner, square, tmp_path):
+    res = runner.invoke(main, ["measure", str(square), "-o", str(tmp_path / "nowhere" / "r.json")])
+    assert res.exit_code == 2 and "does not exist" in res.output
+
+
+@pytest.mark.parametrize("option", [["--svg-dpi", "inf"], ["--join-tol", "nan"], ["--timeout", "inf"]])
+def test_non_finite_options_are_usage_errors(runner, square, option):
+    res = runner.invoke(main, ["measure", str(square), *option])
+    assert res.exit_code == 2
+
+
+def test_strict_fails_a_file_with_warnings(runner, tmp_path):
+    import ezdxf
+
+    doc = ezdxf.new()  # no $INSUNITS: a warning
+    doc.header["$INSUNITS"] = 0
+    doc.modelspace().add_line((0, 0), (10, 0))
+    path = tmp_path / "unitless.dxf"
+    doc.saveas(path)
+    assert runner.invoke(main, ["measure", str(path)]).exit_code == 0
+    res = runner.invoke(main, ["measure", str(path), "--strict", "--format", "json"])
+    assert res.exit_code == 1
+    entry = json.loads(res.stdout)["files"][0]
+    assert entry["ok"] is False
+    assert entry["error"].startswith("warning taken as an error (--strict): drawing has no units")
 
 
 def test_mixed_batch_reports_bad_file_and_goes_on(runner, square, tmp_path):

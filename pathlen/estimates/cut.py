@@ -17,7 +17,7 @@ from pathlib import Path
 
 import numpy as np
 
-from pathlen.batch import FileOutcome, one_line_failure
+from pathlen.batch import FileOutcome, hidden_note, one_line_failure
 from pathlen.contours import (
     DEFAULT_GAP_REPORT_MM,
     DEFAULT_JOIN_TOL_MM,
@@ -101,7 +101,7 @@ def _role_of_entities(drawing_entities: list, s: CutSettings) -> np.ndarray:
 
     roles = np.zeros(len(drawing_entities), dtype=np.int64)
     for i, e in enumerate(drawing_entities):
-        if hit(e, s.ignore):
+        if e.hidden or hit(e, s.ignore):
             continue
         if hit(e, s.engrave):
             roles[i] = 2
@@ -117,7 +117,7 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
     table = segment_table(drawing, measured)
     layer_names, layer = segment_layers(drawing, table)
     role = _role_of_entities(drawing.entities, s)[table.entity] if len(table) else np.zeros(0, dtype=np.int64)
-    warnings = list(drawing.warnings)
+    warnings = list(drawing.warnings) + hidden_note(drawing, measured.entity_length)
     keep = (role > 0) & (table.length > 0)  # a zero-length segment is nothing to cut (nor a pierce)
     duplicates = duplicate_segments(table, layer, s.join_tol_mm)
     duplicates = duplicates[keep[duplicates]]

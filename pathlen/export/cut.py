@@ -14,7 +14,7 @@ from rich.console import Console
 from rich.table import Table
 
 from pathlen.estimates.cut import CutEstimate
-from pathlen.export import from_mm
+from pathlen.export import from_mm, plain
 from pathlen.profiles import Profile
 
 TIME_KEYS = ("total", "cutting", "piercing", "rapids", "motion_losses", "setup")
@@ -93,10 +93,10 @@ def _clock(seconds: float) -> str:
 def render_table(results: list[CutEstimate], units: str, profile: Profile, cautions: list[str],
                  console: Console) -> None:
     v = profile.values
-    money = v["currency"] or "money"
+    money = plain(v["currency"] or "money")
     title = (f"Cut estimate: {profile.name} ({v['process']}, {v['material']}, {v['thickness_mm']:g} mm, "
              f"feed {results[0].feed_mm_min if results else 0:,.0f} mm/min)")
-    table = Table(title=title)
+    table = Table(title=plain(title))
     for name, justify in (("File", "left"), ("Qty", "right"), ("Contours closed/open", "right"),
                           ("Pierces", "right"), (f"Cut ({units})", "right"), (f"Rapid ({units})", "right"),
                           ("Time h:mm:ss", "right"), (f"Cost ({money})", "right")):
@@ -104,10 +104,10 @@ def render_table(results: list[CutEstimate], units: str, profile: Profile, cauti
     digits = 1 if units == "mm" else 2
     for r in results:
         if not r.ok:
-            table.add_row(r.path, str(r.quantity), "", "", "[red]failed[/red]", "", "", "")
+            table.add_row(plain(r.path), str(r.quantity), "", "", "[red]failed[/red]", "", "", "")
             continue
         cut_len, rapid_len = from_mm(r.cut_length_mm, units), from_mm(r.rapid_length_mm, units)
-        table.add_row(r.path, str(r.quantity), f"{r.closed}/{r.open}", str(r.pierces), f"{cut_len:,.{digits}f}",
+        table.add_row(plain(r.path), str(r.quantity), f"{r.closed}/{r.open}", str(r.pierces), f"{cut_len:,.{digits}f}",
                       f"{rapid_len:,.{digits}f}", _clock(r.time_s["total"]), f"{r.cost['total']:,.2f}")
     t = _total(results, units)
     table.add_section()
@@ -122,6 +122,6 @@ def render_table(results: list[CutEstimate], units: str, profile: Profile, cauti
                   f"{t['cost']['consumables']:,.2f}, setup {t['cost']['setup']:,.2f}.", highlight=False)
     for r in results:
         for w in r.warnings:
-            console.print(f"[yellow]warning[/yellow] {r.path}: {w}", highlight=False)
+            console.print(f"[yellow]warning[/yellow] {plain(r.path)}: {plain(w)}", highlight=False)
     for c in cautions:
-        console.print(f"[bold red]caution[/bold red] {c}", highlight=False)
+        console.print(f"[bold red]caution[/bold red] {plain(c)}", highlight=False)

@@ -18,7 +18,8 @@ def file_entry(r: FileResult, units: str) -> dict[str, Any]:
         "error_bound": from_mm(r.bound_mm, units),
         "layers": _totals(r.layers, units),
         "colors": _totals(r.colors, units),
-        "contours": {"closed": r.closed, "open": r.open},
+        "contours": {"closed": r.closed, "open": r.open} if r.contours_counted else {"closed": None, "open": None},
+        "recovered": r.recovered,
         "warnings": r.warnings,
     }
 

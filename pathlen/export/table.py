@@ -6,7 +6,7 @@ from rich.console import Console
 from rich.table import Table
 
 from pathlen.batch import FileResult
-from pathlen.export import from_mm
+from pathlen.export import from_mm, plain
 
 
 def fmt_length(mm: float, units: str) -> str:
@@ -28,16 +28,16 @@ def render(results: list[FileResult], units: str, console: Console) -> None:
     table.add_column("Contours closed/open", justify="right")
     for r in results:
         if not r.ok:
-            table.add_row(r.path, "", "", "[red]failed[/red]", "", "")
+            table.add_row(plain(r.path), "", "", "[red]failed[/red]", "", "")
             continue
-        table.add_row(r.path, "[b]all layers[/b]", str(sum(t.count for t in r.layers.values())),
+        table.add_row(plain(r.path), "[b]all layers[/b]", str(sum(t.count for t in r.layers.values())),
                       f"[b]{fmt_length(r.length_mm, units)}[/b]", fmt_bound(r.bound_mm, units),
-                      f"{r.closed}/{r.open}")
+                      f"{r.closed}/{r.open}" if r.contours_counted else "not counted")
         for name, t in r.layers.items():
-            table.add_row("", name or '(none)', str(t.count), fmt_length(t.length_mm, units),
+            table.add_row("", plain(name) if name else '(none)', str(t.count), fmt_length(t.length_mm, units),
                           fmt_bound(t.bound_mm, units), "")
         for colour, t in r.colors.items():
-            table.add_row("", f"[dim]stroke {colour}[/dim]", str(t.count), fmt_length(t.length_mm, units),
+            table.add_row("", f"[dim]stroke {plain(colour)}[/dim]", str(t.count), fmt_length(t.length_mm, units),
                           fmt_bound(t.bound_mm, units), "")
     total = sum(r.length_mm for r in results)
     bound = sum(r.bound_mm for r in results)
@@ -48,4 +48,4 @@ def render(results: list[FileResult], units: str, console: Console) -> None:
     console.print(table)
     for r in results:
         for w in r.warnings:
-            console.print(f"[yellow]warning[/yellow] {r.path}: {w}", highlight=False)
+            console.print(f"[yellow]warning[/yellow] {plain(r.path)}: {plain(w)}", highlight=False)

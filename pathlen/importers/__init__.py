@@ -25,6 +25,7 @@ class ImportOptions:
     drawing_units: str | None = None  # DXF: overrides $INSUNITS
     svg_dpi: float | None = None  # SVG sized in px or not sized: px per inch (None: 96, with a warning)
     recover: bool = False  # DXF: measure what structural recovery can read of a damaged file
+    hidden_layers: bool = False  # DXF: measure layers that are off or frozen too
 
 
 def read_drawing(path: Path, options: ImportOptions = ImportOptions()) -> Drawing:
@@ -33,7 +34,7 @@ def read_drawing(path: Path, options: ImportOptions = ImportOptions()) -> Drawin
     if suffix == ".dxf":
         from pathlen.importers.dxf import read_dxf
 
-        drawing = read_dxf(path, options.drawing_units, options.recover)
+        drawing = read_dxf(path, options.drawing_units, options.recover, options.hidden_layers)
     elif suffix == ".svg":
         from pathlen.importers.svg import read_svg
 

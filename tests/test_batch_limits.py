@@ -1,0 +1,66 @@
+"""Limits per file in a batch: a stalled file, a memory hog and a dying worker fail alone."""
+
+import json
+import os
+import signal
+import time
+
+import ezdxf
+import pytest
+
+from pathlen.batch import FileResult, Limits, MeasureSettings, measure_file, one_line_failure, run_batch
+from pathlen.cli import main
+
+
+def flaky_work(path: str, settings: MeasureSettings) -> FileResult:
+    """Measures real files; 'stall' sleeps in C, 'die' is killed as the out-of-memory killer would."""
+    name = os.path.basename(path)
+    if name == "stall.dxf":
+        time.sleep(3600)
+    if name == "die.dxf":
+        os.kill(os.getpid(), signal.SIGKILL)
+    if name == "hog.dxf":
+        return one_line_failure(path, lambda: bytearray(8 * 1024**3), FileResult)
+    return measure_file(path, settings)
+
+
+@pytest.fixture
+def good(tmp_path):
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 4
+    doc.modelspace().add_line((0, 0), (10, 0))
+    path = tmp_path / "good.dxf"
+    doc.saveas(path)
+    return str(path)
+
+
+@pytest.mark.parametrize("jobs", [1, 2])
+def test_stalled_dying_and_hungry_files_fail_alone(good, jobs):
+    paths = [good, "stall.dxf", good, "die.dxf", good, "hog.dxf", good]
+    start = time.monotonic()
+    results = dict(run_batch(paths, MeasureSettings(), jobs, flaky_work, FileResult,
+                             Limits(timeout_s=2.0, max_memory_mb=512)))
+    elapsed = time.monotonic() - start
+    assert sorted(results) == list(range(len(paths)))
+    for i in (0, 2, 4, 6):
+        assert results[i].ok and results[i].length_mm == 10.0
+    assert results[1].error == "stopped after 2 s: the time limit per file (--timeout)"
+    assert "died with signal SIGKILL" in results[3].error
+    assert results[5].error == "needed more than the memory limit of 512 MB per file (--max-memory)"
+    assert elapsed < 2.0 + 10.0  # the timeout plus a few seconds for the rest
+
+
+def test_memory_limit_stops_a_real_drawing(runner, good, tmp_path):
+    # 4 million circles by one MINSERT: written out for the contour count, far beyond 300 MB
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 4
+    doc.blocks.new("HOLE").add_circle((0, 0), 1.0)
+    doc.modelspace().add_blockref("HOLE", (0, 0), dxfattribs={
+        "row_count": 2000, "column_count": 2000, "row_spacing": 3.0, "column_spacing": 3.0})
+    big = tmp_path / "big.dxf"
+    doc.saveas(big)
+    res = runner.invoke(main, ["measure", good, str(big), "--max-memory", "300", "--format", "json"])
+    assert res.exit_code == 1
+    files = {os.path.basename(f["path"]): f for f in json.loads(res.stdout)["files"]}
+    assert files["good.dxf"]["ok"]
+    assert files["big.dxf"]["error"] == "needed more than the memory limit of 300 MB per file (--max-memory)"
