@@ -132,3 +132,34 @@ def test_denormal_scale_control_points_do_not_overflow():
     length, bound, _ = bezier_lengths(Beziers(ctrl, np.ones((1, 4)), np.zeros(1, dtype=np.int64)), 1e-9)
     assert length[0] == pytest.approx(1.5, rel=1e-12)
     assert abs(length[0] - float(bezier_length(ctrl[0]))) <= bound[0]
+
+
+@pytest.mark.parametrize(("degree", "rational"), [(8, False), (20, True), (36, False)])
+def test_high_degree_pieces_against_mpmath(degree, rational):
+    # reference: mpmath quadrature of the Bernstein-form speed at 28 digits (tests/reference.py)
+    rng = np.random.default_rng(degree + rational)
+    ctrl = np.cumsum(rng.normal(size=(1, degree + 1, 3)) * [10, 10, 0], axis=1)
+    weights = rng.uniform(0.5, 2.0, size=(1, degree + 1)) if rational else None
+    length, bound, unconverged = bezier_lengths(_batch(ctrl, weights), 1e-9)
+    refs = [bezier_length(c, None if weights is None else weights[i]) for i, c in enumerate(ctrl)]
+    assert unconverged == 0
+    assert_bound_holds(length, bound, ctrl, refs, 1e-9)
+
+
+def test_work_per_curve_is_bounded_when_the_speed_is_noise():
+    # A speed that cannot be integrated to the tolerance (random rounding-like noise): the integrator
+    # stops at its interval budget with an honest estimate in the bound instead of growing without end
+    from pathlen.measure.quadrature import MAX_INTERVALS_PER_CURVE, integrate_speed
+
+    rng = np.random.default_rng(7)
+
+    def noisy(rows, t):
+        return 1.0 + 1e-6 * rng.standard_normal(t.shape)
+
+    n = 3
+    rows = np.arange(n)
+    out = integrate_speed(noisy, n, rows, np.zeros(n), np.ones(n), np.ones(n), 1e-12)
+    assert out.unconverged > 0
+    assert out.evaluations <= 15 * 2 * MAX_INTERVALS_PER_CURVE * n
+    np.testing.assert_allclose(out.value, 1.0, atol=1e-6)  # ∫_0^1 1 dt, noise averaged by the rule
+    assert np.all(out.bound > 0)

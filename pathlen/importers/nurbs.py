@@ -1,17 +1,18 @@
-"""Split a (rational) B-spline into Bézier pieces by knot insertion.
+"""Split a (rational) B-spline into Bézier pieces.
 
 Works in homogeneous coordinates ``(w·P, w)``, so rational splines split
-exactly.  Clamped and unclamped knot vectors are both handled: every distinct
-knot value in the valid domain ``[U[p], U[m-p]]`` is raised to multiplicity
-``p`` (Boehm's algorithm), after which the control points of span
-``[U[k], U[k+1])`` are ``P[k-p .. k]``.
+exactly.  Clamped and unclamped knot vectors are both handled: each non-empty
+span ``[a, b) = [U[k], U[k+1])`` of the valid domain ``[U[p], U[m-p]]`` depends
+on ``P[k-p .. k]`` only, and its Bézier control points are the blossom values
+``f(a, .., a, b, .., b)`` (``p - i`` times ``a``, ``i`` times ``b``), each found by
+de Boor's recursion with ``a`` or ``b`` at each level (Ramshaw's blossoming; the
+same numbers knot insertion would give).  All spans at once: work linear in
+the number of spans, ``p²(p+1)`` array steps in all.
 """
 
 from __future__ import annotations
 
-import bisect
 import itertools
-from collections import Counter
 
 import numpy as np
 
@@ -52,29 +53,27 @@ def bezier_pieces(ctrl: FloatArray, knots: FloatArray, degree: int, weights: Flo
         raise SplineError("empty knot domain")
     if len(pts[0]) != 3:
         raise SplineError("control points must be 3-D")
-    homog = [[x * wi, y * wi, z * wi, wi] for (x, y, z), wi in zip(pts, w, strict=True)]
-    homog, knot_list = _raise_to_bezier(homog, knot_list, p, lo, hi)
-    spans = [k for k in range(p, len(knot_list) - p - 1) if knot_list[k + 1] > knot_list[k]]
-    h = np.array([homog[k - p:k + 1] for k in spans], dtype=float).reshape(len(spans), p + 1, 4)
+    homog = np.array(pts, dtype=float) * np.array(w)[:, None]
+    homog = np.concatenate([homog, np.array(w)[:, None]], axis=1)
+    h = _span_beziers(homog, np.array(knot_list, dtype=float), p)
     return h[:, :, :3] / h[:, :, 3:], h[:, :, 3]
 
 
-def _raise_to_bezier(points: list[list[float]], knots: list[float], p: int, lo: float, hi: float
-                     ) -> tuple[list[list[float]], list[float]]:
-    """Boehm's insertion on plain lists (splines are short: list steps beat numpy calls here):
-    every distinct knot in ``[lo, hi]`` raised to multiplicity ``p``."""
-    multiplicity = Counter(knots)
-    for u in sorted(multiplicity):
-        if not lo <= u <= hi:
-            continue
-        for s in range(multiplicity[u], p):  # s: the multiplicity of u before this insertion
-            k = bisect.bisect_right(knots, u) - 1
-            new = points[: k - p + 1]
-            for i in range(k - p + 1, k - s + 1):
-                den = knots[i + p] - knots[i]
-                a = 0.0 if den == 0 else (u - knots[i]) / den
-                new.append([a * x + (1.0 - a) * y for x, y in zip(points[i], points[i - 1], strict=True)])
-            new.extend(points[k - s:])
-            points = new
-            knots.insert(k + 1, u)
-    return points, knots
+def _span_beziers(homog: FloatArray, knots: FloatArray, p: int) -> FloatArray:
+    """``[spans, p+1, 4]`` homogeneous Bézier control points of every non-empty span, by blossoming."""
+    k = np.arange(p, len(knots) - p - 1)
+    k = k[knots[k + 1] > knots[k]]
+    a, b = knots[k], knots[k + 1]
+    local = homog[k[:, None] - p + np.arange(p + 1)]  # [S, p+1, 4]: P[k-p .. k]
+    out = np.empty((len(k), p + 1, 4))
+    for i in range(p + 1):
+        d = local.copy()
+        for r in range(1, p + 1):
+            u = a if r <= p - i else b
+            j = np.arange(r, p + 1)
+            left = knots[k[:, None] - p + j]
+            right = knots[k[:, None] + 1 + j - r]
+            alpha = ((u[:, None] - left) / (right - left))[:, :, None]
+            d[:, r:] = (1.0 - alpha) * d[:, r - 1:-1] + alpha * d[:, r:]
+        out[:, i] = d[:, p]
+    return out

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 from pathlen.geometry import Beziers, FloatArray, IntArray, take_rows
@@ -65,6 +67,57 @@ class RationalSpeed:
             x = horner(take_rows(cd, rows), t) * w - horner(take_rows(c, rows), t) * wd
             acc = x * x if acc is None else acc + x * x
         return np.sqrt(acc) / (w * w)
+
+
+#: From this degree on, speeds are evaluated in the Bernstein basis: the power basis loses about
+#: ``2**degree`` in relative accuracy (its coefficients grow like binomials and cancel).
+BERNSTEIN_DEGREE = 8
+
+
+class BernsteinSpeed:
+    """|C'(t)| of (rational) Béziers of high degree, evaluated in the Bernstein basis.
+
+    ``C = N / W`` with ``N = Σ w_i (P_i − P_0) B_i``, ``W = Σ w_i B_i`` and their derivatives from
+    control-point differences; every basis value is a positive product, so a sum errs by at most
+    about ``(d + 2)`` units in the last place of ``Σ |coefficient| · B_i`` (no cancellation in the
+    basis, unlike power coefficients).
+    """
+
+    def __init__(self, ctrl: FloatArray, weights: FloatArray) -> None:
+        d = ctrl.shape[1] - 1
+        self.degree = d
+        rel = ctrl - ctrl[:, :1]
+        self.dims = 2 if not np.any(rel[:, :, 2]) else 3
+        w = weights
+        self.num = (rel * w[:, :, None])[:, :, :self.dims]  # [n, d+1, dims]
+        self.den = w
+        self.num_d = d * np.diff(self.num, axis=1)  # [n, d, dims]
+        self.den_d = d * np.diff(w, axis=1)
+        self.rational = bool(np.any(w != w[:, :1]))
+        wmax, wmin = np.max(w, axis=1), np.min(w, axis=1)
+        size = np.max(np.linalg.norm(rel, axis=2), axis=1)
+        self.magnitude = 4.0 * (d + 2) * d * size * (wmax / wmin) ** 2
+
+    @staticmethod
+    def _basis(k: int, t: FloatArray) -> FloatArray:
+        """Bernstein basis of degree ``k`` at ``t[...]``: ``[..., k+1]``."""
+        i = np.arange(k + 1)
+        binom = np.array([math.comb(k, j) for j in range(k + 1)], dtype=float)
+        tt = t[..., None]
+        return binom * tt ** i * (1.0 - tt) ** (k - i)
+
+    def __call__(self, rows: IntArray, t: FloatArray) -> FloatArray:
+        d = self.degree
+        lower = self._basis(d - 1, t)  # [m, q, d]
+        nd = np.einsum("mqi,mic->mqc", lower, take_rows(self.num_d, rows))
+        if not self.rational:
+            return np.linalg.norm(nd, axis=2) / take_rows(self.den, rows)[:, :1]
+        full = self._basis(d, t)
+        n = np.einsum("mqi,mic->mqc", full, take_rows(self.num, rows))
+        w = np.einsum("mqi,mi->mq", full, take_rows(self.den, rows))
+        wd = np.einsum("mqi,mi->mq", lower, take_rows(self.den_d, rows))
+        x = nd * w[:, :, None] - n * wd[:, :, None]
+        return np.linalg.norm(x, axis=2) / (w * w)
 
 
 def cubic_speed_minima(ctrl: FloatArray) -> tuple[IntArray, FloatArray]:
@@ -164,7 +217,8 @@ def bezier_lengths(batch: Beziers, rtol: float) -> tuple[FloatArray, FloatArray,
             idx = _planar_first(batch.ctrl, idx, rtol, length, bound)
         if len(idx):
             ctrl = batch.ctrl[idx]
-            speed = PolynomialSpeed(ctrl)
+            speed = BernsteinSpeed(ctrl, batch.weights[idx]) if batch.degree >= BERNSTEIN_DEGREE \
+                else PolynomialSpeed(ctrl)
             if batch.degree == 3:
                 mr, mt = cubic_speed_minima(ctrl)
             else:
@@ -175,7 +229,8 @@ def bezier_lengths(batch: Beziers, rtol: float) -> tuple[FloatArray, FloatArray,
     idx = np.nonzero(rational)[0]
     if len(idx):
         ctrl = batch.ctrl[idx]
-        speed_r = RationalSpeed(ctrl, batch.weights[idx])
+        speed_r = BernsteinSpeed(ctrl, batch.weights[idx]) if batch.degree >= BERNSTEIN_DEGREE \
+            else RationalSpeed(ctrl, batch.weights[idx])
         mr, mt = golden_minima(speed_r, len(idx))
         u = _integrate(speed_r, ctrl, mr, mt, rtol)
         length[idx], bound[idx] = u.value, u.bound + 16 * EPS * speed_r.magnitude
@@ -199,7 +254,7 @@ def _planar_first(ctrl_all: FloatArray, idx: IntArray, rtol: float, length: Floa
     return np.sort(np.concatenate([idx[~flat], rows[left]]))
 
 
-def _integrate(speed: PolynomialSpeed | RationalSpeed, ctrl: FloatArray, mr: IntArray, mt: FloatArray,
+def _integrate(speed: PolynomialSpeed | RationalSpeed | BernsteinSpeed, ctrl: FloatArray, mr: IntArray, mt: FloatArray,
                rtol: float) -> Integral:
     """Integrate over [0, 1], split at the speed minima and graded towards near-cusps, the
     end points included (a near-cusp at t = 0 or 1 is no interior minimum, yet hides from the

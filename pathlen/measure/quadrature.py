@@ -49,6 +49,10 @@ _DIFF_WEIGHTS = KRONROD_WEIGHTS - GAUSS_WEIGHTS
 #: allocator's mmap threshold (see shared/REFERENCES.md, numerics).
 BLOCK = 1024
 MAX_DEPTH = 60
+#: Most intervals one curve may be cut into.  A curve that needs more (its speed evaluated with
+#: too much rounding noise for the tolerance, say) stops there with its honest error estimate in
+#: the bound and is counted as unconverged: work and memory stay bounded.
+MAX_INTERVALS_PER_CURVE = 4096
 #: Kinks narrower than this (in the unit parameter) are graded towards.  A
 #: self-check of 200,000 random and near-degenerate cubics (rtol 1e-9 against
 #: 1e-14) found bounds exceeded at 0.02 and none at 0.25.
@@ -100,7 +104,9 @@ def integrate_speed(speed: Speed, n: int, rows: IntArray, lo: FloatArray, hi: Fl
                 density = np.where(span > 0, np.maximum(rtol * estimate, atol) / span, 0.0)
         width = hi - lo
         ok = g_err <= density[rows] * width
-        stuck = ~ok & ((depth >= MAX_DEPTH) | (lo + 0.5 * width <= lo) | (lo + 0.5 * width >= hi))
+        live = np.bincount(rows[~ok], minlength=n)  # intervals each curve would still split
+        spent = live[rows] > MAX_INTERVALS_PER_CURVE // 2
+        stuck = ~ok & ((depth >= MAX_DEPTH) | (lo + 0.5 * width <= lo) | (lo + 0.5 * width >= hi) | spent)
         unconverged += int(np.count_nonzero(stuck))
         done = ok | stuck
         np.add.at(value, rows[done], k_val[done])
