@@ -72,7 +72,8 @@ def find_drawings(paths: Iterable[str]) -> list[str]:
     for p in paths:
         path = Path(p)
         if path.is_dir():
-            found = sorted(str(f) for f in path.rglob("*") if f.suffix.lower() in SUFFIXES and f.is_file())
+            # everything with a drawing's suffix but folders: a dangling link or a pipe then fails by name
+            found = sorted(str(f) for f in path.rglob("*") if f.suffix.lower() in SUFFIXES and not f.is_dir())
             out.extend(found)
         else:
             out.append(p)

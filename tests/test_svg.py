@@ -101,11 +101,17 @@ def test_arc_conversion_meets_the_spec_conditions(row):
     scale = max(1.0, rx, ry, abs(x1), abs(y1), abs(x2), abs(y2))
     assert np.allclose(p(t0), [x1, y1], atol=1e-9 * scale)
     assert np.allclose(p(t1), [x2, y2], atol=1e-9 * scale)
-    ratio = np.linalg.norm(u) / np.linalg.norm(v)
-    assert ratio == pytest.approx(rx / ry, rel=1e-9)
-    assert np.linalg.norm(u) >= rx * (1 - 1e-12)  # radii only ever grow (F.6.6)
+    # every point lies on the ellipse of radii (rx, ry)·g rotated by phi, g = max(1, √Λ) (F.6.6: radii
+    # only ever grow, both by the same factor)
     angle = math.radians(phi)
-    assert abs(u[0] * math.sin(angle) - u[1] * math.cos(angle)) <= 1e-9 * np.linalg.norm(u)
+    cs, sn = math.cos(angle), math.sin(angle)
+    x1p = cs * (x1 - x2) / 2 + sn * (y1 - y2) / 2
+    y1p = -sn * (x1 - x2) / 2 + cs * (y1 - y2) / 2
+    g = max(1.0, math.sqrt((x1p / rx) ** 2 + (y1p / ry) ** 2))
+    for t in np.linspace(t0, t1, 7):
+        dx, dy = p(t) - c
+        xr, yr = cs * dx + sn * dy, -sn * dx + cs * dy
+        assert (xr / (rx * g)) ** 2 + (yr / (ry * g)) ** 2 == pytest.approx(1.0, rel=1e-8)
     span = t1 - t0
     if abs(span - math.pi) > 1e-6:  # exactly 180° satisfies both flags
         assert (span > math.pi) == bool(large)

@@ -31,6 +31,8 @@ class ImportOptions:
 def read_drawing(path: Path, options: ImportOptions = ImportOptions()) -> Drawing:
     """Read any supported file and check its geometry; raises :class:`InputError`."""
     suffix = path.suffix.lower()
+    if suffix in SUFFIXES:
+        check_regular_file(path)
     if suffix == ".dxf":
         from pathlen.importers.dxf import read_dxf
 
@@ -45,6 +47,16 @@ def read_drawing(path: Path, options: ImportOptions = ImportOptions()) -> Drawin
     for kind, count in sorted(drawing.skipped.items()):
         drawing.warnings.append(f"{count} {kind} entit{'y' if count == 1 else 'ies'} not measured")
     return drawing
+
+
+def check_regular_file(path: Path) -> None:
+    """Refuse what is not a regular file (a dangling link, a FIFO or device, a folder), saying which."""
+    if path.is_symlink() and not path.exists():
+        raise InputError("broken symbolic link: the file it points to does not exist")
+    if not path.exists():
+        raise InputError("no such file")
+    if not path.is_file():
+        raise InputError("not a regular file (a folder, pipe or device)")
 
 
 def check_geometry(drawing: Drawing) -> None:

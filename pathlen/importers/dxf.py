@@ -99,8 +99,6 @@ _UNREADABLE = (DXFError, UnicodeError, ValueError, TypeError, IndexError, KeyErr
 
 def _load(path: Path, recover: bool) -> tuple[ezdxf.document.Drawing, list[str], bool]:
     """The document, notes for the report, and whether structural recovery was needed."""
-    if not path.is_file():
-        raise InputError("no such file" if not path.exists() else "not a regular file")
     try:
         doc = _read_whole(path)
         damage = _damage(doc)
@@ -166,7 +164,7 @@ def _plain_reason(exc: BaseException) -> str:
     if isinstance(exc, DXFError):
         text = _first_line(exc).removeprefix(f"{type(exc).__name__}: ").rstrip(".")
         return text + ("; file truncated?" if "missing" in text.lower() or "EOF" in text else "")
-    return f"not a DXF structure ({type(exc).__name__})"
+    return "not a DXF structure that can be read (truncated or damaged?)"
 
 
 def _first_line(exc: BaseException) -> str:
@@ -350,6 +348,7 @@ def _bulged_path(points: list[tuple[float, float, float]], bulges: list[float], 
 def _lwpolyline(e: DXFGraphic, coll: SegmentCollector) -> None:
     pts = list(e.lwpoints)  # (x, y, start width, end width, bulge)
     if len(pts) < 2:
+        coll.warn(f"LWPOLYLINE #{e.dxf.handle} has {len(pts)} vertices: nothing to measure")
         return
     z = float(e.dxf.elevation)
     _bulged_path([(p[0], p[1], z) for p in pts], [float(p[4]) for p in pts], bool(e.closed),
@@ -362,6 +361,7 @@ def _polyline(e: DXFGraphic, coll: SegmentCollector) -> None:
         return
     verts = [v for v in e.vertices if not v.dxf.flags & 16]  # 16: spline frame control point
     if len(verts) < 2:
+        coll.warn(f"POLYLINE #{e.dxf.handle} has {len(verts)} vertices: nothing to measure")
         return
     ent = _entity(e, coll)
     if e.is_3d_polyline:

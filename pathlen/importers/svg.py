@@ -86,6 +86,10 @@ def read_svg(path: Path, dpi: float | None = None) -> Drawing:
     root = parse_safely(path)
     if local_name(root.tag) != "svg":
         raise InputError(f"not an SVG file (root element is <{local_name(root.tag)}>)")
+    if isinstance(root.tag, str) and root.tag.startswith("{") and not root.tag.startswith(SVG_NS):
+        namespace = root.tag[1:].partition("}")[0]
+        raise InputError(f"root <svg> is in the namespace {namespace[:60]!r}, not SVG's "
+                         "(http://www.w3.org/2000/svg): nothing in it would be drawn")
     return _Importer(root, dpi).run()
 
 
@@ -278,7 +282,7 @@ class _Importer:
                 w = h * aspect
             elif h is None:
                 h = w / aspect
-        if w is not None and (w <= 0 or h <= 0):
+        if (w is not None and w <= 0) or (h is not None and h <= 0):
             raise InputError("root <svg> has zero or negative width/height: nothing is drawn")
         if physical:
             mm_per_px = 25.4 / 96.0  # CSS: 1in = 96px
@@ -372,7 +376,12 @@ class _Importer:
         """The state for ``elem`` and its children: transform, layer, stroke, colour, visibility."""
         transform = st.transform
         viewport = st.viewport
-        local = parse_transform(elem.get("transform", "")) if "transform" in elem.attrib else IDENTITY
+        local = IDENTITY
+        if "transform" in elem.attrib:
+            try:
+                local = parse_transform(elem.get("transform", ""))
+            except BadValue as exc:  # SVG 2 / CSS: an invalid value is ignored; the element is still drawn
+                self.warn_element(elem, tag, f"{exc}; transform ignored")
         if tag == "svg":  # a nested viewport
             local, viewport = self.nested_viewport(elem, local, st.viewport)
         if local != IDENTITY:

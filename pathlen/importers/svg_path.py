@@ -14,6 +14,7 @@ keeping the path up to the first error as the spec's error handling asks, and sa
 from __future__ import annotations
 
 import itertools
+import math
 import re
 
 import numpy as np
@@ -31,6 +32,9 @@ _ARC_ONE = (rf"\s*+({NUMBER}){_SEP}({NUMBER}){_SEP}({NUMBER}){_SEP}([01]){_SEP}(
             rf"({NUMBER}){_SEP}({NUMBER}){_SEP}")
 _ARC = re.compile(_ARC_ONE)
 _ARCS = re.compile(rf"(?:{_ARC_ONE})*+\s*+")
+#: Anything but the path grammar's characters (ASCII digits, signs, point, exponent, separators, commands;
+#: SVG whitespace is space, tab, CR, LF, FF) sends a path to the careful parser.
+_FOREIGN = re.compile(rf"[^0-9eE.+\-, \t\r\n\f{_COMMANDS}]")
 _ARITY = {"M": 2, "L": 2, "H": 1, "V": 1, "C": 6, "S": 4, "Q": 4, "T": 2, "A": 7, "Z": 0}
 
 
@@ -46,14 +50,22 @@ def parse_path(d: str, out: RawSegments) -> str | None:
 
 # -- the careful parser: one command at a time ----------------------------------------------------
 def _numbers(args: str) -> tuple[list[float], bool]:
-    """The numbers of one command's arguments and whether they all parsed."""
+    """The numbers of one command's arguments and whether they all parsed (a number too large for a
+    double ends them, like any other error)."""
     if _ARGS.fullmatch(args):
-        return [float(t) for t in _NUM.findall(args)], True
+        return _finite_prefix([float(t) for t in _NUM.findall(args)], True)
     out, pos = [], 0
     while m := _ONE.match(args, pos):
         out.append(float(m.group(1)))
         pos = m.end()
-    return out, False
+    return _finite_prefix(out, False)
+
+
+def _finite_prefix(values: list[float], ok: bool) -> tuple[list[float], bool]:
+    for k, v in enumerate(values):
+        if not math.isfinite(v):
+            return values[:k], False
+    return values, ok
 
 
 def _arc_numbers(args: str) -> tuple[list[float], bool]:
@@ -63,7 +75,7 @@ def _arc_numbers(args: str) -> tuple[list[float], bool]:
     while pos < len(args) and (m := _ARC.match(args, pos)):
         out.extend(float(g) for g in m.groups())
         pos = m.end()
-    return out, args[pos:].strip() == ""
+    return _finite_prefix(out, args[pos:].strip() == "")
 
 
 def parse_careful(d: str, out: RawSegments) -> str | None:
@@ -167,7 +179,7 @@ def parse_many(paths: list[str]) -> tuple[dict[str, tuple[np.ndarray, np.ndarray
     owner: list[int] = []
     for p, d in enumerate(paths):
         parts = _SPLIT.split(d)
-        if parts[0].strip() or len(parts) < 3 or parts[1] not in "Mm":
+        if parts[0].strip() or len(parts) < 3 or parts[1] not in "Mm" or _FOREIGN.search(d):
             ok[p] = False
             continue
         mine = []
@@ -186,6 +198,9 @@ def parse_many(paths: list[str]) -> tuple[dict[str, tuple[np.ndarray, np.ndarray
     counts = np.fromiter(map(len, tokens), dtype=np.int64, count=len(tokens))
     cmd_path = np.array(owner, dtype=np.int64)
     nums = _to_floats(tokens, counts, cmd_path, ok)
+    infinite = ~np.isfinite(nums)
+    if infinite.any():  # 1e400: the careful parser ends such a path there
+        ok[np.repeat(cmd_path, counts)[infinite]] = False
     code = np.frombuffer("".join(cmds).encode("ascii"), dtype=np.uint8)
     kind = _KIND_OF[code]
     arity = _ARITY_OF[kind]

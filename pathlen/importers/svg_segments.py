@@ -59,11 +59,18 @@ def endpoint_to_centre(rows: np.ndarray) -> tuple[np.ndarray, ...]:
     dx, dy = (x1 - x2) / 2.0, (y1 - y2) / 2.0
     x1p = cos * dx + sin * dy
     y1p = -sin * dx + cos * dy
-    lam = (x1p / rx) ** 2 + (y1p / ry) ** 2
-    grow = np.sqrt(np.maximum(lam, 1.0))
-    rx, ry = rx * grow, ry * grow
+    # Λ = (x1'/rx)² + (y1'/ry)², computed without overflow for tiny radii (1e-300): with k = max(rx, ry)
+    # and radii scaled by 1/k, reach = k·√Λ; radii that cannot reach (Λ > 1) become (rx, ry)·√Λ
+    k = np.maximum(rx, ry)
+    rxn, ryn = rx / k, ry / k
+    with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
+        reach = np.hypot(x1p / rxn, y1p / ryn)
+        grow = reach > k
+        rx, ry = np.where(grow, rxn * reach, rx), np.where(grow, ryn * reach, ry)
+        inv_root = np.where(grow, 1.0, k / reach)  # 1/√Λ
+        root = np.where(grow, 1.0, reach / k)  # √Λ, at most 1
     # F.6.5.2: sqrt((rx²ry² − rx²y1'² − ry²x1'²)/(rx²y1'² + ry²x1'²)) = sqrt(1/Λ − 1), 0 when scaled up
-    coef = np.sqrt(np.maximum(1.0 / lam - 1.0, 0.0)) * np.where(large != sweep, 1.0, -1.0)
+    coef = np.sqrt(np.maximum(inv_root * inv_root - 1.0, 0.0)) * np.where(large != sweep, 1.0, -1.0)
     cxp = coef * rx * y1p / ry
     cyp = -coef * ry * x1p / rx
     cx = cos * cxp - sin * cyp + (x1 + x2) / 2.0
@@ -77,8 +84,15 @@ def endpoint_to_centre(rows: np.ndarray) -> tuple[np.ndarray, ...]:
     back = dth < 0
     v[back] *= -1.0
     t0 = np.where(back, -th1, th1)
-    t1 = t0 + np.abs(dth)
-    return np.stack([cx, cy], axis=1), u, v, t0, t1
+    # the parameter span without cancellation: on the unit circle of the scaled frame the chord is
+    # 2√Λ, so the smaller arc is 2·asin(√Λ); the large-arc flag takes the other one (π when scaled up)
+    small = 2.0 * np.arcsin(np.clip(root, 0.0, 1.0))
+    span = np.where(grow, np.pi, np.where(large != 0, 2.0 * np.pi - small, small))
+    # start every arc at t = 0 (u, v turned by t0, still conjugate): a short arc far from t = 0 would
+    # otherwise lose its relative length to the rounding of t1 - t0
+    c0, s0 = np.cos(t0)[:, None], np.sin(t0)[:, None]
+    u, v = u * c0 + v * s0, v * c0 - u * s0
+    return np.stack([cx, cy], axis=1), u, v, np.zeros(len(t0)), span
 
 
 def to_drawing(raw: RawSegments, transforms: np.ndarray, entities: list[Entity]) -> Drawing:

@@ -28,8 +28,10 @@ PX_PER_UNIT = {
     "pt": 96.0 / 72.0, "pc": 16.0,
 }
 
-#: One number of the SVG grammar, as an atomic group (no backtracking into it: no ReDoS).
-NUMBER = r"(?>[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)"
+#: One number of the SVG grammar (SVG 2, 9.3.9 path data "number"; CSS <number>), as an atomic group
+#: (no backtracking into it: no ReDoS).  ASCII digits only: Python's ``float`` also takes
+#: underscores, "inf", "nan" and other scripts' digits, which the grammar does not.
+NUMBER = r"(?>[-+]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][-+]?[0-9]+)?)"
 _LENGTH = re.compile(rf"\s*({NUMBER})\s*([a-zA-Z]*|%)\s*")
 _LIST_SEP = re.compile(r"[\s,]+")
 
@@ -46,7 +48,7 @@ def parse_length(text: str, percent_of: float = 0.0) -> tuple[float, str]:
     m = _LENGTH.fullmatch(text)
     if not m:
         raise BadValue(f"not a length: {text[:40]!r}")
-    value, unit = float(m.group(1)), m.group(2).lower()
+    value, unit = finite(m.group(1)), m.group(2).lower()
     if unit == "%":
         return value / 100.0 * percent_of, unit
     if unit not in PX_PER_UNIT:
@@ -62,8 +64,16 @@ def parse_numbers(text: str) -> list[float]:
         found = re.findall(NUMBER, p)
         if "".join(found) != p:
             raise BadValue(f"not a number list: {text[:40]!r}")
-        out.extend(float(f) for f in found)
+        out.extend(finite(f) for f in found)
     return out
+
+
+def finite(token: str) -> float:
+    """A number token of the grammar as a float; one too large for a double (1e400) is a bad value."""
+    value = float(token)
+    if not math.isfinite(value):
+        raise BadValue(f"number {token[:40]!r} is out of range")
+    return value
 
 
 def compose(m: Affine2, n: Affine2) -> Affine2:
