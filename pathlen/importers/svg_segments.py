@@ -67,10 +67,11 @@ def endpoint_to_centre(rows: np.ndarray) -> tuple[np.ndarray, ...]:
         reach = np.hypot(x1p / rxn, y1p / ryn)
         grow = reach > k
         rx, ry = np.where(grow, rxn * reach, rx), np.where(grow, ryn * reach, ry)
-        inv_root = np.where(grow, 1.0, k / reach)  # 1/√Λ
         root = np.where(grow, 1.0, reach / k)  # √Λ, at most 1
     # F.6.5.2: sqrt((rx²ry² − rx²y1'² − ry²x1'²)/(rx²y1'² + ry²x1'²)) = sqrt(1/Λ − 1), 0 when scaled up
-    coef = np.sqrt(np.maximum(inv_root * inv_root - 1.0, 0.0)) * np.where(large != sweep, 1.0, -1.0)
+    with np.errstate(divide="ignore", over="ignore", invalid="ignore"):
+        coef = np.sqrt(np.maximum((1.0 - root) * (1.0 + root), 0.0)) / root  # sqrt(1/Λ − 1) without 1/Λ
+    coef = np.where(grow, 0.0, coef) * np.where(large != sweep, 1.0, -1.0)
     cxp = coef * rx * y1p / ry
     cyp = -coef * ry * x1p / rx
     cx = cos * cxp - sin * cyp + (x1 + x2) / 2.0
@@ -95,6 +96,18 @@ def endpoint_to_centre(rows: np.ndarray) -> tuple[np.ndarray, ...]:
     return np.stack([cx, cy], axis=1), u, v, np.zeros(len(t0)), span
 
 
+#: A small arc whose radii exceed its chord this many times is its chord: the length differs by about
+#: (chord/radius)²/24 of the chord (Taylor series of 2r·asin(c/2r)), below 1e-17 here.
+STRAIGHT_RATIO = 1e8
+
+
+def straight_arcs(rows: np.ndarray) -> np.ndarray:
+    """Rows (endpoint form) that are the small arc of radii over :data:`STRAIGHT_RATIO` times the chord."""
+    x1, y1, rx, ry, _, large, _, x2, y2 = rows.T
+    with np.errstate(over="ignore", invalid="ignore"):
+        return (large == 0) & (np.minimum(rx, ry) > STRAIGHT_RATIO * np.hypot(x2 - x1, y2 - y1))
+
+
 def to_drawing(raw: RawSegments, transforms: np.ndarray, entities: list[Entity]) -> Drawing:
     """Apply each row's transform (``transforms[k]`` = a b c d e f, user units -> mm) and build a Drawing."""
     def table(kind: str) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -105,6 +118,12 @@ def to_drawing(raw: RawSegments, transforms: np.ndarray, entities: list[Entity])
         return rows, ent, m
 
     rows, ent, m = table("line")
+    rows_a, ent_a, m_a = table("arc")
+    straight = straight_arcs(rows_a)
+    if straight.any():  # drawn as their chords (exact to rounding, see straight_arcs)
+        rows = np.concatenate([rows, rows_a[straight][:, [0, 1, 7, 8]]])
+        ent, m = np.concatenate([ent, ent_a[straight]]), np.concatenate([m, m_a[straight]])
+        rows_a, ent_a, m_a = rows_a[~straight], ent_a[~straight], m_a[~straight]
     lines = Lines(_points(m, rows[:, 0:2]), _points(m, rows[:, 2:4]), ent.copy())
 
     beziers = {}
@@ -114,8 +133,7 @@ def to_drawing(raw: RawSegments, transforms: np.ndarray, entities: list[Entity])
             ctrl = np.stack([_points(m, rows[:, 2 * j:2 * j + 2]) for j in range(degree + 1)], axis=1)
             beziers[degree] = Beziers(ctrl, np.ones((len(rows), degree + 1)), ent.copy())
 
-    rows, ent_a, m_a = table("arc")
-    c, u, v, t0, t1 = endpoint_to_centre(rows)
+    c, u, v, t0, t1 = endpoint_to_centre(rows_a)
     rows_e, ent_e, m_e = table("ellipse")
     m = np.concatenate([m_a, m_e])
     arcs = EllipticArcs(
