@@ -14,7 +14,7 @@ from pathlen.contours import DEFAULT_JOIN_TOL_MM, count_contours
 from pathlen.errors import PathlenError, UsageError
 from pathlen.geometry import Drawing, keep_entities
 from pathlen.importers import SUFFIXES, ImportOptions, read_drawing
-from pathlen.instances import DEFAULT_MAX_SEGMENTS, TooManySegments, expand
+from pathlen.instances import DEFAULT_MAX_SEGMENTS, TooManySegments, expand, segment_total
 from pathlen.measure import DEFAULT_RTOL, measure
 
 
@@ -93,14 +93,18 @@ def one_line_failure(path: str, work: Callable[[], Any], failed: Callable[..., A
     except PathlenError as exc:
         return failed(path, ok=False, error=str(exc))
     except MemoryError:
-        limit = f"the memory limit of {_memory_limit_mb:,} MB per file (--max-memory)" if _memory_limit_mb else \
-            "the memory available"
-        return failed(path, ok=False, error=f"needed more than {limit}")
+        return failed(path, ok=False, error=f"needed more than {_limit_phrase()}")
     except RecursionError:
         return failed(path, ok=False, error="structure nested too deeply")
     except Exception as exc:  # noqa: BLE001 - one bad file must not stop the batch
         text = str(exc).strip().splitlines()
         return failed(path, ok=False, error=f"unexpected {type(exc).__name__}: {text[0] if text else ''}")
+
+
+def _limit_phrase() -> str:
+    if _memory_limit_mb:
+        return f"the memory limit of {_memory_limit_mb:,} MB per file (--max-memory)"
+    return "the memory available"
 
 
 def measure_file(path: str, settings: MeasureSettings = MeasureSettings()) -> FileResult:
@@ -120,6 +124,10 @@ def _measure_file(path: str, settings: MeasureSettings) -> FileResult:
     except TooManySegments as exc:
         contours = None
         warnings.append(f"contours not counted: {exc}; lengths are exact all the same")
+    except MemoryError:  # the lengths are in hand: keep them, say what is missing
+        contours = None
+        warnings.append(f"contours not counted: writing out {segment_total(drawing):,} segments needed more than "
+                        f"{_limit_phrase()}; lengths are exact all the same (--max-segments lowers the count tried)")
     entities = [e for e, s in zip(drawing.entities, shown.tolist(), strict=True) if s]
     length, bound = result.entity_length[shown], result.entity_bound[shown]
     copies = [e.copies for e in entities]

@@ -1,6 +1,7 @@
 """Limits per file in a batch: a stalled file, a memory hog and a dying worker fail alone."""
 
 import json
+import math
 import os
 import signal
 import time
@@ -60,6 +61,17 @@ def test_memory_limit_stops_a_real_drawing(runner, good, tmp_path):
     big = tmp_path / "big.dxf"
     doc.saveas(big)
     res = runner.invoke(main, ["measure", good, str(big), "--max-memory", "300", "--format", "json"])
+    assert res.exit_code == 0
+    files = {os.path.basename(f["path"]): f for f in json.loads(res.stdout)["files"]}
+    assert files["good.dxf"]["ok"]
+    # measure keeps the exact length (measured as instances) and says the contours could not be counted
+    assert files["big.dxf"]["ok"] and files["big.dxf"]["contours"] == {"closed": None, "open": None}
+    assert files["big.dxf"]["length"] == pytest.approx(4e6 * 2 * math.pi, rel=1e-12)  # circle 2πr
+    assert any("needed more than the memory limit of 300 MB per file (--max-memory)" in w
+               for w in files["big.dxf"]["warnings"])
+    # the cut estimate needs the copies: there the file fails, naming the limit
+    res = runner.invoke(main, ["cut", good, str(big), "--profile", "steel-3mm-laser", "--max-memory", "300",
+                               "--format", "json"])
     assert res.exit_code == 1
     files = {os.path.basename(f["path"]): f for f in json.loads(res.stdout)["files"]}
     assert files["good.dxf"]["ok"]

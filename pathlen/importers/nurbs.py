@@ -53,10 +53,45 @@ def bezier_pieces(ctrl: FloatArray, knots: FloatArray, degree: int, weights: Flo
         raise SplineError("empty knot domain")
     if len(pts[0]) != 3:
         raise SplineError("control points must be 3-D")
-    homog = np.array(pts, dtype=float) * np.array(w)[:, None]
-    homog = np.concatenate([homog, np.array(w)[:, None]], axis=1)
-    h = _span_beziers(homog, np.array(knot_list, dtype=float), p)
+    if n - p <= FEW_SPANS:  # a handful of spans: plain Python beats numpy's per-call cost
+        h = np.array(_span_beziers_small([[x * wi, y * wi, z * wi, wi] for (x, y, z), wi in zip(pts, w, strict=True)],
+                                         knot_list, p), dtype=float).reshape(-1, p + 1, 4)
+    else:
+        homog = np.array(pts, dtype=float) * np.array(w)[:, None]
+        homog = np.concatenate([homog, np.array(w)[:, None]], axis=1)
+        h = _span_beziers(homog, np.array(knot_list, dtype=float), p)
     return h[:, :, :3] / h[:, :, 3:], h[:, :, 3]
+
+
+#: Splines with at most this many spans are split in plain Python (same recursion as the arrays).
+FEW_SPANS = 16
+
+
+def _span_beziers_small(homog: list[list[float]], knots: list[float], p: int) -> list[list[list[float]]]:
+    """:func:`_span_beziers` on lists, for short splines."""
+    out = []
+    for k in range(p, len(knots) - p - 1):
+        a, b = knots[k], knots[k + 1]
+        if not b > a:
+            continue
+        if all(x == a for x in knots[k - p + 1:k + 1]) and all(x == b for x in knots[k + 1:k + p + 1]):
+            out.append(homog[k - p:k + 1])  # already a Bézier span (a clamped single-span spline, say)
+            continue
+        piece = []
+        span = [tuple(row) for row in homog[k - p:k + 1]]
+        for i in range(p + 1):
+            d = span[:]
+            for r in range(1, p + 1):
+                u = a if r <= p - i else b
+                for j in range(p, r - 1, -1):
+                    left = knots[k - p + j]
+                    t = (u - left) / (knots[k + 1 + j - r] - left)
+                    s = 1.0 - t
+                    (x0, y0, z0, w0), (x1, y1, z1, w1) = d[j - 1], d[j]
+                    d[j] = (s * x0 + t * x1, s * y0 + t * y1, s * z0 + t * z1, s * w0 + t * w1)
+            piece.append(d[p])
+        out.append(piece)
+    return out
 
 
 def _span_beziers(homog: FloatArray, knots: FloatArray, p: int) -> FloatArray:
