@@ -9,7 +9,6 @@ import numpy as np
 import pytest
 
 from pathlen.batch import MeasureSettings, measure_file
-from pathlen.errors import InputError
 from pathlen.importers import ImportOptions, read_drawing
 from pathlen.instances import expand
 from pathlen.measure import measure
@@ -228,16 +227,20 @@ def test_bad_files_fail_with_one_line(tmp_path, content):
         assert result.error == ("empty file" if not content else "not a DXF file (no DXF structure found)")
 
 
-def test_nan_and_absurd_coordinates_fail_the_file(tmp_path):
+def test_nan_and_absurd_coordinates_spoil_their_entity_not_the_file(tmp_path):
+    # an invalid value is an error of its element: the rest of the drawing is still measured
     doc = new_doc()
     doc.modelspace().add_line((0, 0), (1e13, 0))
+    doc.modelspace().add_line((0, 0), (7, 0))
     doc.saveas(tmp_path / "far.dxf")
-    with pytest.raises(InputError, match="absurdly large"):
-        read_drawing(tmp_path / "far.dxf")
+    far = measure_file(str(tmp_path / "far.dxf"))
+    assert far.ok and far.length_mm == 7.0
+    assert any("absurdly large" in w and "not measured" in w for w in far.warnings)
     text = (tmp_path / "far.dxf").read_text().replace("10000000000000.0", "nan")
     (tmp_path / "nan.dxf").write_text(text)
     result = measure_file(str(tmp_path / "nan.dxf"))
-    assert not result.ok and "coordinates" in result.error
+    assert result.ok and result.length_mm == 7.0
+    assert any("LINE #" in w and "non-finite" in w for w in result.warnings)
 
 
 def test_missing_file(tmp_path):

@@ -127,11 +127,13 @@ def test_bad_root_sizes(tmp_path, attrs, words):
     check_fails(path, *words)
 
 
-def test_non_finite_and_absurd_coordinates(tmp_path):
+def test_absurd_coordinates_spoil_their_element_only(tmp_path):
     path = tmp_path / "far.svg"
-    path.write_text('<svg xmlns="http://www.w3.org/2000/svg" width="1mm" height="1mm">'
-                    '<line id="far" x2="1e300"/></svg>')
-    check_fails(path, "line #far", "coordinates")
+    path.write_text('<svg xmlns="http://www.w3.org/2000/svg" width="1mm" height="1mm" viewBox="0 0 1 1">'
+                    '<line id="far" x2="1e300"/><line x2="3"/></svg>')
+    result = measure_file(str(path))
+    assert result.ok and result.length_mm == pytest.approx(3.0, rel=1e-15)
+    assert any(w.startswith("line #far on layer '' has non-finite or absurdly large") for w in result.warnings)
 
 
 def test_unknown_declared_encoding(tmp_path):

@@ -8,7 +8,7 @@ from pathlib import Path
 import numpy as np
 
 from pathlen.errors import InputError
-from pathlen.geometry import Drawing
+from pathlen.geometry import Drawing, keep_entities
 from pathlen.instances import definitions
 
 #: Coordinates beyond this many millimetres (1,000 km) are taken as a broken file.
@@ -60,20 +60,37 @@ def check_regular_file(path: Path) -> None:
 
 
 def check_geometry(drawing: Drawing) -> None:
-    """Reject non-finite or absurdly large coordinates, naming the first bad entity.
+    """Leave out entities with non-finite or absurdly large coordinates, with a warning naming the first:
+    an invalid value spoils its element, not the file.
 
     What is checked is what the file gave: end points and control points, and for arcs their
     start, middle and end points and finite axes, never a derived centre (a nearly straight bulge
-    has its centre far away, legitimately).  Every definition placed by the drawing is checked once.
+    has its centre far away, legitimately).  Every definition placed by the drawing is checked
+    once; a placement with a non-finite map is dropped.
     """
+    bad_names: list[str] = []
     for d in definitions(drawing):
-        _check_own(d)
-        for p in d.placements:
-            if not np.all(np.isfinite(p.matrices)):
-                raise InputError("a block or <use> placement has a non-finite transformation")
+        bad = _bad_entities(d)
+        if bad.any():
+            bad_names.extend(_describe(d, i) for i in np.flatnonzero(bad)[:1])
+            bad_names.extend([""] * (int(bad.sum()) - 1))
+            _drop_own(d, ~bad)
+        finite = [p for p in d.placements if np.all(np.isfinite(p.matrices))]
+        if len(finite) < len(d.placements):
+            bad_names.append("a block or <use> placement with a non-finite transformation")
+            d.placements = finite
+    if bad_names:
+        more = len(bad_names) - 1
+        drawing.warnings.append(f"{bad_names[0]}: not measured" + (f" (and {more} more like it)" if more else ""))
 
 
-def _check_own(drawing: Drawing) -> None:
+def _describe(drawing: Drawing, i: int) -> str:
+    e = drawing.entities[i]
+    return f"{e.kind} #{e.handle} on layer {e.layer!r} has non-finite or absurdly large (over 1000 km) coordinates"
+
+
+def _bad_entities(drawing: Drawing) -> np.ndarray:
+    """Per entity row: does any of its own segments hold a non-finite or absurd coordinate?"""
     arcs = drawing.arcs
     finite_axes = np.isfinite(arcs.u).all(axis=1) & np.isfinite(arcs.v).all(axis=1)
     t0, t1 = np.where(finite_axes, arcs.t0, 0.0), np.where(finite_axes, arcs.t1, 0.0)
@@ -85,10 +102,16 @@ def _check_own(drawing: Drawing) -> None:
                        arcs.t0[:, None], arcs.t1[:, None])),
         *((b.entity, (b.ctrl.reshape(len(b), -1), b.weights)) for b in drawing.beziers.values()),
     ]
+    bad = np.zeros(len(drawing.entities), dtype=bool)
     for entity, parts in arrays:
         for a in parts:
-            bad = ~np.all(np.isfinite(a) & (np.abs(a) <= MAX_COORDINATE_MM), axis=1)
-            if np.any(bad):
-                e = drawing.entities[int(entity[np.argmax(bad)])]
-                what = "non-finite" if not np.all(np.isfinite(a[bad])) else "absurdly large (over 1000 km)"
-                raise InputError(f"{e.kind} #{e.handle} on layer {e.layer!r} has {what} coordinates")
+            with np.errstate(invalid="ignore"):
+                rows = ~np.all(np.isfinite(a) & (np.abs(a) <= MAX_COORDINATE_MM), axis=1)
+            bad[entity[rows]] = True
+    return bad
+
+
+def _drop_own(drawing: Drawing, keep: np.ndarray) -> None:
+    """Drop, in place, the drawing's own segments of entities not kept (placements stay)."""
+    kept = keep_entities(drawing, keep)
+    drawing.lines, drawing.arcs, drawing.beziers = kept.lines, kept.arcs, kept.beziers
