@@ -37,8 +37,10 @@ def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -
     span = points.max(axis=0) - origin
     axes = np.flatnonzero(span > 0)  # coordinates that vary (a flat drawing has two)
     pts = (points[:, axes] - origin[axes]) if len(axes) else np.zeros((n, 1))
-    # cells sized to the spacing; crowded cells: fall back to cells one tolerance wide
-    for width in (_cell_width(span[axes], n, tol), tol if tol > 0 else 1.0):
+    # cells sized to the spacing; crowded cells: fall back to cells one tolerance wide, but never so
+    # narrow that cell numbers leave int64 (a tolerance far below the coordinates' rounding)
+    floor = float(span.max()) * 2.0**-50 if len(axes) else 0.0
+    for width in (max(_cell_width(span[axes], n, tol), floor), max(tol if tol > 0 else 1.0, floor)):
         cell = np.floor(pts / width).astype(np.int64)
         keys = cell_keys(cell, group)
         order = np.argsort(keys, kind="stable")

@@ -1,0 +1,106 @@
+"""DXF rules from the DXF reference: $INSUNITS codes, hidden layers, library messages."""
+
+import math
+
+import ezdxf
+import pytest
+
+from pathlen.batch import MeasureSettings, measure_file
+from pathlen.importers import ImportOptions
+
+# DXF reference, HEADER section, $INSUNITS: the code list.  Lengths in mm from the definitions:
+# SI prefixes; 1 in = 25.4 mm (international yard and pound, 1959); astronomical unit
+# 149 597 870 700 m (IAU 2012 resolution B2); light year = c × Julian year = 9 460 730 472 580 800 m
+# (IAU); parsec = 648000/π au (IAU 2015 resolution B2); US survey foot = 1200/3937 m (NIST SP 811,
+# appendix B.6), survey inch = 1/12, yard = 3, mile = 5280 survey feet.
+SURVEY_FT = 1_200_000 / 3937
+INSUNITS_MM = {
+    1: 25.4, 2: 304.8, 3: 1_609_344.0, 4: 1.0, 5: 10.0, 6: 1000.0, 7: 1e6, 8: 25.4e-6, 9: 0.0254,
+    10: 914.4, 11: 1e-7, 12: 1e-6, 13: 1e-3, 14: 100.0, 15: 1e4, 16: 1e5, 17: 1e12,
+    18: 149_597_870_700_000.0, 19: 9_460_730_472_580_800_000.0, 20: 149_597_870_700_000.0 * 648_000 / math.pi,
+    21: SURVEY_FT, 22: SURVEY_FT / 12, 23: SURVEY_FT * 3, 24: SURVEY_FT * 5280,
+}
+
+
+@pytest.mark.parametrize(("code", "mm"), sorted(INSUNITS_MM.items()))
+def test_every_insunits_code_has_its_factor(tmp_path, code, mm):
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = code
+    doc.modelspace().add_line((0, 0), (1e-3, 0))  # small enough that a parsec stays finite
+    path = tmp_path / f"u{code}.dxf"
+    doc.saveas(path)
+    result = measure_file(str(path), MeasureSettings(join_tol_mm=1e-30))
+    expected = 1e-3 * mm
+    if expected > 1e9:  # beyond 1000 km a coordinate is taken as broken: the line is left out, named
+        assert result.ok and result.length_mm == 0 and any("absurdly large" in w for w in result.warnings)
+    else:
+        assert result.ok and result.length_mm == pytest.approx(expected, rel=1e-15)
+        assert not any("taken as mm" in w for w in result.warnings)
+
+
+def test_us_survey_foot_is_not_the_international_foot(tmp_path):
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 21
+    doc.modelspace().add_line((0, 0), (1000, 0))
+    path = tmp_path / "survey.dxf"
+    doc.saveas(path)
+    result = measure_file(str(path))
+    assert result.length_mm == pytest.approx(1000 * 1_200_000 / 3937, rel=1e-15)
+    assert result.length_mm - 1000 * 304.8 == pytest.approx(0.6096, rel=1e-5)  # about 2 ppm more
+
+
+def hidden_doc(tmp_path):
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 4
+    doc.layers.add("CUT")
+    doc.layers.add("NOTES").off()
+    doc.layers.add("OLD").freeze()
+    msp = doc.modelspace()
+    msp.add_line((0, 0), (10, 0), dxfattribs={"layer": "CUT"})
+    msp.add_line((0, 0), (100, 0), dxfattribs={"layer": "NOTES"})
+    msp.add_circle((0, 0), 1, dxfattribs={"layer": "OLD"})
+    blk = doc.blocks.new("TAG")
+    blk.add_line((0, 0), (5, 0))  # layer 0: takes the INSERT's layer
+    msp.add_blockref("TAG", (0, 0), dxfattribs={"layer": "NOTES"})
+    msp.add_blockref("TAG", (0, 10), dxfattribs={"layer": "CUT"})
+    path = tmp_path / "hidden.dxf"
+    doc.saveas(path)
+    return path
+
+
+def test_layers_off_or_frozen_are_left_out_and_named(tmp_path):
+    # DXF reference, LAYER table: a negative colour number means the layer is off; flag 1, frozen
+    result = measure_file(str(hidden_doc(tmp_path)))
+    assert result.ok
+    assert result.length_mm == pytest.approx(10 + 5, rel=1e-15)
+    assert set(result.layers) == {"CUT"}
+    note = next(w for w in result.warnings if "off or frozen" in w)
+    assert "'NOTES'" in note and "'OLD'" in note
+    assert f"{100 + 5 + 2 * math.pi:.3f} mm" in note  # circle 2πr left out, and the block copy on NOTES
+    assert (result.closed, result.open) == (0, 2)
+
+
+def test_hidden_layers_flag_measures_them(tmp_path):
+    result = measure_file(str(hidden_doc(tmp_path)),
+                          MeasureSettings(import_options=ImportOptions(hidden_layers=True)))
+    assert result.length_mm == pytest.approx(10 + 100 + 2 * math.pi + 5 + 5, rel=1e-15)
+    assert not any("off or frozen" in w for w in result.warnings)
+
+
+def test_library_log_lines_become_warnings(tmp_path, capfd):
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 4
+    doc.modelspace().add_line((0, 0), (10, 0))
+    path = tmp_path / "logged.dxf"
+    doc.saveas(path)
+    text = path.read_text()
+    # an unknown DXF version string: ezdxf logs its fallback through logging
+    path.write_text(text.replace("AC1027", "AC9999", 1) if "AC1027" in text else text)
+    import logging
+
+    logger = logging.getLogger("ezdxf")
+    result = measure_file(str(path))
+    assert result.ok
+    assert not logger.handlers or all(type(h).__name__ != "_LogCapture" for h in logger.handlers)
+    captured = capfd.readouterr()
+    assert "AC9999" not in captured.err and "AC9999" not in captured.out
