@@ -88,19 +88,17 @@ def test_hidden_layers_flag_measures_them(tmp_path):
 
 
 def test_library_log_lines_become_warnings(tmp_path, capfd):
+    # ezdxf reports some problems only through Python logging (here: tags outside a section); they belong to
+    # the file's warnings, not as bare lines on standard error
     doc = ezdxf.new()
     doc.header["$INSUNITS"] = 4
     doc.modelspace().add_line((0, 0), (10, 0))
     path = tmp_path / "logged.dxf"
     doc.saveas(path)
     text = path.read_text()
-    # an unknown DXF version string: ezdxf logs its fallback through logging
-    path.write_text(text.replace("AC1027", "AC9999", 1) if "AC1027" in text else text)
-    import logging
-
-    logger = logging.getLogger("ezdxf")
+    path.write_text(text.replace("  0\nENDSEC\n", "  0\nENDSEC\n  0\nSTRAY\n", 1))
     result = measure_file(str(path))
-    assert result.ok
-    assert not logger.handlers or all(type(h).__name__ != "_LogCapture" for h in logger.handlers)
+    assert result.ok and result.length_mm == 10.0
+    assert any(w.startswith("DXF reader: ") and "outside a SECTION" in w for w in result.warnings)
     captured = capfd.readouterr()
-    assert "AC9999" not in captured.err and "AC9999" not in captured.out
+    assert "outside a SECTION" not in captured.err
