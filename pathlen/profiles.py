@@ -45,7 +45,7 @@ KEYS: dict[str, Key] = {
     "head_updown_s": Key(float, 0.0, help="head up and down per pierce"),
     "rapid_mm_min": Key(float, above_minimum=True),
     "accel_mm_s2": Key(float, above_minimum=True),
-    "junction_deviation_mm": Key(float, 0.05, help="corner speed model"),
+    "corner_tolerance_mm": Key(float, 0.05, help="how far the path may leave a sharp corner (corner speed)"),
     "lead_in_mm": Key(float, 0.0),
     "lead_out_mm": Key(float, 0.0),
     "kerf_mm": Key(float, 0.0),
@@ -151,11 +151,17 @@ def check_profile(name: str, body: Any, where: str) -> Profile:
     return Profile(name, where, values)
 
 
+#: Settings that changed their name, old -> new.
+RENAMED = {"junction_deviation_mm": "corner_tolerance_mm"}
+
+
 def _unknown_key_reason(key: str) -> str:
     stem = _UNIT_SUFFIX.sub("", key)
     same_stem = [k for k in KEYS if _UNIT_SUFFIX.sub("", k) == stem and k != key]
     if same_stem:
         return f"wrong unit: this setting is {same_stem[0]!r}"
+    if key in RENAMED:
+        return f"renamed: write {RENAMED[key]!r}"
     close = difflib.get_close_matches(key, KEYS, n=1)
     return f"unknown setting{f'; did you mean {close[0]!r}?' if close else ''}"
 

@@ -18,7 +18,6 @@ from numpy.typing import NDArray
 
 from pathlen.geometry import Drawing, FloatArray, IntArray, take_rows
 from pathlen.measure import Measurement
-from pathlen.measure.closed_forms import ellipse_frame
 
 #: Sample points per segment in :meth:`SegmentTable.samples` (both ends included).
 CURVE_SAMPLES = 17
@@ -128,17 +127,45 @@ class SegmentTable:
                 out[sel] = _bezier_points(self.drawing.beziers[int(key[6:])], local, t)
         return out
 
-    @cached_property
-    def min_radius(self) -> FloatArray:
-        """Smallest radius of curvature per row (mm): inf for lines, b²/a for arcs, sampled for Béziers."""
-        r = np.full(len(self), np.inf)
-        for key, first, count in self._offsets:
-            if key == "arcs" and count:
-                a, m, _ = ellipse_frame(self.drawing.arcs.u, self.drawing.arcs.v)
-                r[first:first + count] = a * (1.0 - m)  # b²/a
-            elif key.startswith("bezier") and count:
-                r[first:first + count] = _sampled_min_radius(self.samples(np.arange(first, first + count)))
-        return r
+    def turning_pieces(self, rows: IntArray, forward: NDArray[np.bool_]) -> tuple[FloatArray, FloatArray, IntArray]:
+        """The segments ``rows`` (cut forwards or not) as pieces of even turning, in cutting order.
+
+        Returns ``(length, radius, first)``: per piece its length (mm, summing to the segment's
+        measured length) and its mean radius of curvature, length over tangent turning (mm; inf for
+        straight pieces), and per segment the index of its first piece.  A line is one straight
+        piece; a curve is cut at its :data:`CURVE_SAMPLES` sample points, and a piece's turning is
+        the mean of the chord turnings at its two ends (the end tangents count double), so a circle
+        of radius r gives r on every piece and a slit's tip turns on the pieces around it.
+        """
+        rows = np.asarray(rows, dtype=np.int64)
+        straight = rows < len(self.drawing.lines)
+        curved = np.flatnonzero(~straight)
+        k = CURVE_SAMPLES - 1
+        count = np.where(straight, 1, k)
+        first = np.cumsum(count) - count
+        length = np.empty(int(count.sum()))
+        radius = np.full(len(length), np.inf)
+        length[first[straight]] = self.length[rows[straight]]
+        if len(curved):
+            pts = self.travel_samples(rows[curved], np.asarray(forward)[curved])  # [m, k + 1, 3]
+            chord = np.diff(pts, axis=1)
+            chord_len = np.linalg.norm(chord, axis=2)
+            d_in, d_out = self.travel_directions(rows[curved], np.asarray(forward)[curved])
+            unit = np.divide(chord, chord_len[..., None], out=np.zeros_like(chord), where=chord_len[..., None] > 0)
+            heads = np.concatenate([d_in[:, None], unit], axis=1)  # [m, k + 1]
+            tails = np.concatenate([unit, d_out[:, None]], axis=1)
+            turn = np.arccos(np.clip(np.einsum("mjc,mjc->mj", heads, tails), -1.0, 1.0))  # [m, k + 1]
+            turn[:, 0] *= 2.0
+            turn[:, -1] *= 2.0
+            piece_turn = 0.5 * (turn[:, :-1] + turn[:, 1:])
+            total = chord_len.sum(axis=1, keepdims=True)
+            share = np.divide(chord_len, total, out=np.full_like(chord_len, 1.0 / k), where=total > 0)
+            piece_len = share * self.length[rows[curved]][:, None]
+            at = (first[curved][:, None] + np.arange(k)).ravel()
+            length[at] = piece_len.ravel()
+            with np.errstate(divide="ignore", invalid="ignore"):
+                radius[at] = np.where((piece_turn > 0) & (piece_len > 0), piece_len / piece_turn, np.inf).ravel()
+        return length, radius, first
 
 
 def segment_endpoints(drawing: Drawing) -> tuple[FloatArray, FloatArray, IntArray]:
@@ -182,18 +209,6 @@ def _first_nonzero(diffs: FloatArray) -> FloatArray:
     norms = np.linalg.norm(diffs, axis=2)
     k = np.argmax(norms > 0, axis=1)
     return _unit(diffs[np.arange(len(diffs)), k])
-
-
-def _sampled_min_radius(p: FloatArray) -> FloatArray:
-    """Smallest circumradius of consecutive sample triples (inf where the samples are collinear)."""
-    a = p[:, 1:-1] - p[:, :-2]
-    c = p[:, 2:] - p[:, 1:-1]
-    ac = p[:, 2:] - p[:, :-2]
-    la, lc, lac = (np.linalg.norm(x, axis=2) for x in (a, c, ac))
-    cross = np.linalg.norm(np.cross(a, c), axis=2)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        r = np.where(cross > 1e-12 * la * lc, la * lc * lac / (2.0 * cross), np.inf)
-    return r.min(axis=1) if r.shape[1] else np.full(len(p), np.inf)
 
 
 def segment_layers(drawing: Drawing, table: SegmentTable | IntArray) -> tuple[list[str], IntArray]:

@@ -1,11 +1,11 @@
-"""Motion model against closed-form kinematics and the junction-deviation corner formula."""
+"""Motion model against closed-form kinematics and the corner speed of an arc within a tolerance."""
 
 import math
 
 import numpy as np
 import pytest
 
-from pathlen.estimates.kinematics import junction_speed, move_times, plan_speeds, sequence_time
+from pathlen.estimates.kinematics import corner_speed, move_times, plan_speeds, sequence_time
 
 
 def test_trapezoid_from_rest_to_rest():
@@ -35,19 +35,20 @@ def test_infinite_acceleration_is_length_over_speed():
 
 
 @pytest.mark.parametrize(("turn_deg", "factor"), [(90, 1 + math.sqrt(2)), (0, math.inf), (180, 0.0)])
-def test_junction_deviation(turn_deg, factor):
-    # Junction deviation model (open-source CNC motion planners): v² = a δ sin(θ/2)/(1 - sin(θ/2)),
+def test_corner_speed_of_the_rounding_arc(turn_deg, factor):
+    # Elementary geometry: the arc tangent to both legs passing δ from the corner point has radius
+    # r = δ sin(θ/2)/(1 - sin(θ/2)); centripetal acceleration a at speed v on it: v² = a r,
     # θ between the reversed incoming and the outgoing direction: a square corner (θ = 90°) gives
     # sin 45° / (1 - sin 45°) = 1 + √2; straight on no limit; a reversal stops.
     a, delta = 2000.0, 0.05
     t = math.radians(turn_deg)
-    v = junction_speed(np.array([[1.0, 0, 0]]), np.array([[math.cos(t), math.sin(t), 0]]), a, delta)[0]
+    v = corner_speed(np.array([[1.0, 0, 0]]), np.array([[math.cos(t), math.sin(t), 0]]), a, delta)[0]
     assert v == pytest.approx(math.sqrt(a * delta * factor), abs=1e-9) if math.isfinite(factor) else v == math.inf
 
 
 def test_square_contour_by_hand():
-    # A square of side s cut from rest to rest: three inside corners at v_c = sqrt(a δ (1 + √2)) (junction
-    # deviation, 90°), each side a trapezoid between its end speeds (standard kinematics), computed here
+    # A square of side s cut from rest to rest: three inside corners at v_c = sqrt(a δ (1 + √2)) (the
+    # rounding arc at 90°), each side a trapezoid between its end speeds (standard kinematics), computed here
     # independently of the module.
     s, feed, a, delta = 50.0, 40.0, 1000.0, 0.05
     vc = math.sqrt(a * delta * (1 + math.sqrt(2)))
@@ -59,7 +60,7 @@ def test_square_contour_by_hand():
 
     expected = side(0, vc) + side(vc, vc) + side(vc, vc) + side(vc, 0)
     dirs = np.array([[1.0, 0, 0], [0, 1.0, 0], [-1.0, 0, 0], [0, -1.0, 0]])
-    corner = np.r_[math.inf, junction_speed(dirs[:-1], dirs[1:], a, delta)]
+    corner = np.r_[math.inf, corner_speed(dirs[:-1], dirs[1:], a, delta)]
     assert sequence_time(np.full(4, s), np.full(4, feed), corner, a) == pytest.approx(expected, rel=1e-12)
 
 

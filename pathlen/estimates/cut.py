@@ -27,8 +27,8 @@ from pathlen.contours import (
     gap_warnings,
     overlapping_lines,
 )
-from pathlen.errors import UsageError
-from pathlen.estimates.kinematics import junction_speed, move_times, sequence_time
+from pathlen.errors import InputError, UsageError
+from pathlen.estimates.kinematics import corner_speed, move_times, sequence_time
 from pathlen.estimates.tour import plan_tour
 from pathlen.estimates.waterjet import WaterjetInputs, waterjet_feed_mm_min
 from pathlen.importers import ImportOptions, read_drawing
@@ -217,6 +217,9 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
     subtotal = machine + consumables + setup
     result.cost = {"total": max(subtotal, p.minimum_charge), "machine": machine, "consumables": consumables,
                    "setup": setup, "minimum_charge_applied": float(subtotal < p.minimum_charge)}
+    numbers = [*result.time_s.values(), *result.cost.values(), result.cut_length_mm, result.rapid_length_mm]
+    if not all(math.isfinite(x) for x in numbers):  # a report holds finite numbers or none at all
+        raise InputError("the time model gave a non-finite result for this drawing; please report it with the file")
     return result
 
 
@@ -251,14 +254,15 @@ def _contour_motion_s(table: SegmentTable, c: Contour, feed: float, p: Profile, 
     """Time (s) to cut one contour from rest to rest: leads straight and tangent, corners and arcs limited."""
     idx, fwd = c.segments, c.forward
     scale = (c.length + change) / c.length if c.length > 0 else 1.0
-    length = table.length[idx] * scale
-    radius = table.min_radius[idx]
-    top = np.minimum(feed, np.sqrt(p.accel_mm_s2 * radius))  # centripetal limit v <= sqrt(a r)
+    length, radius, first = table.turning_pieces(idx, fwd)
+    length = length * scale
+    # centripetal limit v <= sqrt(a r) on each piece's mean radius; no tighter than the rounding arc
+    # the corner tolerance allows (the tip of a thin slit is a turn, not a stop)
+    top = np.minimum(feed, np.sqrt(p.accel_mm_s2 * np.maximum(radius, p.corner_tolerance_mm)))
     d_in, d_out = table.travel_directions(idx, fwd)
-    corner = np.empty(len(idx))
-    corner[0] = math.inf
+    corner = np.full(len(length), math.inf)  # within a segment the tangent turns smoothly
     if len(idx) > 1:
-        corner[1:] = junction_speed(d_out[:-1], d_in[1:], p.accel_mm_s2, p.junction_deviation_mm)
+        corner[first[1:]] = corner_speed(d_out[:-1], d_in[1:], p.accel_mm_s2, p.corner_tolerance_mm)
     moves_l, moves_top, moves_corner = [length], [top], [corner]
     if lead_in > 0:
         moves_l.insert(0, np.array([lead_in]))

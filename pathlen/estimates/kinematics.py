@@ -3,8 +3,9 @@
 Units: mm, s, mm/s, mm/s².  Each move has a length and a top speed; the machine starts and ends
 every sequence at rest and changes speed at a constant acceleration ``a`` (trapezoidal profile:
 accelerate, cruise, decelerate; triangular when the move is too short to reach its top speed).
-Where two moves meet, the speed is limited by the junction-deviation model of open-source CNC
-motion planners, and a forward and a backward pass make every speed change reachable.
+Where two moves meet at a sharp corner, the speed is the one of an arc that rounds the corner
+without leaving it by more than the corner tolerance, v = √(a·r) (:func:`corner_speed`); a forward
+and a backward pass make every speed change reachable.
 """
 
 from __future__ import annotations
@@ -38,17 +39,20 @@ def move_times(length: FloatArray, top: FloatArray, accel: float, v_in: FloatArr
     return t
 
 
-def junction_speed(d_in: FloatArray, d_out: FloatArray, accel: float, deviation: float) -> FloatArray:
-    """Highest speed through a corner from unit direction ``d_in`` to ``d_out`` (junction deviation).
+def corner_speed(d_in: FloatArray, d_out: FloatArray, accel: float, tolerance: float) -> FloatArray:
+    """Highest speed through a corner from unit direction ``d_in`` to ``d_out``.
 
+    The corner is taken as rounded by the arc tangent to both legs that passes ``tolerance`` (δ)
+    from the corner point, cut at the speed whose centripetal acceleration is ``a``: v = √(a·r).
     With θ the angle between the reversed incoming and the outgoing direction (θ = 180° going
-    straight on, 90° at a square corner, 0 on a reversal): v² = a·δ·sin(θ/2) / (1 - sin(θ/2)).
-    Straight on gives no limit (inf).
+    straight on, 90° at a square corner, 0 on a reversal) the corner point lies r/sin(θ/2) from
+    the arc's centre, so δ = r/sin(θ/2) − r and r = δ·sin(θ/2)/(1 − sin(θ/2)).  Straight on gives
+    no limit (inf).
     """
     cos_theta = np.clip(-np.einsum("ij,ij->i", d_in, d_out), -1.0, 1.0)
     sin_half = np.sqrt(0.5 * (1.0 - cos_theta))
     with np.errstate(divide="ignore"):
-        v2 = accel * deviation * sin_half / (1.0 - sin_half)
+        v2 = accel * tolerance * sin_half / (1.0 - sin_half)
     return np.where(sin_half >= 1.0 - 1e-12, np.inf, np.sqrt(v2))
 
 
