@@ -15,7 +15,7 @@ from numpy.typing import NDArray
 
 from pathlen.geometry import Drawing, FloatArray, IntArray, take_rows
 from pathlen.proximity import close_pairs, components
-from pathlen.segments import SegmentTable, segment_endpoints, segment_layers
+from pathlen.segments import SegmentTable, segment_endpoints, segment_layers, segment_midpoints
 
 #: Default join tolerance in millimetres.
 DEFAULT_JOIN_TOL_MM = 0.01
@@ -37,17 +37,18 @@ def count_contours(drawing: Drawing, join_tol: float = DEFAULT_JOIN_TOL_MM) -> C
     even number of segment ends (each segment can be traversed once in a loop).
     """
     start, end, ent = segment_endpoints(drawing)
+    middle = segment_midpoints(drawing)
     lines = drawing.lines
     real = np.ones(len(ent), dtype=bool)
     real[: len(lines)] = np.any(lines.p0 != lines.p1, axis=1)  # a zero-length line is not a contour
-    start, end, ent = start[real], end[real], ent[real]
+    start, end, ent, middle = start[real], end[real], ent[real], middle[real]
     n = len(ent)
     if n == 0:
         return ContourCount(0, 0)
     _, seg_layer = segment_layers(drawing, ent)
-    points = np.concatenate([start, end])
-    point_layer = np.concatenate([seg_layer, seg_layer])
-    node = join_nodes(points, point_layer, join_tol)
+    shut = closed_segments(start, end, middle, join_tol)
+    group = join_groups(seg_layer, ent, drawing.entities, shut)
+    node = join_nodes(np.concatenate([start, end]), np.concatenate([group, group]), join_tol, shut)
     a, b = node[:n], node[n:]
     comp = components(node.max() + 1, a, b)
     degree = np.bincount(a, minlength=node.max() + 1) + np.bincount(b, minlength=node.max() + 1)
@@ -121,8 +122,10 @@ def chain_contours(table: SegmentTable, layer: IntArray, join_tol: float = DEFAU
         return ContourSet(none, none.astype(bool), none, none, none.astype(bool), none, np.zeros(0), np.zeros(0),
                           np.zeros((0, 3)), np.zeros((0, 3)))
     k = len(rows)
-    node = join_nodes(np.concatenate([take_rows(table.start, rows), take_rows(table.end, rows)]),
-                      np.concatenate([layer[rows], layer[rows]]), join_tol)
+    start, end = take_rows(table.start, rows), take_rows(table.end, rows)
+    shut = closed_segments(start, end, take_rows(table.middle, rows), join_tol)
+    group = join_groups(layer[rows], table.entity[rows], table.drawing.entities, shut)
+    node = join_nodes(np.concatenate([start, end]), np.concatenate([group, group]), join_tol, shut)
     node_of = np.stack([node[:k], node[k:]], axis=1)  # [k, 2]: node at start, at end
     nodes = int(node.max()) + 1
     degree = np.bincount(node, minlength=nodes)
@@ -141,26 +144,64 @@ def chain_contours(table: SegmentTable, layer: IntArray, join_tol: float = DEFAU
     return _contours_from_chains(table, layer, rows, node_of, local, fwd, sizes)
 
 
-def join_nodes(points: FloatArray, groups: IntArray, tol: float) -> IntArray:
-    """Node number (not necessarily consecutive) of each point: points of one group within ``tol``
-    (chained) share a node.
+def join_nodes(points: FloatArray, groups: IntArray, tol: float, closed: NDArray[np.bool_] | None = None) -> IntArray:
+    """Node number (not necessarily consecutive) of each end point; ``points`` are the starts of n
+    segments followed by their ends, ``groups`` theirs (layer, or a closed loop of its own).
 
-    Identical points are merged first (sorted by a hash of their bits: a collision only leaves two
-    entries for one place, which the neighbour search then joins), so the search sees each place once.
+    Identical points (same group) are one place.  Within ``tol`` only loose places join: a place
+    holding an odd number of ends (a dangling end) joins its nearest place in reach, so a chain of
+    segments shorter than the tolerance is never folded together, and a segment's two ends never
+    join each other (it would become a loop of its own) unless it is ``closed`` (a whole circle,
+    say, whose ends differ by rounding).  Identical points are found by sorting a hash of their bits
+    (a collision only leaves two entries for one place, joined below).
     """
+    n = len(points) // 2
     bits = np.ascontiguousarray(points).view(np.uint64)
     key = (bits[:, 0] * np.uint64(0x9E3779B97F4A7C15)) ^ (bits[:, 1] * np.uint64(0xC2B2AE3D27D4EB4F)) ^ (
         bits[:, 2] * np.uint64(0x165667B19E3779F9)) ^ groups.astype(np.uint64)
     order = np.argsort(key)
     p, g = take_rows(points, order), groups[order]
     new = np.r_[True, (p[1:, 0] != p[:-1, 0]) | (p[1:, 1] != p[:-1, 1]) | (p[1:, 2] != p[:-1, 2]) | (g[1:] != g[:-1])]
-    place = np.cumsum(new) - 1
+    place_sorted = np.cumsum(new) - 1
     first = np.flatnonzero(new)
+    place = np.empty(len(points), dtype=np.int64)
+    place[order] = place_sorted
+    places = len(first)
+    ends_at = np.bincount(place, minlength=places)
     pairs = close_pairs(take_rows(p, first), tol, g[first])
-    label = components(len(first), pairs[:, 0], pairs[:, 1])  # node numbers below len(first), some unused
-    node = np.empty(len(points), dtype=np.int64)
-    node[order] = label[place]
-    return node
+    a, b = pairs[:, 0], pairs[:, 1]
+    # a segment's own two ends never join: drop pairs of places it links
+    shut = np.zeros(n, dtype=bool) if closed is None else closed
+    own = np.unique(np.sort(np.stack([place[:n][~shut], place[n:][~shut]], axis=1), axis=1) @ np.array([places, 1]))
+    pair_key = np.minimum(a, b) * places + np.maximum(a, b)
+    allowed = ~np.isin(pair_key, own) & ((ends_at[a] % 2 == 1) | (ends_at[b] % 2 == 1))
+    a, b = a[allowed], b[allowed]
+    # each loose place takes its nearest allowed partner
+    src = np.concatenate([a, b])
+    dst = np.concatenate([b, a])
+    loose = ends_at[src] % 2 == 1
+    src, dst = src[loose], dst[loose]
+    dist = np.linalg.norm(take_rows(p, first[src]) - take_rows(p, first[dst]), axis=1)
+    pick = np.lexsort((dst, dist, src))
+    best = pick[np.r_[True, src[pick][1:] != src[pick][:-1]]] if len(pick) else pick
+    label = components(places, np.r_[src[best], place[:n][shut]], np.r_[dst[best], place[n:][shut]])
+    return label[place]
+
+
+def join_groups(layer: IntArray, entity: IntArray, entities: list, shut: NDArray[np.bool_]) -> IntArray:
+    """Which ends may join: ends of one layer, except that a segment closed on itself is a group of
+    its own and the segments of an entity closed in the file (:attr:`Entity.loop`) join only among
+    themselves: closed stays closed, whatever touches it."""
+    loop = np.array([e.loop for e in entities], dtype=bool)[entity] if len(entity) else np.zeros(0, dtype=bool)
+    top = int(layer.max()) + 1 if len(layer) else 0
+    group = np.where(loop, top + entity, layer)
+    return np.where(shut, top + len(entities) + np.arange(len(layer)), group)
+
+
+def closed_segments(start: FloatArray, end: FloatArray, middle: FloatArray, tol: float) -> NDArray[np.bool_]:
+    """Segments that close on themselves: ends within ``tol`` while the middle is farther (a whole
+    circle or ellipse; a segment shorter than the tolerance is not one)."""
+    return (np.linalg.norm(end - start, axis=1) <= tol) & (np.linalg.norm(middle - start, axis=1) > tol)
 
 
 def _simple_chains(node_of: IntArray, simple: NDArray[np.bool_], piece: IntArray
@@ -235,16 +276,19 @@ def _walked_chains(node_of: IntArray, branched: NDArray[np.bool_]) -> tuple[IntA
     at = node_of.ravel()[ends]
     ptr = np.searchsorted(at, np.arange(int(node_of.max()) + 2))
     ends_l, ptr_l, node_l = ends.tolist(), ptr.tolist(), node_of.tolist()
+    cursor = ptr_l[:]  # per node: the first end not yet known to be used (each end passed once: linear)
     used = bytearray(len(node_of))
 
     def walk(at: int) -> list[tuple[int, bool]]:
         path = []
         while True:
-            for e in ends_l[ptr_l[at]:ptr_l[at + 1]]:
-                if not used[e >> 1]:
-                    break
-            else:
+            k, stop = cursor[at], ptr_l[at + 1]
+            while k < stop and used[ends_l[k] >> 1]:
+                k += 1
+            cursor[at] = k
+            if k == stop:
                 return path
+            e = ends_l[k]
             i, which = e >> 1, e & 1
             used[i] = 1
             path.append((i, which == 0))  # entered at its start: cut forwards
@@ -303,21 +347,42 @@ def gap_warnings(contours: ContourSet, layer_names: list[str], join_tol: float,
 
 def duplicate_segments(table: SegmentTable, layer: IntArray, tol: float = DEFAULT_JOIN_TOL_MM) -> IntArray:
     """Rows that repeat an earlier row's geometry on the same layer (same ends either way round, same
-    middle point and length within ``tol`` mm): the first of each group is kept, the rest returned."""
+    middle point and length within ``tol`` mm, and within a quarter of the shorter one's length, so
+    that neighbours in a chain of segments shorter than the tolerance are not taken for copies):
+    the first of each group is kept, the rest returned."""
     if len(table) < 2:
         return np.zeros(0, dtype=np.int64)
     middle = table.middle
-    pairs = close_pairs(middle, tol, layer)
-    a, b = pairs[:, 0], pairs[:, 1]
+    # exact copies first (ends in either order, middle, layer): a stack of copies is one row below
+    flip = _lexically_less(table.end, table.start)
+    lo = np.where(flip[:, None], table.end, table.start)
+    hi = np.where(flip[:, None], table.start, table.end)
+    exact = np.concatenate([lo, hi, middle, layer[:, None].astype(float)], axis=1)
+    _, rep, cls = np.unique(exact, axis=0, return_index=True, return_inverse=True)
+    cls = cls.ravel()
+    rep_of = rep[cls]  # the first row of each exact class
+    sub = np.sort(rep)
+    pairs = close_pairs(middle[sub], tol, layer[sub])
+    a, b = sub[pairs[:, 0]], sub[pairs[:, 1]]
+
+    reach = np.minimum(tol, 0.25 * np.minimum(table.length[a], table.length[b]))
 
     def near(p: FloatArray, q: FloatArray) -> NDArray[np.bool_]:
-        return np.linalg.norm(p - q, axis=1) <= tol
+        return np.linalg.norm(p - q, axis=1) <= reach
 
     same_way = near(table.start[a], table.start[b]) & near(table.end[a], table.end[b])
     other_way = near(table.start[a], table.end[b]) & near(table.end[a], table.start[b])
-    same = (same_way | other_way) & (np.abs(table.length[a] - table.length[b]) <= tol)
-    label = components(len(table), a[same], b[same])
+    same = (same_way | other_way) & near(middle[a], middle[b]) & (np.abs(table.length[a] - table.length[b]) <= reach)
+    label = components(len(table), np.r_[a[same], np.arange(len(table))], np.r_[b[same], rep_of])
     return np.flatnonzero(label != np.arange(len(table)))
+
+
+def _lexically_less(p: FloatArray, q: FloatArray) -> NDArray[np.bool_]:
+    """Row-wise: is point ``p`` before ``q`` comparing x, then y, then z?"""
+    less = p[:, 2] < q[:, 2]
+    for axis in (1, 0):
+        less = (p[:, axis] < q[:, axis]) | ((p[:, axis] == q[:, axis]) & less)
+    return less
 
 
 def overlapping_lines(table: SegmentTable, layer: IntArray, rows: IntArray, tol: float = DEFAULT_JOIN_TOL_MM

@@ -179,6 +179,9 @@ class Entity:
     copies: int = 1
     #: on a layer the author switched off or froze: not measured unless asked for
     hidden: bool = False
+    #: closed in the file (a closed polyline, an SVG rect, polygon or path whose subpaths all end in Z):
+    #: its segments chain among themselves into closed contours, whatever touches them
+    loop: bool = False
 
 
 @dataclass(frozen=True)
@@ -335,8 +338,8 @@ class SegmentCollector:
             p = Placement(sub, np.array(matrices, dtype=float).reshape(-1, 4, 4),
                           np.arange(base, base + len(sub.entities), dtype=np.int64), grid)
             n = p.copies()
-            self.entities.extend(Entity(layer_of(e.layer), prefix + e.handle, e.kind, e.color, e.copies * n)
-                                 for e in sub.entities)
+            self.entities.extend(Entity(layer_of(e.layer), prefix + e.handle, e.kind, e.color, e.copies * n,
+                                        loop=e.loop) for e in sub.entities)
             if self.hidden_layers:
                 for e in self.entities[base:]:
                     e.hidden = e.layer in self.hidden_layers

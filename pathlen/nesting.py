@@ -12,7 +12,7 @@ import shapely
 from pathlen.contours import Contour, ContourSet
 from pathlen.geometry import IntArray, take_rows
 from pathlen.proximity import cell_keys, expand_ranges
-from pathlen.segments import SegmentTable
+from pathlen.segments import CURVE_SAMPLES, SegmentTable
 
 #: Segments per quarter circle of the round joins that shapely's buffer draws.
 OFFSET_QUAD_SEGS = 64
@@ -29,23 +29,14 @@ def contour_outline(table: SegmentTable, contour: Contour) -> np.ndarray:
     return table.travel_samples(contour.segments, contour.forward)[:, :, :2].reshape(-1, 2)
 
 
-def _inside(point: np.ndarray, ring: np.ndarray) -> bool:
-    """Crossing-number test: is ``point`` strictly inside the closed ring (points on it count as out)?"""
-    a, b = ring[:-1], ring[1:]
-    straddle = (a[:, 1] > point[1]) != (b[:, 1] > point[1])
-    with np.errstate(divide="ignore", invalid="ignore"):
-        x = a[:, 0] + (point[1] - a[:, 1]) * (b[:, 0] - a[:, 0]) / (b[:, 1] - a[:, 1])
-    if np.any(straddle & (x == point[0])):
-        return False
-    return bool(np.count_nonzero(straddle & (x > point[0])) % 2)
-
-
 def nesting_depth(table: SegmentTable, contours: ContourSet) -> tuple[IntArray, IntArray]:
     """For each contour: how many closed contours contain it, and the innermost one (-1: none).
 
     A contour is inside another when its start point lies strictly inside the other's outline
     (any layer).  Even depth: an outer profile; odd depth: a hole.  Bounding boxes (on a grid)
     pick the candidates; each candidate is settled by a crossing-number test on the outline.
+    Contours drawn more than once (the same box, start and closedness) are tested once for the
+    class and counted once per copy: a stack of copies costs what one does.
     """
     n = len(contours)
     depth = np.zeros(n, dtype=np.int64)
@@ -57,25 +48,66 @@ def nesting_depth(table: SegmentTable, contours: ContourSet) -> tuple[IntArray, 
     box_lo = np.minimum.reduceat(take_rows(seg_lo[:, :2], contours.steps), contours.first)  # per contour
     box_hi = np.maximum.reduceat(take_rows(seg_hi[:, :2], contours.steps), contours.first)
     box_size = (box_hi - box_lo).prod(axis=1)
-    lo, hi = take_rows(box_lo, closed), take_rows(box_hi, closed)
     starts = contours.start[:, :2]
-    point_i, box_j = points_in_boxes(starts, lo, hi)
-    container = closed[box_j]
-    keep = container != point_i
-    point_i, container = point_i[keep], container[keep]
-    hits = [_inside(starts[i], contour_outline(table, contours[j])) for i, j in
-            zip(point_i.tolist(), container.tolist(), strict=True)]
-    point_i, container = point_i[np.array(hits, dtype=bool)], container[np.array(hits, dtype=bool)]
-    # a container is larger than what it holds: crossing outlines cannot hold each other (no cycles)
+    key = np.concatenate([box_lo, box_hi, starts, contours.closed[:, None].astype(float)], axis=1)
+    _, rep, cls, copies = np.unique(key, axis=0, return_index=True, return_inverse=True, return_counts=True)
+    cls = cls.ravel()
+    shut = rep[contours.closed[rep]]  # one closed contour per class
+    point_i, box_j = points_in_boxes(starts[rep], take_rows(box_lo, shut), take_rows(box_hi, shut))
+    point_i, container = rep[point_i], shut[box_j]
+    # a container is larger than what it holds: crossing outlines cannot hold each other (no cycles);
+    # equal boxes (a part drawn twice) hold nothing of each other: settled before any outline test
     bigger = box_size[container] > box_size[point_i]
     point_i, container = point_i[bigger], container[bigger]
+    hits = _starts_inside(table, contours, starts, point_i, container)
+    point_i, container = point_i[hits], container[hits]
     if len(point_i) == 0:
         return depth, parent
-    np.add.at(depth, point_i, 1)
+    class_depth = np.zeros(len(rep), dtype=np.int64)
+    np.add.at(class_depth, cls[point_i], copies[cls[container]])
+    class_parent = np.full(len(rep), -1, dtype=np.int64)
     pick = np.lexsort((-box_size[container], point_i))  # per contour, the smallest container last
     last = np.r_[point_i[pick][1:] != point_i[pick][:-1], True]
-    parent[point_i[pick][last]] = container[pick][last]
-    return depth, parent
+    class_parent[cls[point_i[pick][last]]] = container[pick][last]
+    return class_depth[cls], class_parent[cls]
+
+
+#: Point-in-outline tests (pair x outline edge) per numpy pass.
+EDGE_TESTS_PER_PASS = 4_000_000
+
+
+def _starts_inside(table: SegmentTable, contours: ContourSet, starts: np.ndarray, point_i: IntArray,
+                   container: IntArray) -> np.ndarray:
+    """Per pair: is the start of contour ``point_i`` strictly inside the outline of contour ``container``?
+
+    Crossing-number test against the outline's sample chords (points on the outline count as
+    outside), every pair at once in passes of :data:`EDGE_TESTS_PER_PASS` edge tests.
+    """
+    if len(point_i) == 0:
+        return np.zeros(0, dtype=bool)
+    k = CURVE_SAMPLES - 1
+    pts = table.travel_samples(contours.steps, contours.forward)[:, :, :2]
+    ax, ay = np.ascontiguousarray(pts[:, :-1, 0]).ravel(), np.ascontiguousarray(pts[:, :-1, 1]).ravel()
+    bx, by = np.ascontiguousarray(pts[:, 1:, 0]).ravel(), np.ascontiguousarray(pts[:, 1:, 1]).ravel()
+    edge_lo, edge_n = k * contours.first, k * contours.size
+    hits = np.zeros(len(point_i), dtype=bool)
+    per_pair = edge_n[container]
+    cuts = np.searchsorted(np.cumsum(per_pair), np.arange(EDGE_TESTS_PER_PASS, int(per_pair.sum()) + 1,
+                                                          EDGE_TESTS_PER_PASS))
+    for lo, hi in zip(np.r_[0, cuts], np.r_[cuts, len(point_i)], strict=True):
+        if hi <= lo:
+            continue
+        first = edge_lo[container[lo:hi]]
+        pair, edge = expand_ranges(np.arange(lo, hi), first, first + edge_n[container[lo:hi]]).T
+        py = starts[point_i, 1][pair]
+        straddle = np.flatnonzero((ay[edge] > py) != (by[edge] > py))  # most edges do not: the rest skip them
+        pair, edge, py = pair[straddle], edge[straddle], py[straddle]
+        px = starts[point_i, 0][pair]
+        x = ax[edge] + (py - ay[edge]) * (bx[edge] - ax[edge]) / (by[edge] - ay[edge])
+        crossings = np.bincount(pair - lo, weights=x > px, minlength=hi - lo)
+        on = np.bincount(pair - lo, weights=x == px, minlength=hi - lo)
+        hits[lo:hi] = (crossings.astype(np.int64) % 2 == 1) & (on == 0)
+    return hits
 
 
 #: Most grid cells one box may cover before the grid is made coarser.
@@ -157,11 +189,13 @@ def contour_turning(table: SegmentTable, contour: Contour) -> tuple[float, np.nd
     pts = table.travel_samples(idx, fwd)[:, :, :2]
     t_in, t_out = (d[:, :2] for d in table.travel_directions(idx, fwd))
     chords = np.diff(pts, axis=1)
-    moving = np.linalg.norm(chords, axis=2) > 0
-    smooth = 0.0
-    for k in range(len(idx)):  # per segment: tangent, chords (skipping repeated samples), tangent
-        steps = np.vstack([t_in[k][None, :], chords[k][moving[k]], t_out[k][None, :]])
-        smooth += float(_signed_angle(steps[:-1], steps[1:]).sum())
+    steps = np.concatenate([t_in[:, None], chords, t_out[:, None]], axis=1)  # [k, samples + 1, 2]
+    # a repeated sample (zero chord) has no direction: it keeps the one before it
+    moving = np.linalg.norm(steps, axis=2) > 0
+    moving[:, 0] = True
+    last = np.maximum.accumulate(np.where(moving, np.arange(steps.shape[1]), 0), axis=1)
+    steps = np.take_along_axis(steps, last[:, :, None], axis=1)
+    smooth = float(_signed_angle(steps[:, :-1], steps[:, 1:]).sum())
     corners = _signed_angle(t_out, np.roll(t_in, -1, axis=0))
     return smooth, corners
 

@@ -182,6 +182,17 @@ def segment_endpoints(drawing: Drawing) -> tuple[FloatArray, FloatArray, IntArra
     return np.concatenate(starts), np.concatenate(ends), np.concatenate(ents)
 
 
+def segment_midpoints(drawing: Drawing) -> FloatArray:
+    """Each segment's point at mid-parameter, in table row order."""
+    arcs = drawing.arcs
+    mids = [0.5 * (drawing.lines.p0 + drawing.lines.p1), arcs.points(0.5 * (arcs.t0 + arcs.t1))]
+    half = np.array([0.5])
+    for degree in sorted(drawing.beziers):
+        b = drawing.beziers[degree]
+        mids.append(_bezier_points(b, np.arange(len(b)), half)[:, 0])
+    return np.concatenate(mids)
+
+
 def segment_table(drawing: Drawing, measured: Measurement) -> SegmentTable:
     """The flat table of ``drawing`` with lengths from ``measured``."""
     start, end, entity = segment_endpoints(drawing)

@@ -120,8 +120,9 @@ def test_duplicates_cut_once_with_dedupe(tmp_path, profile_file):
     p = profile(profile_file)
     twice = estimate_file(str(path), CutSettings(p))
     once = estimate_file(str(path), CutSettings(p, dedupe=True))
-    assert twice.cut_length_mm == pytest.approx(2 * 8 * math.pi)  # the copies chain: one pierce, two laps
-    assert twice.pierces == 1
+    # each circle drawn is closed in the file: two closed contours, two pierces (circle 2πr each)
+    assert twice.cut_length_mm == pytest.approx(2 * 8 * math.pi + 2 * (p.lead_in_mm + p.lead_out_mm))
+    assert twice.pierces == 2
     assert once.cut_length_mm == pytest.approx(8 * math.pi) and once.pierces == 1
     assert any("drawn twice" in w for w in twice.warnings + once.warnings)
 

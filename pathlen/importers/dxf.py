@@ -351,8 +351,9 @@ def _lwpolyline(e: DXFGraphic, coll: SegmentCollector) -> None:
         coll.warn(f"LWPOLYLINE #{e.dxf.handle} has {len(pts)} vertices: nothing to measure")
         return
     z = float(e.dxf.elevation)
-    _bulged_path([(p[0], p[1], z) for p in pts], [float(p[4]) for p in pts], bool(e.closed),
-                 e.ocs(), coll, _entity(e, coll))
+    ent = _entity(e, coll)
+    coll.entities[ent].loop = bool(e.closed)
+    _bulged_path([(p[0], p[1], z) for p in pts], [float(p[4]) for p in pts], bool(e.closed), e.ocs(), coll, ent)
 
 
 def _polyline(e: DXFGraphic, coll: SegmentCollector) -> None:
@@ -364,6 +365,7 @@ def _polyline(e: DXFGraphic, coll: SegmentCollector) -> None:
         coll.warn(f"POLYLINE #{e.dxf.handle} has {len(verts)} vertices: nothing to measure")
         return
     ent = _entity(e, coll)
+    coll.entities[ent].loop = bool(e.is_closed)
     if e.is_3d_polyline:
         pts = [v.dxf.location.xyz for v in verts]
         if e.is_closed:

@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import itertools
 import math
+import re
 import xml.etree.ElementTree as ET
 from array import array
 from collections import Counter
@@ -191,6 +192,21 @@ class _Canvas:
     paths: list[tuple[str, int, int]] = field(default_factory=list)
     #: copies of other definitions: (definition key, user units -> this canvas, handle prefix)
     placements: list[tuple[tuple, Affine2, str]] = field(default_factory=list)
+
+
+_MOVES = re.compile(r"[Mm]")
+_CLOSES = re.compile(r"[Zz]")
+
+
+def _closed_in_file(elem: ET.Element, tag: str) -> bool:
+    """Whether the shape is closed as written: rect, circle, ellipse, polygon, or a path whose every
+    subpath ends in a closepath."""
+    if tag in ("rect", "circle", "ellipse", "polygon"):
+        return True
+    if tag != "path":
+        return False
+    d = elem.get("d", "").rstrip()
+    return d[-1:] in ("z", "Z") and len(_MOVES.findall(d)) <= len(_CLOSES.findall(d))
 
 
 class _Importer:
@@ -551,7 +567,8 @@ class _Importer:
 
     def add_entity(self, elem: ET.Element, tag: str, st: _State) -> None:
         """The entity row for a drawn shape: layer, handle, kind and stroke colour."""
-        self.canvas.entities.append(Entity(st.layer or "", self.handle(elem, tag), tag, _colour(st.stroke, st.color)))
+        self.canvas.entities.append(Entity(st.layer or "", self.handle(elem, tag), tag, _colour(st.stroke, st.color),
+                                           loop=_closed_in_file(elem, tag)))
         self.drawn.add(id(elem))
 
     def poly(self, text: str, closed: bool) -> str | None:
