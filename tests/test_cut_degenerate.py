@@ -1,5 +1,6 @@
 """Cut estimates on degenerate sheets: thin slits, fine segments, stacks, shared corners."""
 
+import itertools
 import json
 import math
 
@@ -8,6 +9,7 @@ import numpy as np
 import pytest
 from scipy.integrate import quad
 
+from pathlen.batch import measure_file
 from pathlen.cli import main
 from pathlen.estimates.cut import CutSettings, estimate_file
 from pathlen.profiles import read_profile_file
@@ -99,3 +101,84 @@ def test_circle_pieces_have_the_circle_radius(tmp_path):
     assert length.sum() == pytest.approx(2 * math.pi * 7.0, rel=1e-12)
     np.testing.assert_allclose(radius, 7.0, rtol=1e-12)
     assert first.tolist() == [0]
+
+
+def lines_dxf(tmp_path, points, name, closed=False, as_polyline=False):
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 4
+    msp = doc.modelspace()
+    if as_polyline:
+        msp.add_lwpolyline(points, close=closed)
+    else:
+        pts = [*points, points[0]] if closed else points
+        for a, b in itertools.pairwise(pts):
+            msp.add_line(a, b)
+    path = tmp_path / name
+    doc.saveas(path)
+    return str(path)
+
+
+def test_segments_shorter_than_the_join_tolerance_stay_a_line(tmp_path, slow):
+    # a 10 mm line drawn as 2,000 pieces of 0.005 mm (half the default 0.01 mm join tolerance)
+    path = lines_dxf(tmp_path, [(k * 0.005, 0.0) for k in range(2001)], "fine.dxf")
+    result = measure_file(path)
+    assert (result.closed, result.open) == (0, 1)
+    cut = estimate_file(path, CutSettings(slow, dedupe=True))
+    assert (cut.closed, cut.open) == (0, 1)
+    assert cut.cut_length_mm == pytest.approx(10.0, rel=1e-12)  # nothing taken for "drawn twice"
+    assert not any("drawn twice" in w for w in cut.warnings)
+
+
+def test_fine_circle_is_one_closed_contour_and_no_duplicates(tmp_path, slow):
+    # a circle of radius 5 drawn as 10,000 chords: one closed contour, perimeter of the inscribed
+    # 10,000-gon 2·n·r·sin(π/n) (classical), nothing "drawn twice"
+    n = 10_000
+    pts = [(5 * math.cos(2 * math.pi * k / n), 5 * math.sin(2 * math.pi * k / n)) for k in range(n)]
+    path = lines_dxf(tmp_path, pts, "fine_circle.dxf", closed=True)
+    cut = estimate_file(path, CutSettings(slow, dedupe=True))
+    assert (cut.closed, cut.open) == (1, 0)
+    assert cut.cut_length_mm == pytest.approx(2 * n * 5 * math.sin(math.pi / n), rel=1e-9)
+    assert not any("drawn twice" in w for w in cut.warnings)
+
+
+def test_triangles_sharing_a_corner_are_two_closed_contours(tmp_path, slow):
+    # closed in the file (closed polyline flag, DXF reference LWPOLYLINE group 70 bit 1): each stays closed
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 4
+    msp = doc.modelspace()
+    msp.add_lwpolyline([(0, 0), (10, 0), (5, 8)], close=True)
+    msp.add_lwpolyline([(10, 0), (20, 0), (15, 8)], close=True)
+    path = tmp_path / "bowtie.dxf"
+    doc.saveas(path)
+    counted = measure_file(str(path))
+    assert (counted.closed, counted.open) == (2, 0)
+    cut = estimate_file(str(path), CutSettings(slow))
+    assert (cut.closed, cut.open, cut.pierces) == (2, 0, 2)
+
+
+def test_svg_closed_subpaths_touching_at_a_vertex(tmp_path):
+    path = tmp_path / "touch.svg"
+    path.write_text('<svg xmlns="http://www.w3.org/2000/svg" width="40mm" height="20mm" viewBox="0 0 40 20">'
+                    '<path d="M0 0 L10 0 L5 8 Z"/><path d="M10 0 L20 0 L15 8 Z"/>'
+                    '<circle cx="25" cy="10" r="5"/><line x1="30" y1="10" x2="38" y2="10"/></svg>')
+    result = measure_file(str(path))
+    assert (result.closed, result.open) == (3, 1)  # the line touching the circle leaves it closed
+
+
+def test_stacks_and_stars_are_handled_in_reasonable_time(tmp_path, slow):
+    # 1,000 copies of one circle, and 1,000 lines through one point: bounded work, honest counts
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 4
+    msp = doc.modelspace()
+    for _ in range(1000):
+        msp.add_circle((0, 0), 5)
+    for k in range(1000):
+        a = 2 * math.pi * k / 1000
+        msp.add_line((100, 0), (100 + 50 * math.cos(a), 50 * math.sin(a)))
+    path = tmp_path / "stack.dxf"
+    doc.saveas(path)
+    cut = estimate_file(str(path), CutSettings(slow))
+    assert cut.ok and cut.closed == 1000 and cut.pierces == 1000 + 500
+    assert any("999 segments drawn twice" in w for w in cut.warnings)
+    once = estimate_file(str(path), CutSettings(slow, dedupe=True))
+    assert once.closed == 1
