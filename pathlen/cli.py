@@ -89,7 +89,7 @@ def reading_options(paths_required: bool = True) -> Callable[[Callable[..., Any]
 
 
 _READING_KEYS = ("paths", "fmt", "output", "units", "rtol", "drawing_units", "svg_dpi", "join_tol", "jobs",
-                 "max_segments", "timeout", "max_memory", "strict", "recover", "hidden_layers")
+                 "max_segments", "timeout", "max_memory", "strict", "recover", "hidden_layers", "svg_language")
 
 
 def _reading_options(paths_required: bool) -> list[Callable[[Callable[..., Any]], Callable[..., Any]]]:
@@ -123,6 +123,9 @@ def _reading_options(paths_required: bool) -> list[Callable[[Callable[..., Any]]
         click.option("--strict", is_flag=True, help="Fail a file on any warning (for automated pipelines)."),
         click.option("--recover", is_flag=True,
                      help="Measure what can be read of a damaged DXF file (refused by default)."),
+        click.option("--svg-language", metavar="TAG", default=None,
+                     help="The user's language for SVG systemLanguage conditions (a language tag such as en or "
+                          "de-CH; default from the environment, named in the report when used)."),
         click.option("--hidden-layers", is_flag=True,
                      help="Measure DXF layers that are switched off or frozen too (left out by default)."),
     ]
@@ -130,7 +133,7 @@ def _reading_options(paths_required: bool) -> list[Callable[[Callable[..., Any]]
 
 def _reading(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rtol: float, drawing_units: str | None,
              svg_dpi: float | None, join_tol: float, jobs: int, max_segments: int, timeout: float, max_memory: int,
-             strict: bool, recover: bool, hidden_layers: bool) -> Reading:
+             strict: bool, recover: bool, hidden_layers: bool, svg_language: str | None) -> Reading:
     if not 0 < rtol < 1:
         raise click.BadParameter("must lie between 0 and 1", param_hint="--rtol")
     if not join_tol >= 0:
@@ -138,7 +141,7 @@ def _reading(paths: tuple[str, ...], fmt: str, output: str | None, units: str, r
     if output is not None and not (Path(output).parent or Path(".")).is_dir():
         raise click.BadParameter(f"folder {str(Path(output).parent)!r} does not exist", param_hint="--output")
     return Reading(paths, fmt, output, units, rtol, join_tol, jobs,
-                   ImportOptions(drawing_units, svg_dpi, recover, hidden_layers), max_segments,
+                   ImportOptions(drawing_units, svg_dpi, recover, hidden_layers, svg_language), max_segments,
                    Limits(timeout, max_memory), strict)
 
 

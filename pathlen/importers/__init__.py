@@ -26,6 +26,7 @@ class ImportOptions:
     svg_dpi: float | None = None  # SVG sized in px or not sized: px per inch (None: 96, with a warning)
     recover: bool = False  # DXF: measure what structural recovery can read of a damaged file
     hidden_layers: bool = False  # DXF: measure layers that are off or frozen too
+    svg_language: str | None = None  # SVG systemLanguage: the user's language (None: from the environment)
 
 
 def read_drawing(path: Path, options: ImportOptions = ImportOptions()) -> Drawing:
@@ -40,7 +41,7 @@ def read_drawing(path: Path, options: ImportOptions = ImportOptions()) -> Drawin
     elif suffix == ".svg":
         from pathlen.importers.svg import read_svg
 
-        drawing = read_svg(path, options.svg_dpi)
+        drawing = read_svg(path, options.svg_dpi, options.svg_language)
     else:
         raise InputError(f"unsupported file type {suffix or '(none)'!r}: expected {' or '.join(SUFFIXES)}")
     check_geometry(drawing)

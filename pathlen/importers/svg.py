@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import itertools
 import math
+import os
 import re
 import xml.etree.ElementTree as ET
 from array import array
@@ -39,11 +40,15 @@ from pathlen.importers.svg_values import (
     PX_PER_UNIT,
     Affine2,
     BadValue,
+    Relative,
     compose,
     normalise_color,
+    number_prefix,
+    parse_css_transform,
     parse_length,
     parse_numbers,
     parse_transform,
+    transform_origin,
     translate,
     viewbox_transform,
 )
@@ -68,6 +73,21 @@ DEFINITIONS = frozenset({"defs", "symbol"})
 NOT_DRAWN = frozenset({"clipPath", "mask", "marker", "pattern", "linearGradient", "radialGradient", "filter",
                        "style", "script", "title", "desc", "metadata", "font", "font-face", "view", "cursor"})
 NOT_MEASURED = frozenset({"text", "image", "foreignObject", "video", "audio", "canvas", "iframe"})
+#: Elements a <switch> may choose (rendering elements and containers; SVG 2, 5.8.2).
+RENDERED = SHAPES | CONTAINERS | NOT_MEASURED | {"use"}
+#: CSS absolute-size keywords in px (CSS Fonts 4, "absolute-size" table, medium = 16 px).
+FONT_KEYWORDS = {"xx-small": 9.0, "x-small": 10.0, "small": 13.0, "medium": 16.0, "large": 18.0,
+                 "x-large": 24.0, "xx-large": 32.0, "xxx-large": 48.0}
+
+
+def user_language() -> tuple[str, str]:
+    """The user's language as a BCP 47 tag from the environment (LANGUAGE, LC_ALL, LC_MESSAGES, LANG:
+    "de_CH.UTF-8" -> "de-CH"), and where it came from; "en" when none is set."""
+    for name in ("LANGUAGE", "LC_ALL", "LC_MESSAGES", "LANG"):
+        value = os.environ.get(name, "").split(":")[0].split(".")[0].split("@")[0]
+        if value and value not in ("C", "POSIX"):
+            return value.replace("_", "-"), f"from ${name}"
+    return "en", "default; set --svg-language"
 
 
 @dataclass(frozen=True)
@@ -80,10 +100,14 @@ class _State:
     color: str
     visible: bool
     viewport: tuple[float, float]  # width, height in the current user units, for percentages
+    font_size: float = 16.0  # px (user units), for em and ex: CSS initial value "medium" = 16 px
 
 
-def read_svg(path: Path, dpi: float | None = None) -> Drawing:
-    """Read an SVG file; raises :class:`InputError` for unreadable, unsafe or non-SVG files."""
+def read_svg(path: Path, dpi: float | None = None, language: str | None = None) -> Drawing:
+    """Read an SVG file; raises :class:`InputError` for unreadable, unsafe or non-SVG files.
+
+    ``language`` is the user's language for ``systemLanguage`` (a BCP 47 tag; default from the
+    environment, see :func:`user_language`)."""
     root = parse_safely(path)
     if local_name(root.tag) != "svg":
         raise InputError(f"not an SVG file (root element is <{local_name(root.tag)}>)")
@@ -91,7 +115,7 @@ def read_svg(path: Path, dpi: float | None = None) -> Drawing:
         namespace = root.tag[1:].partition("}")[0]
         raise InputError(f"root <svg> is in the namespace {namespace[:60]!r}, not SVG's "
                          "(http://www.w3.org/2000/svg): nothing in it would be drawn")
-    return _Importer(root, dpi).run()
+    return _Importer(root, dpi, language).run()
 
 
 def local_name(tag: object) -> str:
@@ -217,9 +241,14 @@ class _Importer:
     own, and placed there by the ``<use>``'s transform (see :mod:`pathlen.instances`).
     """
 
-    def __init__(self, root: ET.Element, dpi: float | None) -> None:
+    def __init__(self, root: ET.Element, dpi: float | None, language: str | None = None) -> None:
         self.root = root
         self.dpi = dpi
+        self.language, self.language_source = (language, "--svg-language") if language else user_language()
+        self.conditions_used = False
+        #: relative units where the element being handled stands (set as the walk goes)
+        self.rel = Relative()
+        self.root_rel = Relative()
         self.canvas = _Canvas()
         self.warnings: list[str] = []
         self.not_measured: Counter[str] = Counter()
@@ -253,9 +282,18 @@ class _Importer:
             self.warnings.append(f"{css_skipped} CSS selectors too complex to apply were ignored")
         top, viewport = self.root_transform()
         props = self.props(self.root)
+        root_font = self.font_size(props, 16.0)
+        self.rel = self.root_rel = Relative(root_font, root_font, viewport[0] / 100.0, viewport[1] / 100.0)
         state = _State(self.add_transform(top), None, props.get("stroke", "none"), props.get("color", "black"),
-                       props.get("visibility", "visible") == "visible", viewport)
-        self.walk_children(self.root, state)
+                       props.get("visibility", "visible") == "visible", viewport, root_font)
+        if props.get("display", "").lower() == "none":
+            self.count_hidden(self.root)
+            self.warnings.append("the root <svg> has display none: nothing in it is drawn")
+        else:
+            self.walk_children(self.root, state)
+        if self.conditions_used:
+            self.warnings.append(f"conditional processing (systemLanguage) evaluated for the user language "
+                                 f"{self.language!r} ({self.language_source})")
         drawing = self.finish_canvas()
         self.report()
         drawing.warnings.extend(self.warnings)
@@ -364,6 +402,9 @@ class _Importer:
         if tag in NOT_MEASURED:
             self.not_measured[f"<{tag}>"] += 1
             return []
+        if not self.conditions_true(elem):
+            self.count_hidden(elem)
+            return []
         props = self.props(elem)
         if props.get("display", "").lower() == "none":
             self.count_hidden(elem)
@@ -373,6 +414,7 @@ class _Importer:
         except BadValue as exc:
             self.warn_element(elem, tag, str(exc))
             return []
+        self.rel = replace(self.root_rel, em=st.font_size)
         if tag in SHAPES:
             if st.visible:
                 self.shape(elem, tag, st)
@@ -384,7 +426,7 @@ class _Importer:
         if tag in CONTAINERS:
             children = list(elem)
             if tag == "switch":
-                children = [c for c in children if isinstance(c.tag, str)][:1]
+                children = self.switch_choice(children)
             return [(c, st) for c in children]
         return []  # unknown elements draw nothing
 
@@ -392,12 +434,9 @@ class _Importer:
         """The state for ``elem`` and its children: transform, layer, stroke, colour, visibility."""
         transform = st.transform
         viewport = st.viewport
-        local = IDENTITY
-        if "transform" in elem.attrib:
-            try:
-                local = parse_transform(elem.get("transform", ""))
-            except BadValue as exc:  # SVG 2 / CSS: an invalid value is ignored; the element is still drawn
-                self.warn_element(elem, tag, f"{exc}; transform ignored")
+        font = self.font_size(props, st.font_size, elem, tag)
+        self.rel = replace(self.root_rel, em=font)
+        local = self.local_transform(elem, tag, props, viewport)
         if tag == "svg":  # a nested viewport
             local, viewport = self.nested_viewport(elem, local, st.viewport)
         if local != IDENTITY:
@@ -405,7 +444,72 @@ class _Importer:
         layer = st.layer
         if layer is None and tag == "g":
             layer = elem.get("id", "")
-        return _paint(replace(st, transform=transform, layer=layer, viewport=viewport), props)
+        return _paint(replace(st, transform=transform, layer=layer, viewport=viewport, font_size=font), props)
+
+    def local_transform(self, elem: ET.Element, tag: str, props: dict[str, str], box: tuple[float, float]) -> Affine2:
+        """The element's own transform: the CSS ``transform`` property (rules, ``style``) over the
+        ``transform`` attribute, about ``transform-origin`` (SVG 2 / CSS Transforms 1: 0 0 for SVG
+        elements by default).  An invalid value is ignored (its initial value, none) with a warning."""
+        local = IDENTITY
+        try:
+            if "transform" in props:
+                local = parse_css_transform(props["transform"], self.rel)
+            elif "transform" in elem.attrib:
+                local = parse_transform(elem.get("transform", ""))
+        except BadValue as exc:  # SVG 2 / CSS: an invalid value is ignored; the element is still drawn
+            self.warn_element(elem, tag, f"{exc}; transform ignored")
+            return IDENTITY
+        if local != IDENTITY and "transform-origin" in props:
+            try:
+                ox, oy = transform_origin(props["transform-origin"], box, self.rel)
+            except BadValue as exc:
+                self.warn_element(elem, tag, f"{exc}; origin 0 0 used")
+                return local
+            local = compose(compose(translate(ox, oy), local), translate(-ox, -oy))
+        return local
+
+    def font_size(self, props: dict[str, str], parent: float, elem: ET.Element | None = None, tag: str = "") -> float:
+        """The element's font size (px) for em/ex: CSS absolute keywords, lengths, em and % of the parent's."""
+        text = props.get("font-size", "").strip().lower()
+        if not text or text == "inherit":
+            return parent
+        if text in FONT_KEYWORDS:
+            return FONT_KEYWORDS[text]
+        try:
+            size = parse_length(text, parent, replace(self.root_rel, em=parent))[0]
+        except BadValue as exc:
+            if elem is not None:
+                self.warn_element(elem, tag, f"{exc}; font-size inherited")
+            return parent
+        return size if size > 0 else parent
+
+    def conditions_true(self, elem: ET.Element) -> bool:
+        """SVG 2, 5.8 (conditional processing): requiredExtensions names extensions (pathlen supports none)
+        and an empty value is false; systemLanguage is true when the user's language equals one of its
+        tags or a prefix of one followed by '-'; requiredFeatures is gone from SVG 2 and is ignored."""
+        if "requiredExtensions" in elem.attrib:
+            return False
+        langs = elem.get("systemLanguage")
+        if langs is None:
+            return True
+        self.conditions_used = True
+        user = self.language.lower()
+        tags = [t.strip().lower() for t in langs.split(",") if t.strip()]
+        return any(t == user or t.startswith(user + "-") for t in tags)
+
+    def switch_choice(self, children: list[ET.Element]) -> list[ET.Element]:
+        """The first direct child of a ``<switch>`` that is a rendering element with true conditions."""
+        for child in children:
+            if not isinstance(child.tag, str):
+                continue
+            if child.tag.startswith("{") and not child.tag.startswith(SVG_NS):
+                continue
+            name = local_name(child.tag)
+            if name not in RENDERED:
+                continue  # unknown elements are skipped (SVG 2, 5.8.2)
+            if self.conditions_true(child):
+                return [child]
+        return []
 
     def nested_viewport(self, elem: ET.Element, local: Affine2, outer: tuple[float, float],
                         size: tuple[str | None, str | None] = (None, None)) -> tuple[Affine2, tuple[float, float]]:
@@ -414,8 +518,8 @@ class _Importer:
         y = self.length(elem, "y", outer[1])
         w_text = size[0] or elem.get("width") or "100%"
         h_text = size[1] or elem.get("height") or "100%"
-        w = parse_length(w_text, outer[0])[0]
-        h = parse_length(h_text, outer[1])[0]
+        w = parse_length(w_text, outer[0], self.rel)[0]
+        h = parse_length(h_text, outer[1], self.rel)[0]
         if w <= 0 or h <= 0:
             raise BadValue("zero or negative viewport size: nothing drawn")
         viewbox = self.viewbox(elem)
@@ -522,10 +626,16 @@ class _Importer:
 
     # -- shapes ---------------------------------------------------------------------------
     def length(self, elem: ET.Element, name: str, percent_of: float, default: float = 0.0) -> float:
+        """A length attribute in user units; an invalid value takes the initial value ``default``
+        (SVG 2, 19.2 error processing: the element is still drawn) with a warning."""
         text = elem.get(name)
         if text is None or text.strip() == "auto":
             return default
-        return parse_length(text, percent_of)[0]
+        try:
+            return parse_length(text, percent_of, self.rel)[0]
+        except BadValue as exc:
+            self.warn_element(elem, local_name(elem.tag), f"{name}: {exc}; initial value used")
+            return default
 
     def shape(self, elem: ET.Element, tag: str, st: _State) -> None:
         raw = self.canvas.raw
@@ -572,11 +682,9 @@ class _Importer:
         self.drawn.add(id(elem))
 
     def poly(self, text: str, closed: bool) -> str | None:
-        error = None
-        try:
-            v = parse_numbers(text)
-        except BadValue as exc:
-            return str(exc)
+        """Lines through ``points``, used up to the first bad token (SVG 2: rendered up to the error)."""
+        v, good = number_prefix(text)
+        error = None if good else "bad token in points; drawn up to there"
         if len(v) % 2:
             v, error = v[:-1], "odd number of coordinates in points; the last one ignored"
         pts = list(zip(v[0::2], v[1::2], strict=True))

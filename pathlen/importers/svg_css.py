@@ -15,7 +15,10 @@ from dataclasses import dataclass
 from pathlen.importers.svg_values import parse_style
 
 #: The properties that decide whether and how an element is measured.
-PROPERTIES = ("stroke", "color", "display", "visibility")
+PROPERTIES = ("stroke", "color", "display", "visibility", "transform", "transform-origin", "font-size")
+#: Properties whose presentation attribute has a grammar of its own (SVG's ``transform`` list):
+#: the cascade reports them only when a rule or ``style`` sets them (CSS grammar).
+CSS_ONLY = frozenset({"transform"})
 
 _SIMPLE = re.compile(r"(\*|[a-zA-Z][\w-]*)?((?:\.[\w-]+)*)(#[\w-]+)?((?:\.[\w-]+)*)")
 _RULE = re.compile(r"([^{}]+)\{([^{}]*)\}")
@@ -57,7 +60,7 @@ def parse_stylesheet(text: str, first_order: int = 0) -> tuple[list[Rule], int]:
 
 def cascade(tag: str, attrib: dict[str, str], rules: list[Rule]) -> dict[str, str]:
     """The specified values of :data:`PROPERTIES` on one element (before inheritance)."""
-    out = {k: attrib[k].strip() for k in PROPERTIES if k in attrib}
+    out = {k: attrib[k].strip() for k in PROPERTIES if k in attrib and k not in CSS_ONLY}
     if rules:
         classes = set(attrib.get("class", "").split())
         ident = attrib.get("id")

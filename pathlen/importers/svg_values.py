@@ -14,6 +14,7 @@ from __future__ import annotations
 import colorsys
 import math
 import re
+from dataclasses import dataclass
 
 import webcolors
 
@@ -40,10 +41,28 @@ class BadValue(ValueError):
     """An attribute value that does not parse (the message says which)."""
 
 
-def parse_length(text: str, percent_of: float = 0.0) -> tuple[float, str]:
+@dataclass(frozen=True)
+class Relative:
+    """What relative CSS lengths are worth here, in px (user units): ``em`` the element's font size
+    (CSS initial 16 px), ``ex`` half of it (CSS Values 4: 0.5em where the x-height is not known),
+    ``rem`` the root's font size, ``vw``/``vh`` 1% of the root viewport's width/height."""
+
+    em: float = 16.0
+    rem: float = 16.0
+    vw: float = 0.0
+    vh: float = 0.0
+
+    def px_per(self, unit: str) -> float | None:
+        vmin, vmax = min(self.vw, self.vh), max(self.vw, self.vh)
+        return {"em": self.em, "ex": 0.5 * self.em, "rem": self.rem, "vw": self.vw, "vh": self.vh,
+                "vmin": vmin, "vmax": vmax}.get(unit)
+
+
+def parse_length(text: str, percent_of: float = 0.0, rel: Relative | None = None) -> tuple[float, str]:
     """``"12.5mm"`` -> ``(47.24..., "mm")``: the length in px and the unit written.
 
-    Percentages are taken of ``percent_of`` (px).
+    Percentages are taken of ``percent_of`` (px); relative units (em, ex, rem, vw, vh, vmin, vmax)
+    by ``rel`` (defaults: 16 px font, no viewport).
     """
     m = _LENGTH.fullmatch(text)
     if not m:
@@ -51,9 +70,124 @@ def parse_length(text: str, percent_of: float = 0.0) -> tuple[float, str]:
     value, unit = finite(m.group(1)), m.group(2).lower()
     if unit == "%":
         return value / 100.0 * percent_of, unit
+    relative = (rel or Relative()).px_per(unit)
+    if relative is not None:
+        return value * relative, unit
     if unit not in PX_PER_UNIT:
-        raise BadValue(f"unit {unit!r} is not an absolute length unit")
+        raise BadValue(f"unit {unit!r} is not a length unit")
     return value * PX_PER_UNIT[unit], unit
+
+
+def number_prefix(text: str) -> tuple[list[float], bool]:
+    """The numbers of a whitespace/comma separated list up to the first bad token, and whether the
+    whole list was good (SVG 2: a ``points`` list in error is rendered up to the error)."""
+    out: list[float] = []
+    for p in (p for p in _LIST_SEP.split(text.strip()) if p):
+        found = re.findall(NUMBER, p)
+        pos = 0
+        for f in found:  # packed numbers ("1-2") are fine; anything between them is not
+            at = p.find(f, pos)
+            if at != pos:
+                return out, False
+            value = float(f)
+            if not math.isfinite(value):
+                return out, False
+            out.append(value)
+            pos = at + len(f)
+        if pos != len(p):
+            return out, False
+    return out, True
+
+
+_CSS_FUNCTION = re.compile(r"\s*([a-zA-Z]+)\s*\(([^()]*)\)")
+_ANGLE_DEG = {"deg": 1.0, "rad": 180.0 / math.pi, "grad": 0.9, "turn": 360.0, "": 1.0}
+
+
+def parse_css_transform(text: str, rel: Relative | None = None) -> Affine2:
+    """A CSS ``transform`` property value (CSS Transforms 1: functions with units, comma separated
+    arguments; ``none``) as an affine map on user units (px)."""
+    text = text.strip()
+    if text == "none":
+        return IDENTITY
+    result, pos = IDENTITY, 0
+    while pos < len(text):
+        m = _CSS_FUNCTION.match(text, pos)
+        if not m:
+            raise BadValue(f"bad transform: {text[:60]!r}")
+        pos = m.end()
+        name, args = m.group(1), [a.strip() for a in m.group(2).split(",")] if m.group(2).strip() else []
+        result = compose(result, _css_function(name, args, text, rel))
+        while pos < len(text) and text[pos].isspace():
+            pos += 1
+    return result
+
+
+def _css_function(name: str, args: list[str], text: str, rel: Relative | None) -> Affine2:
+    def length(a: str) -> float:
+        return parse_length(a, 0.0, rel)[0]
+
+    def angle(a: str) -> float:
+        m = re.fullmatch(rf"({NUMBER})\s*(deg|rad|grad|turn)?", a)
+        if not m:
+            raise BadValue(f"not an angle: {a[:20]!r}")
+        return finite(m.group(1)) * _ANGLE_DEG[m.group(2) or ""]
+
+    def number(a: str) -> float:
+        return finite(a) if re.fullmatch(NUMBER, a) else _bad(a)
+
+    n = len(args)
+    lower = name.lower()
+    if lower == "translate" and n in (1, 2):
+        return translate(length(args[0]), length(args[1]) if n == 2 else 0.0)
+    if lower in ("translatex", "translatey") and n == 1:
+        return translate(length(args[0]), 0.0) if lower.endswith("x") else translate(0.0, length(args[0]))
+    if lower == "scale" and n in (1, 2):
+        sx = number(args[0])
+        return (sx, 0.0, 0.0, number(args[1]) if n == 2 else sx, 0.0, 0.0)
+    if lower in ("scalex", "scaley") and n == 1:
+        return (number(args[0]), 0.0, 0.0, 1.0, 0.0, 0.0) if lower.endswith("x") else \
+            (1.0, 0.0, 0.0, number(args[0]), 0.0, 0.0)
+    if lower == "matrix" and n == 6:
+        return tuple(number(a) for a in args)  # type: ignore[return-value]
+    if lower in ("rotate", "skewx", "skewy", "skew") and n in (1, 2):
+        degs = [angle(a) for a in args]
+        if lower == "rotate" and n == 1:
+            return _one_transform("rotate", degs, text)
+        if lower == "skew":
+            ax, ay = math.radians(degs[0]), math.radians(degs[1]) if n == 2 else 0.0
+            return (1.0, math.tan(ay), math.tan(ax), 1.0, 0.0, 0.0)
+        if n == 1:
+            return _one_transform("skewX" if lower == "skewx" else "skewY", degs, text)
+    raise BadValue(f"bad transform {name}() with {n} arguments in {text[:60]!r}")
+
+
+def _bad(token: str) -> float:
+    raise BadValue(f"not a number: {token[:20]!r}")
+
+
+def transform_origin(text: str, box: tuple[float, float], rel: Relative | None = None) -> tuple[float, float]:
+    """A CSS ``transform-origin`` (lengths, percentages of ``box`` or keywords) as a point in px."""
+    words = text.split()
+    if not 1 <= len(words) <= 3:
+        raise BadValue(f"bad transform-origin: {text[:40]!r}")
+    keys = {"left": ("x", 0.0), "right": ("x", 1.0), "top": ("y", 0.0), "bottom": ("y", 1.0), "center": ("", 0.5)}
+    x = y = None
+    loose: list[float] = []
+    for k, w in enumerate(words[:2]):
+        if w in keys:
+            axis, share = keys[w]
+            if axis == "x" or (axis == "" and k == 0 and x is None):
+                x = share * box[0]
+            else:
+                y = share * box[1]
+        else:
+            loose.append(parse_length(w, box[0] if x is None and not loose else box[1], rel)[0])
+    for value in loose:
+        if x is None:
+            x = value
+        else:
+            y = value
+    return (x if x is not None else 0.5 * box[0], y if y is not None else 0.5 * box[1])
 
 
 def parse_numbers(text: str) -> list[float]:
