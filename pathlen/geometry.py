@@ -276,7 +276,8 @@ class SegmentCollector:
         self._arcs: list[tuple] = []
         self._beziers: dict[int, list[tuple]] = {}
         #: placements grouped by key: (definition, matrices, layer_of, handle prefix, grid)
-        self._placed: dict[object, tuple[Drawing, list[FloatArray], Callable[[str], str], str, tuple | None]] = {}
+        self._placed: dict[object, tuple[Drawing, list[FloatArray], Callable[[str], str], str, tuple | None,
+                                         str | None]] = {}
 
     def entity(self, layer: str, handle: str, kind: str) -> int:
         self.entities.append(Entity(layer, handle, kind, hidden=layer in self.hidden_layers))
@@ -307,19 +308,21 @@ class SegmentCollector:
         self._beziers.setdefault(d, []).append((ctrl, w, entity))
 
     def add_placement(self, sub: Drawing, m: FloatArray, key: object, layer_of: Callable[[str], str],
-                      handle_prefix: str, grid: tuple[int, int, FloatArray, FloatArray] | None = None) -> None:
+                      handle_prefix: str, grid: tuple[int, int, FloatArray, FloatArray] | None = None,
+                      color: str | None = None) -> None:
         """Place ``sub`` under the affine map ``m`` (4x4), without copying its segments.
 
         Placements with one ``key`` (the same definition and inherited layer, say) share entity
         rows: one per entity of ``sub``, with layer ``layer_of(layer)`` and handle ``handle_prefix +
         handle``.  ``grid`` repeats the copy on a grid (see :class:`Placement`); a key with a grid is
-        never merged with another.
+        never merged with another.  ``color`` replaces the copies' stroke colour (SVG markers report
+        under the element they decorate).
         """
         if grid is not None:
             key = (key, len(self._placed))
         entry = self._placed.get(key)
         if entry is None:
-            self._placed[key] = (sub, [m], layer_of, handle_prefix, grid)
+            self._placed[key] = (sub, [m], layer_of, handle_prefix, grid, color)
             self.warn(*sub.warnings)
             self.skipped.update(sub.skipped)
         else:
@@ -333,13 +336,14 @@ class SegmentCollector:
 
     def drawing(self) -> Drawing:
         placements = []
-        for sub, matrices, layer_of, prefix, grid in self._placed.values():
+        for sub, matrices, layer_of, prefix, grid, color in self._placed.values():
             base = len(self.entities)
             p = Placement(sub, np.array(matrices, dtype=float).reshape(-1, 4, 4),
                           np.arange(base, base + len(sub.entities), dtype=np.int64), grid)
             n = p.copies()
-            self.entities.extend(Entity(layer_of(e.layer), prefix + e.handle, e.kind, e.color, e.copies * n,
-                                        loop=e.loop) for e in sub.entities)
+            self.entities.extend(Entity(layer_of(e.layer), prefix + e.handle, e.kind,
+                                        e.color if color is None else color, e.copies * n, loop=e.loop)
+                                 for e in sub.entities)
             if self.hidden_layers:
                 for e in self.entities[base:]:
                     e.hidden = e.layer in self.hidden_layers

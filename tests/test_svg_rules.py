@@ -3,6 +3,7 @@ display and visibility, relative units.  Each test names the clause it follows."
 
 import math
 
+import numpy as np
 import pytest
 
 from pathlen.batch import MeasureSettings, measure_file
@@ -119,3 +120,37 @@ def test_relative_units(tmp_path, length, expected):
 def test_em_follows_the_inherited_font_size(tmp_path):
     body = '<g font-size="10"><g font-size="150%"><line x2="2em"/></g></g>'
     assert measure(tmp_path, body).length_mm == pytest.approx(30.0, rel=1e-14)
+
+
+# -- markers (SVG 2, 11.6): drawn geometry, measured with the element they decorate -------------------
+MARKERS = ('<defs><marker id="arrow" viewBox="0 0 10 10" refX="5" refY="5" markerWidth="6" markerHeight="6" '
+           'orient="auto-start-reverse"><path d="M 0 0 L 10 5 L 0 10 z"/></marker>'
+           '<marker id="dot" markerUnits="userSpaceOnUse" markerWidth="4" markerHeight="4" refX="2" refY="2">'
+           '<circle cx="2" cy="2" r="2"/></marker></defs>'
+           '<g id="CUT"><polyline points="10,10 50,10 50,50" stroke="red" stroke-width="2" '
+           'marker-start="url(#arrow)" marker-mid="url(#dot)" marker-end="url(#arrow)"/></g>')
+
+
+def test_marker_lengths_scale_with_viewbox_and_stroke_width(tmp_path):
+    # the arrow: a triangle of sides √125, √125, 10 in a 10 x 10 viewBox shown at 6 x 6 (scale 0.6) and
+    # multiplied by the stroke width 2 (markerUnits strokeWidth); the dot: a circle of r 2 in user units
+    # (2πr); the polyline: 40 + 40
+    arrow = (2 * math.sqrt(125) + 10) * 0.6 * 2
+    r = measure(tmp_path, MARKERS)
+    assert r.length_mm == pytest.approx(80 + 2 * arrow + 2 * math.pi * 2, rel=1e-12)
+    assert set(r.layers) == {"CUT"} and set(r.colors) == {"#ff0000"}  # under the element's layer and colour
+    assert any("3 markers" in w for w in r.warnings)
+
+
+def test_markers_sit_on_the_vertices_and_turn_with_the_path(tmp_path):
+    from pathlen.importers import read_drawing
+    from pathlen.instances import expand
+
+    path = tmp_path / "m.svg"
+    path.write_text(f'<svg xmlns="http://www.w3.org/2000/svg" {MM_DOC}>{MARKERS}</svg>')
+    flat = expand(read_drawing(path, ImportOptions(svg_language="en")))
+    tips = {tuple(np.round(p, 9)) for p in np.concatenate([flat.lines.p0, flat.lines.p1])[:, :2]}
+    # the arrow's tip (10, 5) lies 5 x 0.6 x 2 = 6 ahead of its reference point along the path: at the end
+    # (50, 50), heading down, it is at (50, 56); at the start, turned round (auto-start-reverse), at (4, 10)
+    assert (50.0, 56.0) in tips and (4.0, 10.0) in tips
+    np.testing.assert_allclose(flat.arcs.center[:, :2], [[50.0, 10.0]], atol=1e-12)  # the dot on the mid vertex

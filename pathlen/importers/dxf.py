@@ -206,17 +206,20 @@ class _DxfImporter:
         self.open_blocks: list[str] = []
 
     def add(self, entity: DXFGraphic, coll: SegmentCollector) -> None:
+        """One entity into ``coll``; an entity whose data cannot be used is skipped with a warning."""
         kind = entity.dxftype()
         handler = HANDLERS.get(kind)
-        if kind == "INSERT":
-            self.add_insert(entity, coll)  # type: ignore[arg-type]
-        elif handler is None:
+        if handler is None and kind != "INSERT":
             coll.skipped[kind] += 1
-        else:
-            try:
-                handler(entity, coll)
-            except (SplineError, ValueError, ZeroDivisionError) as exc:
-                coll.warn(f"{kind} #{entity.dxf.handle} skipped: {_first_line(exc)}")
+            return
+        try:
+            if kind == "INSERT":
+                self.add_insert(entity, coll)  # type: ignore[arg-type]
+            else:
+                handler(entity, coll)  # type: ignore[misc]
+        except (SplineError, DXFError, ValueError, TypeError, AttributeError, IndexError, KeyError,
+                ZeroDivisionError, OverflowError) as exc:
+            coll.warn(f"{kind} #{entity.dxf.handle} skipped: {_first_line(exc)}")
 
     def add_insert(self, insert: Insert, coll: SegmentCollector) -> None:
         """Place the block once per INSERT (a MINSERT as one placement with a grid); its geometry is

@@ -33,6 +33,8 @@ import numpy as np
 from pathlen.errors import InputError
 from pathlen.geometry import Drawing, Entity, SegmentCollector, affine
 from pathlen.importers.svg_css import Rule, cascade, parse_stylesheet
+from pathlen.importers.svg_markers import MARKABLE, OrderedSegments, marker_map
+from pathlen.importers.svg_markers import vertices as marker_vertices
 from pathlen.importers.svg_path import parse_careful, parse_many
 from pathlen.importers.svg_segments import ROW_WIDTH, RawSegments, full_ellipse, to_drawing
 from pathlen.importers.svg_values import (
@@ -101,6 +103,8 @@ class _State:
     visible: bool
     viewport: tuple[float, float]  # width, height in the current user units, for percentages
     font_size: float = 16.0  # px (user units), for em and ex: CSS initial value "medium" = 16 px
+    stroke_width: float = 1.0  # user units: markers scale with it
+    markers: tuple[str, str, str] = ("none", "none", "none")  # marker-start, -mid, -end (inherited)
 
 
 def read_svg(path: Path, dpi: float | None = None, language: str | None = None) -> Drawing:
@@ -192,11 +196,25 @@ def _paint(st: _State, props: dict[str, str]) -> _State:
     stroke = props.get("stroke", "inherit")
     color = props.get("color", "inherit")
     visibility = props.get("visibility", "inherit").lower()
+    markers = list(st.markers)
+    if "marker" in props:
+        markers = [props["marker"]] * 3
+    for k, name in enumerate(("marker-start", "marker-mid", "marker-end")):
+        if props.get(name, "inherit") != "inherit":
+            markers[k] = props[name]
+    width = st.stroke_width
+    if props.get("stroke-width", "inherit") != "inherit":
+        try:
+            width = parse_length(props["stroke-width"], 0.0)[0]
+        except BadValue:
+            pass  # an invalid value keeps the inherited one
     return replace(
         st,
         stroke=st.stroke if stroke == "inherit" else stroke,
         color=st.color if color == "inherit" else color,
         visible=st.visible if visibility == "inherit" else visibility == "visible",
+        stroke_width=width,
+        markers=(markers[0], markers[1], markers[2]),
     )
 
 
@@ -246,6 +264,7 @@ class _Importer:
         self.dpi = dpi
         self.language, self.language_source = (language, "--svg-language") if language else user_language()
         self.conditions_used = False
+        self.marker_count = 0
         #: relative units where the element being handled stands (set as the walk goes)
         self.rel = Relative()
         self.root_rel = Relative()
@@ -291,6 +310,9 @@ class _Importer:
             self.warnings.append("the root <svg> has display none: nothing in it is drawn")
         else:
             self.walk_children(self.root, state)
+        if self.marker_count:
+            self.warnings.append(f"{self.marker_count} marker{'s' if self.marker_count != 1 else ''} (marker-start, "
+                                 "-mid, -end) measured with the shapes they decorate")
         if self.conditions_used:
             self.warnings.append(f"conditional processing (systemLanguage) evaluated for the user language "
                                  f"{self.language!r} ({self.language_source})")
@@ -307,10 +329,14 @@ class _Importer:
         drawing = to_drawing(c.raw, np.array(c.transforms, dtype=float).reshape(-1, 6), c.entities)
         coll = SegmentCollector()
         coll.entities = drawing.entities
-        for key, m, prefix in c.placements:
+        for key, m, prefix, layer, colour in c.placements:
             a, b, cc, d, e, f = m
             matrix = affine([[a, cc], [b, d]], (e, f))
-            coll.add_placement(self.defined[key], matrix, key, lambda lay: lay, prefix)
+            if layer is None:
+                coll.add_placement(self.defined[key], matrix, key, lambda lay: lay, prefix)
+            else:  # markers: reported under the layer and colour of the element they decorate
+                coll.add_placement(self.defined[key], matrix, (key, layer, colour), lambda _, lay=layer: lay, prefix,
+                                   color=colour)
         placed = coll.drawing()
         drawing.entities = placed.entities
         drawing.placements = placed.placements
@@ -571,17 +597,17 @@ class _Importer:
         key = (href[1:], inner.layer, inner.stroke, inner.color, inner.visible, inner.viewport)
         if key not in self.defined:
             self.define(key, target, inner)
-        self.canvas.placements.append((key, m, self.handle(elem, "use") + "/"))
+        self.canvas.placements.append((key, m, self.handle(elem, "use") + "/", None, None))
         return []
 
     def define(self, key: tuple, target: ET.Element, inner: _State) -> None:
         """Draw ``target`` (a symbol or nested svg: its children) on a canvas of its own."""
         saved = self.canvas
         self.canvas = _Canvas()
-        self.building.append(key[0])
+        self.building.append(target.get("id") or str(key[0]))
         try:
             base = replace(inner, transform=self.add_transform(IDENTITY))
-            if local_name(target.tag) in ("symbol", "svg"):
+            if local_name(target.tag) in ("symbol", "svg", "marker"):
                 self.walk_children(target, base)
             else:
                 self.walk([(target, base)])
@@ -674,6 +700,74 @@ class _Importer:
             self.add_entity(elem, tag, st)
             if self.raw_count() > MAX_SEGMENTS:
                 raise InputError(f"more than {MAX_SEGMENTS:,} segments after expanding <use>; file refused")
+        if tag in MARKABLE and st.markers != ("none", "none", "none"):
+            self.place_markers(elem, tag, st)
+
+    def place_markers(self, elem: ET.Element, tag: str, st: _State) -> None:
+        """Place the element's markers at its vertices (see :mod:`pathlen.importers.svg_markers`): each
+        marker's content is drawn once, as a definition, and placed per vertex, under the element's
+        layer and stroke colour."""
+        ordered = OrderedSegments()
+        if tag == "path":
+            parse_careful(elem.get("d", ""), ordered)  # type: ignore[arg-type]
+        elif tag == "line":
+            w, h = st.viewport
+            ordered.rows["line"].extend((self.length(elem, "x1", w), self.length(elem, "y1", h),
+                                         self.length(elem, "x2", w), self.length(elem, "y2", h)))
+        else:
+            v, _ = number_prefix(elem.get("points", ""))
+            pts = list(zip(v[0::2], v[1::2], strict=False))
+            if tag == "polygon" and len(pts) > 2 and pts[0] != pts[-1]:
+                pts.append(pts[0])
+            for (x0, y0), (x1, y1) in itertools.pairwise(pts):
+                ordered.rows["line"].extend((x0, y0, x1, y1))
+        points = marker_vertices(ordered.items)
+        if not points:
+            return
+        colour = _colour(st.stroke, st.color)
+        base = self.canvas.transforms[st.transform]
+        for k, vertex in enumerate(points):
+            which = 0 if k == 0 else 2 if k == len(points) - 1 else 1
+            ref = st.markers[which].strip()
+            if ref in ("none", ""):
+                continue
+            placed = self.marker(elem, tag, ref, st)
+            if placed is None:
+                continue
+            key, marker, content, anchor, units = placed
+            scale = st.stroke_width if units != "userSpaceOnUse" else 1.0
+            m = compose(base, marker_map(vertex, marker.get("orient", "0"), k == 0, content, anchor, scale))
+            self.canvas.placements.append((key, m, self.handle(elem, tag) + "/", st.layer or "", colour))
+            self.marker_count += 1
+
+    def marker(self, elem: ET.Element, tag: str, ref: str, st: _State
+               ) -> tuple[tuple, ET.Element, Affine2, tuple[float, float], str] | None:
+        """The marker named by ``url(#id)``: its definition key (drawn on first use), element, content
+        map (viewBox -> markerWidth x markerHeight), reference point and markerUnits."""
+        m = re.fullmatch(r"url\(\s*['\"]?#([^'\")]+)['\"]?\s*\)", ref)
+        target = self.by_id.get(m.group(1)) if m else None
+        if target is None or local_name(target.tag) != "marker":
+            self.warn_element(elem, tag, f"marker {ref[:40]!r} is not a <marker> of this file; not drawn")
+            return None
+        ident = m.group(1)  # type: ignore[union-attr]
+        if ident in self.building:
+            self.warn_element(elem, tag, f"marker {ident!r} is used inside itself; not drawn")
+            return None
+        try:
+            mw = self.length(target, "markerWidth", st.viewport[0], 3.0)
+            mh = self.length(target, "markerHeight", st.viewport[1], 3.0)
+            box = self.viewbox(target)
+            content = IDENTITY if box is None else viewbox_transform(box, (0.0, 0.0, mw, mh),
+                                                                      target.get("preserveAspectRatio", ""))
+            anchor = (self.length(target, "refX", mw), self.length(target, "refY", mh))
+        except BadValue as exc:
+            self.warn_element(elem, tag, f"marker {ident!r}: {exc}; not drawn")
+            return None
+        key = ("marker", ident)
+        if key not in self.defined:
+            inner = _State(0, None, "none", "black", True, (box[2], box[3]) if box else (mw, mh))
+            self.define(("marker", ident), target, _paint(inner, self.props(target)))
+        return key, target, content, anchor, target.get("markerUnits", "strokeWidth").strip()
 
     def add_entity(self, elem: ET.Element, tag: str, st: _State) -> None:
         """The entity row for a drawn shape: layer, handle, kind and stroke colour."""

@@ -15,7 +15,8 @@ from dataclasses import dataclass
 from pathlen.importers.svg_values import parse_style
 
 #: The properties that decide whether and how an element is measured.
-PROPERTIES = ("stroke", "color", "display", "visibility", "transform", "transform-origin", "font-size")
+PROPERTIES = ("stroke", "color", "display", "visibility", "transform", "transform-origin", "font-size",
+              "stroke-width", "marker", "marker-start", "marker-mid", "marker-end")
 #: Properties whose presentation attribute has a grammar of its own (SVG's ``transform`` list):
 #: the cascade reports them only when a rule or ``style`` sets them (CSS grammar).
 CSS_ONLY = frozenset({"transform"})
