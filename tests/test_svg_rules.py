@@ -154,3 +154,10 @@ def test_markers_sit_on_the_vertices_and_turn_with_the_path(tmp_path):
     # (50, 50), heading down, it is at (50, 56); at the start, turned round (auto-start-reverse), at (4, 10)
     assert (50.0, 56.0) in tips and (4.0, 10.0) in tips
     np.testing.assert_allclose(flat.arcs.center[:, :2], [[50.0, 10.0]], atol=1e-12)  # the dot on the mid vertex
+
+
+def test_transform_on_a_symbol_applies_as_svg_2_says(tmp_path):
+    # SVG 1.1 gives <symbol> no transform attribute; SVG 2 (5.5, the 'symbol' element) lets the transform
+    # property apply to it.  pathlen follows SVG 2: the line of 5 is drawn scaled by 2.
+    body = '<defs><symbol id="s" transform="scale(2)"><line x2="5"/></symbol></defs><use href="#s"/>'
+    assert measure(tmp_path, body).length_mm == pytest.approx(10.0, rel=1e-14)
