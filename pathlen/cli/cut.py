@@ -1,6 +1,6 @@
-"""Command line: ``pathlen cut PATH... --profile NAME`` and ``pathlen profiles``.
+"""``pathlen cut PATH... --profile NAME``: cutting time and cost; ``--calibrate`` fits a waterjet profile.
 
-The estimate modules (shapely, scipy.spatial) are imported inside the commands, so that
+The estimate modules (shapely, scipy.spatial) are imported inside the command, so that
 ``pathlen measure`` starts without them.
 """
 
@@ -10,13 +10,11 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 import click
-from rich.console import Console
-from rich.table import Table
 
-from pathlen.cli import Reading, collect, emit, main, reading_options
+from pathlen.cli.profile_files import profiles_or_exit
+from pathlen.cli.reading import Reading, collect, emit, reading_options
 from pathlen.errors import PathlenError
-from pathlen.export import plain
-from pathlen.profiles import BUILTIN, Profile, load_profiles, write_setting
+from pathlen.profiles import BUILTIN, Profile, write_setting
 
 if TYPE_CHECKING:
     from pathlen.estimates.cut import CutEstimate
@@ -24,13 +22,6 @@ if TYPE_CHECKING:
 
 def _layer_list(text: str | None) -> tuple[str, ...]:
     return tuple(x.strip() for x in (text or "").split(",") if x.strip())
-
-
-def _profiles_or_exit(files: tuple[str, ...]) -> dict[str, Profile]:
-    try:
-        return load_profiles([Path(f) for f in files])
-    except PathlenError as exc:
-        raise click.UsageError(str(exc)) from None
 
 
 def _pick(profiles: dict[str, Profile], name: str | None) -> Profile:
@@ -41,7 +32,7 @@ def _pick(profiles: dict[str, Profile], name: str | None) -> Profile:
     return profiles[name]
 
 
-@main.command()
+@click.command()
 @reading_options(paths_required=False)
 @click.option("--profile", "profile_name", metavar="NAME", help="Process profile (see 'pathlen profiles').")
 @click.option("--profiles", "profile_files", multiple=True, type=click.Path(dir_okay=False),
@@ -67,7 +58,7 @@ def cut(reading: Reading, profile_name: str | None, profile_files: tuple[str, ..
     from pathlen.estimates.cut import CutEstimate, CutSettings, cautions, estimate_file
     from pathlen.export import cut as cut_out
 
-    profiles = _profiles_or_exit(profile_files)
+    profiles = profiles_or_exit(profile_files)
     profile = _pick(profiles, profile_name)
     if calibrate_speed is not None:
         _calibrate(profile, calibrate_speed, test_thickness, test_quality)
@@ -108,26 +99,3 @@ def _calibrate(profile: Profile, speed: float, thickness: float | None, quality:
         raise click.UsageError(f"cannot write {profile.source}: {exc}") from None
     click.echo(f"{profile.name}: machinability {v['machinability']:g} -> {new:.6g} "
                f"(test cut {speed:g} mm/min at {h:g} mm, quality {q:g}); written to {profile.source}")
-
-
-@main.command()
-@click.option("--profiles", "profile_files", multiple=True, type=click.Path(dir_okay=False),
-              help="A TOML file of your own profiles to check and list (repeatable).")
-def profiles(profile_files: tuple[str, ...]) -> None:
-    """List the process profiles and check them (one line per problem, exit status 2)."""
-    from pathlen.estimates.cut import cutting_feed_mm_min
-
-    known = _profiles_or_exit(profile_files)
-    table = Table(title="Process profiles")
-    table.add_column("Name", no_wrap=True)
-    for name, justify in (("Process", "left"), ("Material", "left"), ("Thickness (mm)", "right"),
-                          ("Feed (mm/min)", "right"), ("Rate per hour", "right"), ("From", "left")):
-        table.add_column(name, justify=justify, overflow="fold")  # type: ignore[arg-type]
-    for p in known.values():
-        v = p.values
-        feed = cutting_feed_mm_min(p)
-        origin = "built in" if Path(p.source).resolve() == BUILTIN.resolve() else p.source
-        table.add_row(plain(p.name), plain(v["process"]), plain(v["material"]), f"{v['thickness_mm']:g}",
-                      f"{feed:,.0f}" + (" (model)" if p.uses_waterjet_model else ""),
-                      plain(f"{v['rate_per_hour']:g} {v['currency']}".strip()), plain(origin))
-    Console(soft_wrap=False).print(table)

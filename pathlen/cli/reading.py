@@ -1,4 +1,5 @@
-"""Command line: ``pathlen measure PATH...``; ``cut`` and ``profiles`` live in :mod:`pathlen.cli_cut`."""
+"""What every command that reads drawings shares: the reading options, the batch with progress, and the report
+(standard output or a file written atomically, errors and warnings on standard error, the exit status)."""
 
 from __future__ import annotations
 
@@ -22,28 +23,18 @@ from pathlen.batch import (
     DEFAULT_TIMEOUT_S,
     FileResult,
     Limits,
-    MeasureSettings,
     find_drawings,
     measure_file,
     run_batch,
 )
 from pathlen.errors import PathlenError
 from pathlen.export import OUTPUT_UNITS, plain
-from pathlen.export import csv as csv_out
-from pathlen.export import json as json_out
-from pathlen.export import table as table_out
 from pathlen.geometry import MM_PER_UNIT
 from pathlen.importers import ImportOptions
 from pathlen.instances import DEFAULT_MAX_SEGMENTS
 from pathlen.measure import DEFAULT_RTOL
 
 DRAWING_UNITS = tuple(sorted(k for k in MM_PER_UNIT if k not in ("px", "pt", "pc", "q")))
-
-
-@click.group(context_settings={"help_option_names": ["-h", "--help"]})
-@click.version_option(package_name="pathlen")
-def main() -> None:
-    """pathlen: exact path lengths from drawings, with error bounds."""
 
 
 @dataclass(frozen=True)
@@ -152,18 +143,6 @@ def drawing_files(paths: tuple[str, ...]) -> list[str]:
         raise click.UsageError(str(exc)) from None
 
 
-@main.command()
-@reading_options()
-def measure(reading: Reading) -> None:
-    """Measure every path in the drawings PATHS (DXF or SVG files, or folders searched for them)."""
-    r = reading
-    settings = MeasureSettings(rtol=r.rtol, join_tol_mm=r.join_tol, import_options=r.import_options,
-                               max_segments=r.max_segments)
-    results = collect(r.files(), settings, r)
-    emit(results, r.fmt, r.output, lambda console: table_out.render(results, r.units, console),
-         lambda: json_out.render(results, r.units) if r.fmt == "json" else csv_out.render(results, r.units))
-
-
 def emit(results: list[Any], fmt: str, output: str | None, table: Callable[[Console], None],
          text: Callable[[], str], cautions: list[str] | None = None) -> None:
     """Report a batch (errors and warnings on standard error) and exit 0, or 1 if a file failed."""
@@ -228,5 +207,3 @@ def write_atomic(path: str, text: str) -> None:
     except OSError as exc:
         raise click.FileError(path, hint=exc.strerror or str(exc)) from None
 
-
-from pathlen import cli_cut  # noqa: E402, F401 - registers the estimate commands on ``main``
