@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import click
 
+from pathlen.cli.bead import bead
 from pathlen.cli.cut import cut
 from pathlen.cli.measure import measure
 from pathlen.cli.profiles import profiles
@@ -16,7 +17,7 @@ def main() -> None:
     """pathlen: exact path lengths from drawings, with error bounds."""
 
 
-for _command in (measure, cut, profiles):
+for _command in (measure, cut, bead, profiles):
     main.add_command(_command)
 
 __all__ = ["main"]
