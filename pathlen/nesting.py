@@ -179,7 +179,14 @@ def _signed_angle(a: np.ndarray, b: np.ndarray) -> np.ndarray:
 
 def contour_turning(table: SegmentTable, contour: Contour) -> tuple[float, np.ndarray]:
     """Total tangent turning along the smooth parts (rad) and the turning at each corner, for the
-    closed contour as traversed (left turns positive).
+    closed contour as traversed (left turns positive); see :func:`segment_turning`."""
+    smooth, corners = segment_turning(table, contour)
+    return float(smooth.sum()), corners
+
+
+def segment_turning(table: SegmentTable, contour: Contour) -> tuple[np.ndarray, np.ndarray]:
+    """Per segment of the contour as traversed: the tangent turning along it (rad) and the turning
+    at the corner after it (to the next segment; the last to the first), left turns positive.
 
     A segment's turning is the angle from its start tangent to its first sample chord, through
     every chord, to its end tangent: exact while the tangent turns less than half a turn between
@@ -195,7 +202,7 @@ def contour_turning(table: SegmentTable, contour: Contour) -> tuple[float, np.nd
     moving[:, 0] = True
     last = np.maximum.accumulate(np.where(moving, np.arange(steps.shape[1]), 0), axis=1)
     steps = np.take_along_axis(steps, last[:, :, None], axis=1)
-    smooth = float(_signed_angle(steps[:, :-1], steps[:, 1:]).sum())
+    smooth = _signed_angle(steps[:, :-1], steps[:, 1:]).sum(axis=1)
     corners = _signed_angle(t_out, np.roll(t_in, -1, axis=0))
     return smooth, corners
 

@@ -9,6 +9,7 @@ from pathlen.cli.bead import bead
 from pathlen.cli.cut import cut
 from pathlen.cli.measure import measure
 from pathlen.cli.profiles import profiles
+from pathlen.cli.seam import seam
 
 
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})
@@ -17,7 +18,7 @@ def main() -> None:
     """pathlen: exact path lengths from drawings, with error bounds."""
 
 
-for _command in (measure, cut, bead, profiles):
+for _command in (measure, cut, seam, bead, profiles):
     main.add_command(_command)
 
 __all__ = ["main"]

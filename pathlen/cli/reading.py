@@ -64,15 +64,17 @@ def _finite(ctx: click.Context, param: click.Parameter, value: float | None) -> 
     return value
 
 
-def reading_options(paths_required: bool = True) -> Callable[[Callable[..., Any]], Callable[..., Any]]:
-    """Options shared by every command that reads drawings, handed to the command as ``reading``."""
+def reading_options(paths_required: bool = True, units: tuple[str, ...] = OUTPUT_UNITS
+                    ) -> Callable[[Callable[..., Any]], Callable[..., Any]]:
+    """Options shared by every command that reads drawings, handed to the command as ``reading``;
+    ``units`` are the length units the command reports in (the first is the default)."""
     def decorate(f: Callable[..., Any]) -> Callable[..., Any]:
         @functools.wraps(f)
         def command(**kwargs: Any) -> Any:
             reading = _reading(**{k: kwargs.pop(k) for k in _READING_KEYS})
             return f(reading=reading, **kwargs)
 
-        for option in reversed(_reading_options(paths_required)):
+        for option in reversed(_reading_options(paths_required, units)):
             command = option(command)
         return command
 
@@ -83,14 +85,17 @@ _READING_KEYS = ("paths", "fmt", "output", "units", "rtol", "drawing_units", "sv
                  "max_segments", "timeout", "max_memory", "strict", "recover", "hidden_layers", "svg_language")
 
 
-def _reading_options(paths_required: bool) -> list[Callable[[Callable[..., Any]], Callable[..., Any]]]:
+Decorator = Callable[[Callable[..., Any]], Callable[..., Any]]
+
+
+def _reading_options(paths_required: bool, units: tuple[str, ...]) -> list[Decorator]:
     return [
         click.argument("paths", nargs=-1, required=paths_required),
         click.option("--format", "fmt", type=click.Choice(["table", "json", "csv"]), default="table",
                      show_default=True, help="Output format."),
         click.option("--output", "-o", type=click.Path(dir_okay=False, writable=True), default=None,
                      help="Write the report to this file instead of standard output."),
-        click.option("--units", type=click.Choice(OUTPUT_UNITS), default="mm", show_default=True,
+        click.option("--units", type=click.Choice(units), default=units[0], show_default=True,
                      help="Units of every reported length."),
         click.option("--rtol", type=float, default=DEFAULT_RTOL, show_default=True,
                      help="Relative error target per segment."),

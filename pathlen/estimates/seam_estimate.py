@@ -1,0 +1,264 @@
+"""A seam estimate per file: pattern pieces, their sew lines and edges, the planned seams, thread.
+
+Pieces come from D6673 blocks (:mod:`pathlen.importers.pattern`) or, in any other drawing, from
+the outer closed contours of the cut layers.  Lengths in mm, thread in mm (exports convert).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from pathlen.contours import ContourSet, chain_contours
+from pathlen.errors import InputError
+from pathlen.estimates.seam import sew_line
+from pathlen.estimates.seam_plan import DEFAULT_TOLERANCE_PCT, PlannedSeam, SeamPlan
+from pathlen.estimates.thread import thread_ratio
+from pathlen.geometry import Drawing
+from pathlen.importers import read_drawing
+from pathlen.importers.pattern import CUT_LAYERS, NOTCH_LAYERS, SEW_LAYERS, PatternPiece, read_pattern_pieces
+from pathlen.instances import expand
+from pathlen.measure import measure
+from pathlen.nesting import nesting_depth
+from pathlen.segments import SegmentTable, segment_layers, segment_table
+
+DEFAULT_ALLOWANCE_MM = 10.0  # common practice: 10-15 mm, 6 mm on tight curves
+DEFAULT_WASTE_PCT = 12.5  # common practice: add 10-15 % to thread
+
+
+@dataclass
+class SeamSettings:
+    allowance_mm: float = DEFAULT_ALLOWANCE_MM
+    stitch: int = 301
+    stitches_per_mm: float | None = None
+    thickness_mm: float | None = None
+    plan: SeamPlan | None = None
+    quantity: int = 1
+    waste_pct: float = DEFAULT_WASTE_PCT
+    cut_layers: tuple[str, ...] = ()
+    sew_layers: tuple[str, ...] = ()
+    measure: object = None  # MeasureSettings
+
+
+@dataclass
+class Seam:
+    stitch: int
+    length_mm: float
+    ratio: float
+    waste_pct: float
+    thread_mm: float
+
+
+@dataclass
+class PieceSeams:
+    name: str
+    quantity: int
+    size: str
+    cut_length_mm: float
+    sew_line_mm: float
+    edges: list[float]
+    notches: int = 0
+    seams: list[Seam] = field(default_factory=list)
+
+    @property
+    def sew_length_mm(self) -> float:
+        return sum(s.length_mm for s in self.seams)
+
+    @property
+    def thread_mm(self) -> float:
+        return sum(s.thread_mm for s in self.seams)
+
+
+@dataclass
+class Match:
+    a: str
+    b: str
+    difference_mm: float
+    ease_pct: float
+    ok: bool
+
+
+@dataclass
+class SeamEstimate:
+    path: str
+    ok: bool
+    error: str | None = None
+    pieces: list[PieceSeams] = field(default_factory=list)
+    matches: list[Match] = field(default_factory=list)
+    quantity: int = 1
+    warnings: list[str] = field(default_factory=list)
+
+    @property
+    def sew_length_mm(self) -> float:
+        """Per garment: every piece's sewn length times its quantity."""
+        return sum(p.sew_length_mm * p.quantity for p in self.pieces)
+
+    @property
+    def thread_mm(self) -> float:
+        return sum(p.thread_mm * p.quantity for p in self.pieces)
+
+
+def estimate_seams(path: str, settings: SeamSettings) -> SeamEstimate:
+    """Never raises for bad input: the error goes in the result."""
+    from pathlen.batch import one_line_failure
+
+    return one_line_failure(path, lambda: _estimate(path, settings),
+                            lambda p, **kw: SeamEstimate(p, quantity=settings.quantity, **kw))
+
+
+def _estimate(path: str, s: SeamSettings) -> SeamEstimate:
+    options = s.measure.import_options  # type: ignore[attr-defined]
+    out = SeamEstimate(path, True, quantity=s.quantity)
+    pattern = read_pattern_pieces(Path(path), options)
+    if pattern:
+        for piece in pattern:
+            out.pieces.append(_pattern_piece(piece, s, out.warnings))
+    else:
+        drawing = read_drawing(Path(path), options)
+        out.warnings.extend(drawing.warnings)
+        out.pieces.extend(_plain_pieces(expand(drawing, s.measure.max_segments, "the seam estimate"), s))  # type: ignore[attr-defined]
+    if not out.pieces:
+        raise InputError("no pattern pieces: no closed outline on the cut layers")
+    _sew(out, s)
+    return out
+
+
+def _table(drawing: Drawing, s: SeamSettings) -> tuple[SegmentTable, list[str], np.ndarray]:
+    table = segment_table(drawing, measure(drawing, s.measure.rtol))  # type: ignore[attr-defined]
+    names, layer = segment_layers(drawing, table)
+    return table, names, layer
+
+
+def _on(names: list[str], layer: np.ndarray, wanted: tuple[str, ...]) -> np.ndarray:
+    index = [k for k, n in enumerate(names) if n in wanted]
+    return np.isin(layer, index)
+
+
+def _pattern_piece(piece: PatternPiece, s: SeamSettings, warnings: list[str]) -> PieceSeams:
+    table, names, layer = _table(piece.drawing, s)
+    cut = _on(names, layer, s.cut_layers or CUT_LAYERS)
+    sew = _on(names, layer, s.sew_layers or SEW_LAYERS)
+    tol = s.measure.join_tol_mm  # type: ignore[attr-defined]
+    outlines = chain_contours(table, layer, tol, cut)
+    k = _largest_closed(table, outlines)
+    if k is None:
+        raise InputError(f"piece {piece.name!r}: its cut line is not closed")
+    sewn = chain_contours(table, layer, tol, sew)
+    j = _largest_closed(table, sewn)
+    try:
+        if j is not None:  # a drawn sew line wins over the allowance
+            line = sew_line(table, sewn[j], 0.0, piece.marks)
+        else:
+            line = sew_line(table, outlines[k], s.allowance_mm, piece.marks)
+    except InputError as exc:
+        raise InputError(f"piece {piece.name!r}: {exc}") from None
+    if line.unsnapped_marks:
+        warnings.append(f"piece {piece.name!r}: {line.unsnapped_marks} notches or turn points are not on a vertex "
+                        "of the line: they split no edge")
+    notches = int(_on(names, layer, NOTCH_LAYERS).sum()) if piece.notches == 0 else piece.notches
+    return PieceSeams(piece.name, piece.quantity, piece.size, float(outlines.length[k]), line.length_mm, line.edges,
+                      notches)
+
+
+def _plain_pieces(drawing: Drawing, s: SeamSettings) -> list[PieceSeams]:
+    table, names, layer = _table(drawing, s)
+    sew = _on(names, layer, s.sew_layers) if s.sew_layers else np.zeros(len(table), dtype=bool)
+    cut = _on(names, layer, s.cut_layers) if s.cut_layers else ~sew
+    tol = s.measure.join_tol_mm  # type: ignore[attr-defined]
+    outlines = chain_contours(table, layer, tol, cut)
+    depth, _ = nesting_depth(table, outlines)
+    pieces = [k for k in range(len(outlines)) if outlines.closed[k] and depth[k] % 2 == 0]
+    pieces.sort(key=lambda k: (float(outlines.start[k, 0] + outlines.start[k, 1]), k))
+    sewn = chain_contours(table, layer, tol, sew) if sew.any() else None
+    out = []
+    for number, k in enumerate(pieces, start=1):
+        name = f"piece {number}"
+        try:
+            line = None
+            if sewn is not None:
+                inside = _inside_outline(table, outlines, k, sewn)
+                if inside is not None:
+                    line = sew_line(table, sewn[inside], 0.0, [])
+            if line is None:
+                line = sew_line(table, outlines[k], s.allowance_mm, [])
+        except InputError as exc:
+            raise InputError(f"{name}: {exc}") from None
+        out.append(PieceSeams(name, 1, "", float(outlines.length[k]), line.length_mm, line.edges))
+    return out
+
+
+def _largest_closed(table: SegmentTable, contours: ContourSet) -> int | None:
+    best, size = None, -1.0
+    for k in range(len(contours)):
+        if not contours.closed[k]:
+            continue
+        lo, hi = table.box
+        steps = contours.steps[contours.first[k]:contours.first[k] + contours.size[k]]
+        area = float(np.prod(hi[steps, :2].max(axis=0) - lo[steps, :2].min(axis=0)))
+        if area > size:
+            best, size = k, area
+    return best
+
+
+def _inside_outline(table: SegmentTable, outlines: ContourSet, k: int, sewn: ContourSet) -> int | None:
+    """The closed sew contour whose start lies inside piece outline ``k`` (by its sample polygon)."""
+    import shapely
+
+    ring = table.travel_samples(outlines[k].segments, outlines[k].forward)[:, :, :2].reshape(-1, 2)
+    polygon = shapely.Polygon(ring)
+    for j in range(len(sewn)):
+        if sewn.closed[j] and polygon.contains(shapely.Point(sewn.start[j, :2])):
+            return j
+    return None
+
+
+def _sew(out: SeamEstimate, s: SeamSettings) -> None:
+    """Seams on each piece: one seam along the whole sew line, or the plan's; thread; matches."""
+    by_name: dict[tuple[str, str], PieceSeams] = {(p.name, p.size): p for p in out.pieces}
+    for piece in out.pieces:
+        planned = [x for x in s.plan.seams if x.piece == piece.name] if s.plan else [
+            PlannedSeam(piece.name, None, s.stitch, s.stitches_per_mm, 1, None)]
+        for seam in planned:
+            edges = seam.edges or tuple(range(1, len(piece.edges) + 1))
+            missing = [e for e in edges if e > len(piece.edges)]
+            if missing:
+                raise InputError(f"piece {piece.name!r} has {len(piece.edges)} edges; the plan names edge {missing[0]}")
+            length = sum(piece.edges[e - 1] for e in edges) * seam.rows
+            density = seam.stitches_per_mm or s.stitches_per_mm
+            ratio = thread_ratio(seam.stitch, s.thickness_mm, density)
+            piece.seams.append(Seam(seam.stitch, length, ratio, s.waste_pct, length * ratio * (1 + s.waste_pct / 100)))
+            if seam.to is not None:
+                other = by_name.get((seam.to[0], piece.size))
+                if other is None or seam.to[1] > len(other.edges):
+                    raise InputError(f"plan: {seam.to[0]}:{seam.to[1]} is not an edge of a piece of this file")
+                a, b = piece.edges[edges[0] - 1], other.edges[seam.to[1] - 1]
+                ease = (a - b) / b * 100.0 if b > 0 else math.inf
+                tolerance = s.plan.tolerance_pct if s.plan else DEFAULT_TOLERANCE_PCT
+                out.matches.append(Match(f"{piece.name}:{edges[0]}", f"{seam.to[0]}:{seam.to[1]}", a - b, ease,
+                                         abs(ease) <= tolerance))
+    if s.plan:
+        names = {p.name for p in out.pieces}
+        unknown = sorted({x.piece for x in s.plan.seams} - names)
+        if unknown:
+            out.warnings.append(f"the plan names pieces not in this file: {', '.join(repr(n) for n in unknown)}")
+    for m in out.matches:
+        if not m.ok:
+            out.warnings.append(f"{m.a} and {m.b} differ by {m.difference_mm:.1f} mm ({m.ease_pct:+.1f} % ease)")
+
+
+def cautions() -> list[str]:
+    return [
+        "Sewing machines: keep fingers clear of the needle and guards in place; switch off before threading "
+        "or changing needles.",
+        "These are estimates, not instructions: check thread consumption against your thread maker's figures "
+        "and a sample seam.",
+    ]
+
+
+def cones_for(thread_mm: float, cone_mm: float) -> int:
+    """Whole cones for ``thread_mm`` of thread (a cone holding ``cone_mm``)."""
+    return max(0, math.ceil(thread_mm / cone_mm - 1e-12)) if thread_mm > 0 else 0
+
