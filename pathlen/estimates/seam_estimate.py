@@ -62,6 +62,8 @@ class PieceSeams:
     edges: list[float]
     notches: int = 0
     seams: list[Seam] = field(default_factory=list)
+    #: why this piece has no seams (an allowance too large for it, say); the other pieces go on
+    error: str | None = None
 
     @property
     def sew_length_mm(self) -> float:
@@ -119,7 +121,8 @@ def _estimate(path: str, s: SeamSettings) -> SeamEstimate:
     else:
         drawing = read_drawing(Path(path), options)
         out.warnings.extend(drawing.warnings)
-        out.pieces.extend(_plain_pieces(expand(drawing, s.measure.max_segments, "the seam estimate"), s))  # type: ignore[attr-defined]
+        flat = expand(drawing, s.measure.max_segments, "the seam estimate")  # type: ignore[attr-defined]
+        out.pieces.extend(_plain_pieces(flat, s))
     if not out.pieces:
         raise InputError("no pattern pieces: no closed outline on the cut layers")
     _sew(out, s)
@@ -154,7 +157,7 @@ def _pattern_piece(piece: PatternPiece, s: SeamSettings, warnings: list[str]) ->
         else:
             line = sew_line(table, outlines[k], s.allowance_mm, piece.marks)
     except InputError as exc:
-        raise InputError(f"piece {piece.name!r}: {exc}") from None
+        return PieceSeams(piece.name, piece.quantity, piece.size, float(outlines.length[k]), 0.0, [], error=str(exc))
     if line.unsnapped_marks:
         warnings.append(f"piece {piece.name!r}: {line.unsnapped_marks} notches or turn points are not on a vertex "
                         "of the line: they split no edge")
@@ -185,7 +188,8 @@ def _plain_pieces(drawing: Drawing, s: SeamSettings) -> list[PieceSeams]:
             if line is None:
                 line = sew_line(table, outlines[k], s.allowance_mm, [])
         except InputError as exc:
-            raise InputError(f"{name}: {exc}") from None
+            out.append(PieceSeams(name, 1, "", float(outlines.length[k]), 0.0, [], error=str(exc)))
+            continue
         out.append(PieceSeams(name, 1, "", float(outlines.length[k]), line.length_mm, line.edges))
     return out
 
@@ -219,6 +223,9 @@ def _sew(out: SeamEstimate, s: SeamSettings) -> None:
     """Seams on each piece: one seam along the whole sew line, or the plan's; thread; matches."""
     by_name: dict[tuple[str, str], PieceSeams] = {(p.name, p.size): p for p in out.pieces}
     for piece in out.pieces:
+        if piece.error:
+            out.warnings.append(f"{piece.name}{f' ({piece.size})' if piece.size else ''}: {piece.error}; not sewn")
+            continue
         planned = [x for x in s.plan.seams if x.piece == piece.name] if s.plan else [
             PlannedSeam(piece.name, None, s.stitch, s.stitches_per_mm, 1, None)]
         for seam in planned:
@@ -237,8 +244,9 @@ def _sew(out: SeamEstimate, s: SeamSettings) -> None:
                 a, b = piece.edges[edges[0] - 1], other.edges[seam.to[1] - 1]
                 ease = (a - b) / b * 100.0 if b > 0 else math.inf
                 tolerance = s.plan.tolerance_pct if s.plan else DEFAULT_TOLERANCE_PCT
-                out.matches.append(Match(f"{piece.name}:{edges[0]}", f"{seam.to[0]}:{seam.to[1]}", a - b, ease,
-                                         abs(ease) <= tolerance))
+                size = f" ({piece.size})" if piece.size else ""
+                out.matches.append(Match(f"{piece.name}:{edges[0]}{size}", f"{seam.to[0]}:{seam.to[1]}{size}", a - b,
+                                         ease, abs(ease) <= tolerance))
     if s.plan:
         names = {p.name for p in out.pieces}
         unknown = sorted({x.piece for x in s.plan.seams} - names)

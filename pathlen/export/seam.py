@@ -30,7 +30,7 @@ def _thread(mm: float, units: str) -> float:
 
 def _piece(p: Any, units: str) -> dict[str, Any]:
     return {
-        "name": p.name, "quantity": p.quantity, "size": p.size,
+        "name": p.name, "quantity": p.quantity, "size": p.size, "error": p.error,
         "cut_length": from_mm(p.cut_length_mm, units), "sew_line_length": from_mm(p.sew_line_mm, units),
         "sew_length": from_mm(p.sew_length_mm, units), "notches": p.notches,
         "edges": [{"index": k, "length": from_mm(e, units)} for k, e in enumerate(p.edges, start=1)],

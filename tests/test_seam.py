@@ -1,0 +1,183 @@
+"""Seams: sew lines by exact inward offset, edges, plans, matching and thread, against elementary
+geometry, mpmath and hand computation."""
+
+import json
+import math
+from pathlib import Path
+
+import ezdxf
+import mpmath as mp
+import pytest
+
+from pathlen.cli import main
+from pathlen.estimates.thread import STITCH_RATIO, lockstitch_ratio, thread_ratio
+
+FIXTURES = Path(__file__).resolve().parent.parent / "fixtures"
+
+
+def seam_json(runner, *args):
+    res = runner.invoke(main, ["seam", *map(str, args), "--units", "mm", "--format", "json"])
+    assert res.exit_code in (0, 1), res.output
+    return res, json.loads(res.stdout)
+
+
+def plain_dxf(tmp_path, build, name="piece.dxf"):
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 4
+    build(doc.modelspace())
+    path = tmp_path / name
+    doc.saveas(path)
+    return path
+
+
+@pytest.mark.parametrize(("w", "h", "a"), [(400, 380, 10), (100, 50, 15), (30, 30, 6)])
+def test_rectangle_sews_its_perimeter_less_8a(runner, tmp_path, w, h, a):
+    # elementary geometry: the inner rectangle (W − 2a) x (H − 2a), perimeter 2(W + H) − 8a
+    path = plain_dxf(tmp_path, lambda m: m.add_lwpolyline([(0, 0), (w, 0), (w, h), (0, h)], close=True))
+    _, doc = seam_json(runner, path, "--allowance", a)
+    piece = doc["files"][0]["pieces"][0]
+    assert piece["sew_length"] == pytest.approx(2 * (w + h) - 8 * a, rel=1e-12)
+    assert [e["length"] for e in piece["edges"]] == pytest.approx([w - 2 * a, h - 2 * a, w - 2 * a, h - 2 * a])
+
+
+def test_circle_sews_the_circle_of_radius_r_minus_a(runner, tmp_path):
+    # 2π(R − a): the offset of a circle is the concentric circle
+    path = plain_dxf(tmp_path, lambda m: m.add_circle((50, 50), 40))
+    _, doc = seam_json(runner, path, "--allowance", 12)
+    assert doc["files"][0]["pieces"][0]["sew_length"] == pytest.approx(2 * math.pi * 28, rel=1e-12)
+
+
+def test_clockwise_outline_and_its_edges_in_documented_order(runner, tmp_path):
+    # the same rectangle drawn clockwise: edges still counter-clockwise from the lower-left corner
+    path = plain_dxf(tmp_path, lambda m: m.add_lwpolyline([(0, 0), (0, 50), (100, 50), (100, 0)], close=True))
+    _, doc = seam_json(runner, path, "--allowance", 5)
+    assert [e["length"] for e in doc["files"][0]["pieces"][0]["edges"]] == pytest.approx([90, 40, 90, 40])
+
+
+def test_curved_edge_offset_against_mpmath(runner, tmp_path):
+    # a piece: the line (0,0)-(100,0) closed by a cubic arching over it.  Its offset at distance a has
+    # length ∫(1 − aκ)|r′| dt along the cubic (κ signed, the piece on the left), plus the line, less the
+    # mitres a·tan(φ/2) on both sides of each corner (φ the turning there)
+    ctrl = [(100, 0), (110, 60), (-10, 60), (0, 0)]
+    a = 4.0
+
+    def build(m):
+        m.add_line((0, 0), (100, 0))
+        spline = m.add_spline()
+        spline.dxf.degree = 3
+        spline.control_points = [(*p, 0) for p in ctrl]
+        spline.knots = [0, 0, 0, 0, 1, 1, 1, 1]
+
+    path = plain_dxf(tmp_path, build)
+    _, doc = seam_json(runner, path, "--allowance", a)
+    mp.mp.dps = 30
+    p = [mp.matrix([mp.mpf(x), mp.mpf(y)]) for x, y in ctrl]
+
+    def d1(t):
+        return 3 * (1 - t) ** 2 * (p[1] - p[0]) + 6 * (1 - t) * t * (p[2] - p[1]) + 3 * t**2 * (p[3] - p[2])
+
+    def d2(t):
+        return 6 * (1 - t) * (p[2] - 2 * p[1] + p[0]) + 6 * t * (p[3] - 2 * p[2] + p[1])
+
+    def speed_less_curvature(t):
+        v, acc = d1(t), d2(t)
+        speed = mp.sqrt(v[0] ** 2 + v[1] ** 2)
+        kappa = (v[0] * acc[1] - v[1] * acc[0]) / speed**3  # signed, left turns positive
+        return (1 - a * kappa) * speed
+
+    curve = mp.quad(speed_less_curvature, [0, 1])
+    start, end = d1(mp.mpf(0)), d1(mp.mpf(1))
+    turn_in = mp.atan2(start[1], start[0])  # line (heading +x, angle 0) into the cubic at (100, 0)
+    turn_out = -mp.atan2(end[1], end[0])  # cubic end direction back to the line's heading 0
+    turn_out = mp.atan2(mp.sin(turn_out), mp.cos(turn_out))
+    mitres = 2 * a * (mp.tan(turn_in / 2) + mp.tan(turn_out / 2))
+    expected = 100 + curve - mitres
+    assert doc["files"][0]["pieces"][0]["sew_length"] == pytest.approx(float(expected), rel=1e-8)
+
+
+def test_allowance_beyond_the_inner_radius_fails_that_piece_only(runner, tmp_path):
+    def build(m):
+        m.add_circle((0, 0), 5)
+        m.add_lwpolyline([(50, 0), (150, 0), (150, 50), (50, 50)], close=True)
+
+    path = plain_dxf(tmp_path, build)
+    _, doc = seam_json(runner, path, "--allowance", 6)
+    pieces = {p["name"]: p for p in doc["files"][0]["pieces"]}
+    assert pieces["piece 1"]["error"] and "inner radius" in pieces["piece 1"]["error"]
+    assert pieces["piece 1"]["sew_length"] == 0
+    assert pieces["piece 2"]["sew_length"] == pytest.approx(300 - 48, rel=1e-12)
+    assert any("not sewn" in w for w in doc["files"][0]["warnings"])
+
+
+def test_thread_ratios_as_labelled_and_the_lockstitch_model():
+    # values as recalled in shared/REFERENCES.md (# from memory) and the geometric model 2 + 2·T·S
+    # (textile engineering texts on thread consumption), by hand: T = 2 mm, 4 stitches per cm
+    assert STITCH_RATIO[301] == 2.5 and STITCH_RATIO[401] == 5.5 and STITCH_RATIO[504] == 14.0
+    assert STITCH_RATIO[516] == 20.0 and STITCH_RATIO[607] == 32.0
+    assert lockstitch_ratio(2.0, 0.4) == pytest.approx(2 + 2 * 2.0 * 0.4)
+    assert thread_ratio(301, 2.0, 0.4) == pytest.approx(3.6)
+    assert thread_ratio(504, 2.0, 0.4) == 14.0  # the model is for lockstitch only
+
+
+def test_demo_pattern_pieces_sizes_plan_and_matches(runner):
+    # the D6673-style tote bag: FRONT S is 400 x 380 with a bottom notch; allowance 10 mm
+    res, doc = seam_json(runner, FIXTURES / "kl610_tote_bag.dxf", "--plan", FIXTURES / "kl610_tote_bag_seams.toml",
+                         "--quantity", 50, "--cone", "5000m")
+    assert res.exit_code == 0
+    f = doc["files"][0]
+    pieces = {(p["name"], p["size"]): p for p in f["pieces"]}
+    front = pieces[("FRONT", "S")]
+    assert [e["length"] for e in front["edges"]] == pytest.approx([190, 190, 360, 380, 360])
+    assert front["notches"] == 1 and front["quantity"] == 1
+    # sides and bottom (1100) with 301, and the top hem twin needle (2 x 380)
+    assert front["sew_length"] == pytest.approx(1100 + 760)
+    handle = pieces[("HANDLE", "S")]
+    assert handle["quantity"] == 2
+    assert handle["sew_length"] == pytest.approx(2 * (570 + 70))  # the drawn sew line wins over the allowance
+    seam = handle["seams"][0]
+    assert seam["stitch"] == 401
+    assert seam["thread_length"] == pytest.approx(seam["length"] * 5.5 * 1.125 / 1000)  # ratio x (1 + waste), m
+    assert all(m["ok"] for m in f["matches"]) and len(f["matches"]) == 8
+    assert set(f["sizes"]) == {"S", "M"}
+    thread_mm = doc["total"]["thread_length"] * 1000
+    assert doc["total"]["cones"] == math.ceil(thread_mm / 5_000_000)
+    assert doc["units"] == {"length": "mm", "thread": "m"}
+
+
+def test_mismatched_edges_are_flagged(runner, tmp_path):
+    def build(m):
+        m.add_lwpolyline([(0, 0), (100, 0), (100, 50), (0, 50)], close=True)
+        m.add_lwpolyline([(200, 0), (305, 0), (305, 50), (200, 50)], close=True)
+
+    path = plain_dxf(tmp_path, build)
+    plan = tmp_path / "plan.toml"
+    plan.write_text('tolerance_pct = 2\n[[seam]]\npiece = "piece 1"\nedges = [1]\nto = "piece 2:1"\n')
+    _, doc = seam_json(runner, path, "--plan", plan)
+    match = doc["files"][0]["matches"][0]
+    assert match["difference"] == pytest.approx(-5.0) and match["ease_pct"] == pytest.approx(-5 / 85 * 100)
+    assert match["ok"] is False
+    assert any("differ by" in w for w in doc["files"][0]["warnings"])
+
+
+@pytest.mark.parametrize(("text", "words"), [
+    ("", "no [[seam]] tables"),
+    ('[[seam]]\npiece = "A"\nstitch = 999\n', "unknown stitch type"),
+    ('[[seam]]\npiece = "A"\nedges = [0]\n', "edges must be"),
+    ('[[seam]]\npiece = "A"\nedges = [1, 2]\nto = "B:1"\n', "names one edge"),
+    ('[[seam]]\npiece = "A"\nedges = [1]\nto = "B"\n', "PIECE:EDGE"),
+    ('[[seam]]\npiece = "A"\nspc = 4\nspi = 10\n', "spc or spi"),
+    ('[[seam]]\npiece = "A"\nrows = 0\n', "rows must be"),
+    ('[[seam]]\npiece = "A"\ncolour = "red"\n', "unknown key"),
+])
+def test_bad_plans_are_one_line_usage_errors(runner, tmp_path, text, words):
+    path = plain_dxf(tmp_path, lambda m: m.add_circle((0, 0), 50))
+    plan = tmp_path / "plan.toml"
+    plan.write_text(text)
+    res = runner.invoke(main, ["seam", str(path), "--plan", str(plan)])
+    assert res.exit_code == 2 and words in res.output
+
+
+def test_unknown_stitch_and_both_densities_are_usage_errors(runner, tmp_path):
+    path = plain_dxf(tmp_path, lambda m: m.add_circle((0, 0), 50))
+    assert runner.invoke(main, ["seam", str(path), "--stitch", "999"]).exit_code == 2
+    assert runner.invoke(main, ["seam", str(path), "--spc", "4", "--spi", "10"]).exit_code == 2
