@@ -119,9 +119,17 @@ def test_thread_ratios_as_labelled_and_the_lockstitch_model():
     assert thread_ratio(504, 2.0, 0.4) == 14.0  # the model is for lockstitch only
 
 
-def test_demo_pattern_pieces_sizes_plan_and_matches(runner):
-    # the D6673-style tote bag: FRONT S is 400 x 380 with a bottom notch; allowance 10 mm
-    res, doc = seam_json(runner, FIXTURES / "kl610_tote_bag.dxf", "--plan", FIXTURES / "kl610_tote_bag_seams.toml",
+def test_d6673_pattern_pieces_sizes_plan_and_matches(runner, tmp_path):
+    # a D6673-style pattern built here with ezdxf by the demo's own script (blocks per piece and size,
+    # layers 1, 4, 14, 15, piece texts): FRONT S is 400 x 380 with a bottom notch; allowance 10 mm
+    import importlib.util
+
+    spec = importlib.util.spec_from_file_location("make_fixtures", FIXTURES / "make_fixtures.py")
+    make = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(make)
+    pattern = tmp_path / "tote.dxf"
+    make.tote_bag(pattern)
+    res, doc = seam_json(runner, pattern, "--plan", FIXTURES / "kl610_tote_bag_seams.toml",
                          "--quantity", 50, "--cone", "5000m")
     assert res.exit_code == 0
     f = doc["files"][0]
@@ -142,6 +150,20 @@ def test_demo_pattern_pieces_sizes_plan_and_matches(runner):
     thread_mm = doc["total"]["thread_length"] * 1000
     assert doc["total"]["cones"] == math.ceil(thread_mm / 5_000_000)
     assert doc["units"] == {"length": "mm", "thread": "m"}
+
+
+def test_plan_allowance_per_piece_and_svg_colours(runner, tmp_path):
+    # a red square (cut) and a blue square drawn 5 mm inside it (its sew line), selected by colour
+    svg = tmp_path / "pieces.svg"
+    svg.write_text('<svg xmlns="http://www.w3.org/2000/svg" width="300mm" height="100mm" viewBox="0 0 300 100">'
+                   '<rect width="100" height="100" stroke="#ff0000"/><rect x="5" y="5" width="90" height="90" '
+                   'stroke="#0000ff"/><rect x="150" width="60" height="60" stroke="#ff0000"/></svg>')
+    plan = tmp_path / "plan.toml"
+    plan.write_text('allowance = { "piece 2" = 15 }\n[[seam]]\npiece = "piece 1"\n[[seam]]\npiece = "piece 2"\n')
+    _, doc = seam_json(runner, svg, "--cut-layer", "#ff0000", "--sew-layer", "#0000ff", "--plan", plan)
+    pieces = {p["name"]: p for p in doc["files"][0]["pieces"]}
+    assert pieces["piece 1"]["sew_length"] == pytest.approx(360.0)  # the drawn sew line, 4 x 90
+    assert pieces["piece 2"]["sew_length"] == pytest.approx(240.0 - 8 * 15)  # perimeter − 8a, a from the plan
 
 
 def test_mismatched_edges_are_flagged(runner, tmp_path):

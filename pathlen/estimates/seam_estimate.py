@@ -155,7 +155,7 @@ def _pattern_piece(piece: PatternPiece, s: SeamSettings, warnings: list[str]) ->
         if j is not None:  # a drawn sew line wins over the allowance
             line = sew_line(table, sewn[j], 0.0, piece.marks)
         else:
-            line = sew_line(table, outlines[k], s.allowance_mm, piece.marks)
+            line = sew_line(table, outlines[k], _allowance(s, piece.name), piece.marks)
     except InputError as exc:
         return PieceSeams(piece.name, piece.quantity, piece.size, float(outlines.length[k]), 0.0, [], error=str(exc))
     if line.unsnapped_marks:
@@ -166,10 +166,17 @@ def _pattern_piece(piece: PatternPiece, s: SeamSettings, warnings: list[str]) ->
                       notches)
 
 
+def _selected(drawing: Drawing, table: SegmentTable, selectors: tuple[str, ...]) -> np.ndarray:
+    """Segments whose entity's layer or stroke colour (``#rrggbb``, SVG) is one of ``selectors``."""
+    chosen = np.array([e.layer in selectors or (bool(e.color) and e.color in selectors) for e in drawing.entities],
+                      dtype=bool)
+    return chosen[table.entity] if len(table) else np.zeros(0, dtype=bool)
+
+
 def _plain_pieces(drawing: Drawing, s: SeamSettings) -> list[PieceSeams]:
-    table, names, layer = _table(drawing, s)
-    sew = _on(names, layer, s.sew_layers) if s.sew_layers else np.zeros(len(table), dtype=bool)
-    cut = _on(names, layer, s.cut_layers) if s.cut_layers else ~sew
+    table, _, layer = _table(drawing, s)
+    sew = _selected(drawing, table, s.sew_layers) if s.sew_layers else np.zeros(len(table), dtype=bool)
+    cut = _selected(drawing, table, s.cut_layers) if s.cut_layers else ~sew
     tol = s.measure.join_tol_mm  # type: ignore[attr-defined]
     outlines = chain_contours(table, layer, tol, cut)
     depth, _ = nesting_depth(table, outlines)
@@ -186,12 +193,17 @@ def _plain_pieces(drawing: Drawing, s: SeamSettings) -> list[PieceSeams]:
                 if inside is not None:
                     line = sew_line(table, sewn[inside], 0.0, [])
             if line is None:
-                line = sew_line(table, outlines[k], s.allowance_mm, [])
+                line = sew_line(table, outlines[k], _allowance(s, name), [])
         except InputError as exc:
             out.append(PieceSeams(name, 1, "", float(outlines.length[k]), 0.0, [], error=str(exc)))
             continue
         out.append(PieceSeams(name, 1, "", float(outlines.length[k]), line.length_mm, line.edges))
     return out
+
+
+def _allowance(s: SeamSettings, piece: str) -> float:
+    """The plan's allowance for this piece, else ``--allowance``."""
+    return s.plan.allowances.get(piece, s.allowance_mm) if s.plan else s.allowance_mm
 
 
 def _largest_closed(table: SegmentTable, contours: ContourSet) -> int | None:

@@ -1,6 +1,7 @@
 """Seam plans (TOML, our own form): which edges are sewn, with which stitch, and what must match.
 
     tolerance_pct = 3            # matching: |ease| above this is flagged (default 3)
+    allowance = { POCKET = 15 }  # seam allowance per piece (mm) where it differs from --allowance
 
     [[seam]]
     piece = "FRONT"              # a piece name (all sizes), edges numbered as pathlen reports them
@@ -16,7 +17,7 @@ Every problem is one line naming the plan, the entry and the reason (a usage err
 from __future__ import annotations
 
 import tomllib
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 from pathlen.errors import UsageError
@@ -39,6 +40,7 @@ class PlannedSeam:
 class SeamPlan:
     seams: tuple[PlannedSeam, ...]
     tolerance_pct: float = DEFAULT_TOLERANCE_PCT
+    allowances: dict[str, float] = field(default_factory=dict)
 
 
 def load_seam_plan(path: Path) -> SeamPlan:
@@ -48,9 +50,13 @@ def load_seam_plan(path: Path) -> SeamPlan:
         raise UsageError(f"{path}: cannot read the seam plan ({exc.strerror or exc})") from None
     except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
         raise UsageError(f"{path}: not a TOML file ({str(exc).splitlines()[0]})") from None
-    unknown = set(data) - {"seam", "tolerance_pct"}
+    unknown = set(data) - {"seam", "tolerance_pct", "allowance"}
     if unknown:
-        raise UsageError(f"{path}: unknown key {sorted(unknown)[0]!r} (seam, tolerance_pct)")
+        raise UsageError(f"{path}: unknown key {sorted(unknown)[0]!r} (seam, tolerance_pct, allowance)")
+    allowances = data.get("allowance", {})
+    if not isinstance(allowances, dict) or not all(
+            isinstance(v, int | float) and not isinstance(v, bool) and v >= 0 for v in allowances.values()):
+        raise UsageError(f"{path}: allowance must map piece names to millimetres, at least 0")
     tolerance = data.get("tolerance_pct", DEFAULT_TOLERANCE_PCT)
     if isinstance(tolerance, bool) or not isinstance(tolerance, int | float) or not tolerance >= 0:
         raise UsageError(f"{path}: tolerance_pct must be a number of percent, at least 0")
@@ -59,7 +65,7 @@ def load_seam_plan(path: Path) -> SeamPlan:
         seams.append(_seam(entry, f"{path} seam {k}"))
     if not seams:
         raise UsageError(f"{path}: no [[seam]] tables")
-    return SeamPlan(tuple(seams), float(tolerance))
+    return SeamPlan(tuple(seams), float(tolerance), {str(k): float(v) for k, v in allowances.items()})
 
 
 def _seam(entry: object, where: str) -> PlannedSeam:
