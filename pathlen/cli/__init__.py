@@ -10,6 +10,7 @@ from pathlen.cli.cut import cut
 from pathlen.cli.measure import measure
 from pathlen.cli.profiles import profiles
 from pathlen.cli.seam import seam
+from pathlen.cli.watch import watch
 
 
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})
@@ -18,7 +19,7 @@ def main() -> None:
     """pathlen: exact path lengths from drawings, with error bounds."""
 
 
-for _command in (measure, cut, seam, bead, profiles):
+for _command in (measure, cut, seam, bead, profiles, watch):
     main.add_command(_command)
 
 __all__ = ["main"]

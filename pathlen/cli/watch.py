@@ -1,0 +1,77 @@
+"""``pathlen watch INBOX --out OUTBOX``: the folder service; ``--status OUTBOX``: what its ledger says."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import click
+
+from pathlen.batch import DEFAULT_MAX_MEMORY_MB, DEFAULT_TIMEOUT_S, Limits
+from pathlen.errors import PathlenError
+
+
+@click.command()
+@click.argument("inbox", required=False, type=click.Path(file_okay=False, path_type=Path))
+@click.option("--out", "outbox", type=click.Path(file_okay=False, path_type=Path), help="The outbox folder.")
+@click.option("--task", type=click.Choice(["measure", "cut", "seam", "bead"]), default="measure", show_default=True)
+@click.option("--profile", help="Process profile (--task cut).")
+@click.option("--profiles", "profile_files", multiple=True, type=click.Path(dir_okay=False),
+              help="A TOML file of your own profiles (--task cut).")
+@click.option("--bead", "bead_spec", metavar="SPEC", help="Bead section (--task bead), e.g. rect:12x6.")
+@click.option("--poll", type=click.FloatRange(min=0.05), default=2.0, show_default=True, metavar="S",
+              help="Seconds between scans of the inbox (the safety net under change events).")
+@click.option("--settle", type=click.FloatRange(min=0), default=2.0, show_default=True, metavar="S",
+              help="Seconds a file's size and time must stay unchanged before it is taken.")
+@click.option("--jobs", "-j", type=click.IntRange(min=0), default=1, show_default=True, help="Worker processes.")
+@click.option("--timeout", type=click.FloatRange(min=0, min_open=True), default=DEFAULT_TIMEOUT_S, show_default=True)
+@click.option("--max-memory", type=click.IntRange(min=64), default=DEFAULT_MAX_MEMORY_MB, show_default=True,
+              metavar="MB")
+@click.option("--state", type=click.Path(file_okay=False, path_type=Path),
+              help="Folder of the ledger (default OUTBOX/.pathlen; keep it on a local disk).")
+@click.option("--keep", is_flag=True, help="Leave originals in the inbox (the ledger remembers them).")
+@click.option("--once", is_flag=True, help="Process what is there, then exit (for cron and tests).")
+@click.option("--no-events", is_flag=True, help="Poll only (network shares deliver no change events).")
+@click.option("--log-json", is_flag=True, help="Log lines as JSON objects.")
+@click.option("--status", "status_of", type=click.Path(file_okay=False, path_type=Path), metavar="OUTBOX",
+              help="Print the ledger's counts and last failures for OUTBOX, then exit.")
+def watch(inbox: Path | None, outbox: Path | None, task: str, profile: str | None, profile_files: tuple[str, ...],
+          bead_spec: str | None, poll: float, settle: float, jobs: int, timeout: float, max_memory: int,
+          state: Path | None, keep: bool, once: bool, no_events: bool, log_json: bool, status_of: Path | None) -> None:
+    """Measure or estimate every drawing dropped into INBOX, results into OUTBOX, never losing or repeating a job."""
+    from pathlen.watch.service import Service, WatchConfig, status
+    from pathlen.watch.tasks import build_task
+
+    if status_of is not None:
+        click.echo(status(status_of, state))
+        return
+    if inbox is None or outbox is None:
+        raise click.UsageError("give INBOX and --out OUTBOX (or --status OUTBOX)")
+    try:
+        chosen = build_task(task, profile, profile_files, bead_spec)
+    except PathlenError as exc:
+        raise click.UsageError(str(exc)) from None
+    state_dir = state or outbox / ".pathlen"
+    if _network_fs(state_dir.parent if not state_dir.exists() else state_dir):
+        click.echo("warning: the ledger folder is on a network file system; SQLite wants a local disk", err=True)
+    cfg = WatchConfig(inbox, outbox, state_dir, chosen, poll, settle, jobs, Limits(timeout, max_memory), keep, once,
+                      not no_events, log_json)
+    try:
+        service = Service(cfg)
+    except ValueError as exc:
+        raise click.UsageError(str(exc)) from None
+    raise SystemExit(service.run())
+
+
+def _network_fs(path: Path) -> bool:
+    """Whether ``path`` lies on a network file system (Linux /proc/mounts; False where unknown)."""
+    try:
+        target = str(path.resolve())
+        best, kind = "", ""
+        with open("/proc/mounts", encoding="utf-8") as fh:
+            for line in fh:
+                parts = line.split()
+                if len(parts) > 2 and target.startswith(parts[1]) and len(parts[1]) > len(best):
+                    best, kind = parts[1], parts[2]
+        return kind in ("nfs", "nfs4", "cifs", "smb3", "smbfs", "sshfs", "fuse.sshfs", "9p")
+    except OSError:
+        return False
