@@ -32,14 +32,19 @@ from pathlen.errors import PathlenError
 @click.option("--once", is_flag=True, help="Process what is there, then exit (for cron and tests).")
 @click.option("--no-events", is_flag=True, help="Poll only (network shares deliver no change events).")
 @click.option("--log-json", is_flag=True, help="Log lines as JSON objects.")
+@click.option("--config", "service_file", type=click.Path(dir_okay=False),
+              help="A TOML service file: [folder.\"NAME\"] tables giving the task (and profile or bead) for the "
+                   "inbox's sub-folder NAME.")
+@click.option("--csv", "write_csv", is_flag=True, help="Write each result as CSV too.")
 @click.option("--status", "status_of", type=click.Path(file_okay=False, path_type=Path), metavar="OUTBOX",
               help="Print the ledger's counts and last failures for OUTBOX, then exit.")
 def watch(inbox: Path | None, outbox: Path | None, task: str, profile: str | None, profile_files: tuple[str, ...],
           bead_spec: str | None, poll: float, settle: float, jobs: int, timeout: float, max_memory: int,
-          state: Path | None, keep: bool, once: bool, no_events: bool, log_json: bool, status_of: Path | None) -> None:
+          state: Path | None, keep: bool, once: bool, no_events: bool, log_json: bool, service_file: str | None,
+          write_csv: bool, status_of: Path | None) -> None:
     """Measure or estimate every drawing dropped into INBOX, results into OUTBOX, never losing or repeating a job."""
     from pathlen.watch.service import Service, WatchConfig, status
-    from pathlen.watch.tasks import build_task
+    from pathlen.watch.tasks import build_task, load_service_file
 
     if status_of is not None:
         click.echo(status(status_of, state))
@@ -48,13 +53,14 @@ def watch(inbox: Path | None, outbox: Path | None, task: str, profile: str | Non
         raise click.UsageError("give INBOX and --out OUTBOX (or --status OUTBOX)")
     try:
         chosen = build_task(task, profile, profile_files, bead_spec)
+        tasks = load_service_file(Path(service_file), chosen, profile_files) if service_file else {"": chosen}
     except PathlenError as exc:
         raise click.UsageError(str(exc)) from None
     state_dir = state or outbox / ".pathlen"
     if _network_fs(state_dir.parent if not state_dir.exists() else state_dir):
         click.echo("warning: the ledger folder is on a network file system; SQLite wants a local disk", err=True)
-    cfg = WatchConfig(inbox, outbox, state_dir, chosen, poll, settle, jobs, Limits(timeout, max_memory), keep, once,
-                      not no_events, log_json)
+    cfg = WatchConfig(inbox, outbox, state_dir, tasks, poll, settle, jobs, Limits(timeout, max_memory), keep, once,
+                      not no_events, log_json, write_csv)
     try:
         service = Service(cfg)
     except ValueError as exc:

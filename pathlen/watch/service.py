@@ -30,7 +30,8 @@ class WatchConfig:
     inbox: Path
     outbox: Path
     state: Path
-    task: Task
+    #: the task per sub-folder of the inbox ("" for every other file)
+    tasks: dict[str, Task]
     poll_s: float = 2.0
     settle_s: float = 2.0
     jobs: int = 1
@@ -39,6 +40,7 @@ class WatchConfig:
     once: bool = False
     events: bool = True
     log_json: bool = False
+    csv: bool = False
 
 
 def check_folders(inbox: Path, outbox: Path) -> None:
@@ -76,12 +78,17 @@ class Service:
         observer = self._observer() if self.cfg.events and not self.cfg.once else None
         for sig in (signal.SIGTERM, signal.SIGINT):
             signal.signal(sig, lambda *_: (self.stop.set(), self.wake.set()))
-        self.log("watching", inbox=str(self.cfg.inbox), outbox=str(self.cfg.outbox), task=self.cfg.task.name)
+        self.log("watching", inbox=str(self.cfg.inbox), outbox=str(self.cfg.outbox),
+                 tasks=",".join(f"{k or '*'}:{t.name}" for k, t in self.cfg.tasks.items()))
         try:
             while not self.stop.is_set():
                 ready, waiting = self.settling.ready([c for c in scan(self.cfg.inbox) if not self._seen(c)])
                 if ready:
-                    self.process(ready)
+                    groups: dict[str, list[Candidate]] = {}
+                    for c in ready:
+                        groups.setdefault(self.folder_of(c), []).append(c)
+                    for folder, members in groups.items():
+                        self.process(members, self.cfg.tasks[folder])
                     continue
                 if self.cfg.once and waiting == 0:
                     break
@@ -113,12 +120,16 @@ class Service:
         observer.start()
         return observer
 
+    def folder_of(self, c: Candidate) -> str:
+        """The service-file folder a file belongs to ("" for the default task)."""
+        head, sep, _ = c.rel.partition("/")
+        return head if sep and head in self.cfg.tasks else ""
+
     def _seen(self, c: Candidate) -> bool:
         return self.cfg.keep and self.ledger.seen(c.rel, c.size, c.mtime_ns)
 
     # -- one round ------------------------------------------------------------------------
-    def process(self, ready: list[Candidate]) -> None:
-        task = self.cfg.task
+    def process(self, ready: list[Candidate], task: Task) -> None:
         to_run: list[tuple[Candidate, str]] = []
         running: set[str] = set()
         twins: list[tuple[Candidate, str]] = []  # same content as a file run in this round: answered after it
@@ -136,23 +147,22 @@ class Service:
             if key in running:
                 twins.append((c, key))
             elif job is not None and job.state in ("done", "failed"):
-                self.deliver(c, key, job.state == "done", job.result, job.error, answered=True)
+                self.deliver(c, key, job.state == "done", job.result, job.error, True, task)
             else:
                 self.ledger.start(key, c.rel, task.name)
                 to_run.append((c, key))
                 running.add(key)
         if to_run:
-            self._run(to_run)
+            self._run(to_run, task)
         for c, key in twins:
             job = self.ledger.job(key)
             if job is not None and job.state in ("done", "failed") and not self.stop.is_set():
-                self.deliver(c, key, job.state == "done", job.result, job.error, answered=True)
+                self.deliver(c, key, job.state == "done", job.result, job.error, True, task)
             else:
                 self.settling.forget(c.rel)  # taken again in the next round
 
-    def _run(self, to_run: list[tuple[Candidate, str]]) -> None:
+    def _run(self, to_run: list[tuple[Candidate, str]], task: Task) -> None:
         """Run the jobs in worker processes and deliver each result as it finishes."""
-        task = self.cfg.task
         paths = [str(c.path) for c, _ in to_run]
         for i, result in run_batch(paths, task.settings, self.cfg.jobs, task.work, task.failed, self.cfg.limits):
             c, key = to_run[i]
@@ -164,7 +174,8 @@ class Service:
                 continue
             text = json.dumps(task.document(result), indent=2) + "\n"
             self.ledger.finish(key, result.ok, text if result.ok else None, result.error)
-            self.deliver(c, key, result.ok, text if result.ok else None, result.error, answered=False)
+            table = task.csv(result) if self.cfg.csv and task.csv and result.ok else None
+            self.deliver(c, key, result.ok, text if result.ok else None, result.error, False, task, table)
             if self.stop.is_set():  # the rest stay queued in the ledger and their files in the inbox
                 for _, other in to_run:
                     self.ledger.db.execute("UPDATE jobs SET state = 'queued' WHERE key = ? AND state = 'running'",
@@ -184,16 +195,19 @@ class Service:
             return True
         return False
 
-    def deliver(self, c: Candidate, key: str, ok: bool, text: str | None, error: str | None, answered: bool) -> None:
+    def deliver(self, c: Candidate, key: str, ok: bool, text: str | None, error: str | None, answered: bool,
+                task_of: Task, table: str | None = None) -> None:
         """Result (or error note) into the outbox, the original moved (or kept), the summary line."""
         out = self.cfg.outbox
         rel = safe_relative(c.rel)
-        task = self.cfg.task.name
+        task = task_of.name
         result_path = None
         if ok and text is not None:
             result_path = inside(out, out / "results" / rel.parent / f"{rel.name}.{task}.json")
             if not same_content(result_path, text):
                 write_atomic(result_path, text)
+            if table is not None:
+                write_atomic(result_path.with_suffix(".csv"), table)
             destination = out / "done" / rel
         else:
             destination = out / "failed" / rel
