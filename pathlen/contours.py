@@ -324,25 +324,35 @@ def _contours_from_chains(table: SegmentTable, layer: IntArray, rows: IntArray, 
     )
 
 
-def gap_warnings(contours: ContourSet, layer_names: list[str], join_tol: float,
-                 gap_tol: float = DEFAULT_GAP_REPORT_MM) -> list[str]:
-    """Open contour ends closer than ``gap_tol`` but not joined: the usual cause of a part that will not cut clean."""
+def gap_points(contours: ContourSet, join_tol: float, gap_tol: float = DEFAULT_GAP_REPORT_MM
+               ) -> tuple[FloatArray, FloatArray, IntArray]:
+    """Gaps between open contour ends: closer than ``gap_tol`` but not joined.  Returns the middle of
+    each gap ``[k, 3]`` (mm), its width (mm) and its layer index."""
     open_ = np.flatnonzero(~contours.closed)
+    none = (np.zeros((0, 3)), np.zeros(0), np.zeros(0, dtype=np.int64))
     if len(open_) == 0 or gap_tol <= join_tol:
-        return []
+        return none
     points = np.stack([contours.start[open_], contours.end[open_]], axis=1).reshape(-1, 3)
     groups = np.repeat(contours.layer[open_], 2)
     pairs = close_pairs(points, gap_tol, groups)
     d = np.linalg.norm(points[pairs[:, 0]] - points[pairs[:, 1]], axis=1)
     near = d > join_tol  # including the two ends of one nearly closed contour
-    if not near.any():
+    pairs, d = pairs[near], d[near]
+    return 0.5 * (points[pairs[:, 0]] + points[pairs[:, 1]]), d, groups[pairs[:, 0]]
+
+
+def gap_warnings(contours: ContourSet, layer_names: list[str], join_tol: float,
+                 gap_tol: float = DEFAULT_GAP_REPORT_MM) -> list[str]:
+    """Open contour ends closer than ``gap_tol`` but not joined: the usual cause of a part that will not cut clean."""
+    middle, width, layer = gap_points(contours, join_tol, gap_tol)
+    if len(width) == 0:
         return []
-    worst = int(np.argmax(np.where(near, d, -1.0)))
-    p = points[pairs[worst, 0]]
-    count = int(near.sum())
+    worst = int(np.argmax(width))
+    p = middle[worst]
+    count = len(width)
     return [f"{count} gap{'s' if count != 1 else ''} between contour ends wider than the join tolerance "
-            f"({join_tol:g} mm) and under {gap_tol:g} mm; widest {d[worst]:.4f} mm at "
-            f"({p[0]:.3f}, {p[1]:.3f}) mm on layer {layer_names[int(groups[pairs[worst, 0]])]!r}"]
+            f"({join_tol:g} mm) and under {gap_tol:g} mm; widest {width[worst]:.4f} mm at "
+            f"({p[0]:.3f}, {p[1]:.3f}) mm on layer {layer_names[int(layer[worst])]!r}"]
 
 
 def duplicate_segments(table: SegmentTable, layer: IntArray, tol: float = DEFAULT_JOIN_TOL_MM) -> IntArray:

@@ -8,6 +8,7 @@ import click
 from pathlen.cli.bead import bead
 from pathlen.cli.cut import cut
 from pathlen.cli.measure import measure
+from pathlen.cli.preview import preview
 from pathlen.cli.profiles import profiles
 from pathlen.cli.seam import seam
 from pathlen.cli.watch import watch
@@ -19,7 +20,7 @@ def main() -> None:
     """pathlen: exact path lengths from drawings, with error bounds."""
 
 
-for _command in (measure, cut, seam, bead, profiles, watch):
+for _command in (measure, cut, seam, bead, preview, profiles, watch):
     main.add_command(_command)
 
 __all__ = ["main"]

@@ -1,0 +1,54 @@
+"""``pathlen preview FILE -o OUT.svg|.png|.pdf``: a picture of exactly what was measured."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import click
+
+from pathlen.errors import PathlenError
+
+
+@click.command()
+@click.argument("path", type=click.Path(dir_okay=False, path_type=Path))
+@click.option("--output", "-o", type=click.Path(dir_okay=False, path_type=Path), required=True,
+              help="The picture: .svg (curves kept exact), .png or .pdf.")
+@click.option("--join-tol", type=click.FloatRange(min=0), default=0.01, show_default=True, metavar="MM",
+              help="Distance within which segment ends join into one contour.")
+@click.option("--drawing-units", default=None, help="Units of a DXF drawing without $INSUNITS (mm, in, ...).")
+@click.option("--svg-dpi", type=click.FloatRange(min=1.0, max=1e6), default=None, help="px per inch of a px SVG.")
+@click.option("--hidden-layers", is_flag=True, help="Show DXF layers that are off or frozen too.")
+@click.option("--dpi", type=click.FloatRange(min=10, max=1200), default=150.0, show_default=True,
+              help="Resolution of PNG output.")
+def preview(path: Path, output: Path, join_tol: float, drawing_units: str | None, svg_dpi: float | None,
+            hidden_layers: bool, dpi: float) -> None:
+    """Draw the drawing PATH as pathlen measured it: contours by kind, starts and directions, gaps, scale bar."""
+    from pathlen.cli.reading import write_atomic
+    from pathlen.export.preview import build_scene, render_raster, scene_svg
+    from pathlen.geometry import MM_PER_UNIT, keep_entities
+    from pathlen.importers import ImportOptions, read_drawing
+    from pathlen.instances import expand
+
+    suffix = output.suffix.lower()
+    if suffix not in (".svg", ".png", ".pdf"):
+        raise click.BadParameter("must end in .svg, .png or .pdf", param_hint="--output")
+    if drawing_units is not None and drawing_units not in MM_PER_UNIT:
+        raise click.BadParameter(f"unknown unit {drawing_units!r}", param_hint="--drawing-units")
+    if not (output.parent or Path(".")).is_dir():
+        raise click.BadParameter(f"folder {str(output.parent)!r} does not exist", param_hint="--output")
+    try:
+        drawing = expand(read_drawing(path, ImportOptions(drawing_units, svg_dpi, hidden_layers=hidden_layers)))
+    except PathlenError as exc:
+        click.echo(f"error {path}: {exc}", err=True)
+        raise SystemExit(1) from None
+    import numpy as np
+
+    shown = np.array([not e.hidden for e in drawing.entities], dtype=bool)
+    if not shown.all():
+        drawing = keep_entities(drawing, shown)
+    scene = build_scene(drawing, path.name, path.suffix.lower() == ".svg", join_tol)
+    if suffix == ".svg":
+        write_atomic(str(output), scene_svg(scene))
+    else:
+        render_raster(scene, output, dpi)
+    click.echo(f"wrote {output}", err=True)

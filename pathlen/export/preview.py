@@ -1,0 +1,196 @@
+"""``pathlen preview``: a picture of exactly what was measured, in real units.
+
+Contours are coloured by kind (a scheme of our own): closed, open, drawn twice; gaps circled with
+their width; a dot at each contour's start and an arrow along its first segment.  A scale bar and
+the drawing's extents sit in the corners, a legend below, with what was not measured (the
+warnings' words).  SVG output keeps every curve a curve (see :mod:`pathlen.export.preview_paths`);
+PNG and PDF are drawn by matplotlib from Bézier paths.  Drawings from DXF have y up, from SVG y
+down: the picture keeps each drawing's orientation.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from html import escape
+from pathlib import Path
+
+import numpy as np
+
+from pathlen.contours import DEFAULT_JOIN_TOL_MM, chain_contours, duplicate_segments, gap_points
+from pathlen.export.preview_paths import segment_cubics, segment_paths
+from pathlen.geometry import Drawing
+from pathlen.measure import measure
+from pathlen.segments import SegmentTable, segment_layers, segment_table
+
+#: Our colours: closed contours in deep teal, open ones in amber, segments drawn twice in crimson,
+#: gaps in violet, starts and arrows in slate.
+COLOURS = {"closed": "#0b6e6e", "open": "#d98c00", "twice": "#c0143c", "gap": "#7a3db8", "mark": "#44505c"}
+LABELS = {"closed": "closed contour", "open": "open contour", "twice": "drawn twice", "gap": "gap (width)",
+          "mark": "start and direction"}
+
+
+@dataclass
+class Scene:
+    """Everything the picture shows, in mm in the drawing's own axes."""
+
+    paths: list[str]
+    pieces: list[list[np.ndarray]]
+    kind: list[str]  # per segment: closed, open or twice
+    starts: np.ndarray  # [k, 2]
+    arrows: np.ndarray  # [k, 2, 2]: (point, unit direction)
+    gaps: list[tuple[float, float, float]]  # x, y, width
+    box: tuple[float, float, float, float]  # x0, y0, x1, y1
+    y_down: bool
+    notes: list[str] = field(default_factory=list)
+    title: str = ""
+
+
+def build_scene(drawing: Drawing, title: str, y_down: bool, join_tol: float = DEFAULT_JOIN_TOL_MM) -> Scene:
+    """Classify the drawing's segments and contours for the picture (``drawing`` without placements)."""
+    table = segment_table(drawing, measure(drawing))
+    _, layer = segment_layers(drawing, table)
+    contours = chain_contours(table, layer, join_tol)
+    kind = np.array(["open"] * len(table), dtype=object)
+    for k in range(len(contours)):
+        if contours.closed[k]:
+            kind[contours.steps[contours.first[k]:contours.first[k] + contours.size[k]]] = "closed"
+    kind[duplicate_segments(table, layer, join_tol)] = "twice"
+    middle, width, _ = gap_points(contours, join_tol)
+    starts = contours.start[:, :2] if len(contours) else np.zeros((0, 2))
+    arrows = _arrows(table, contours)
+    lo, hi = table.box if len(table) else (np.zeros((1, 3)), np.ones((1, 3)))
+    box = (float(lo[:, 0].min()), float(lo[:, 1].min()), float(hi[:, 0].max()), float(hi[:, 1].max()))
+    return Scene(segment_paths(drawing), segment_cubics(drawing), list(kind), starts, arrows,
+                 [(float(m[0]), float(m[1]), float(w)) for m, w in zip(middle, width, strict=True)], box, y_down,
+                 list(drawing.warnings), title)
+
+
+def _arrows(table: SegmentTable, contours: object) -> np.ndarray:
+    out = []
+    for c in contours:  # type: ignore[attr-defined]
+        pts = table.travel_samples(c.segments[:1], c.forward[:1])[0, :, :2]
+        mid = len(pts) // 2
+        d = pts[mid + 1] - pts[mid - 1]
+        n = float(np.hypot(*d))
+        if n > 0:
+            out.append([pts[mid], d / n])
+    return np.array(out, dtype=float).reshape(-1, 2, 2)
+
+
+def nice_length(span: float) -> float:
+    """A round length (1, 2 or 5 times a power of ten) about a fifth of ``span``."""
+    target = max(span / 5.0, 1e-9)
+    power = 10.0 ** math.floor(math.log10(target))
+    return min((m * power for m in (1, 2, 5, 10)), key=lambda x: abs(x - target))
+
+
+# -- SVG ----------------------------------------------------------------------------------------
+def scene_svg(s: Scene) -> str:
+    """The picture as a standalone SVG document sized in mm (1 user unit = 1 mm)."""
+    x0, y0, x1, y1 = s.box
+    w, h = max(x1 - x0, 1e-6), max(y1 - y0, 1e-6)
+    margin = 0.06 * max(w, h) + 2.0
+    text = max(w, h) / 60.0 + 1.0
+    legend_h = text * 1.6 * (len(LABELS) + min(len(s.notes), 6) + 1)
+    width, height = w + 2 * margin, h + 2 * margin + legend_h
+    stroke = max(w, h) / 800.0 + 0.05
+    # drawing coordinates -> picture: y up (DXF) is flipped so that it reads as drawn
+    flip = f"matrix(1 0 0 -1 {margin - x0:.6f} {margin + y1:.6f})" if not s.y_down else \
+        f"translate({margin - x0:.6f} {margin - y0:.6f})"
+    out = [f'<svg xmlns="http://www.w3.org/2000/svg" width="{width:.6f}mm" height="{height:.6f}mm" '
+           f'viewBox="0 0 {width:.6f} {height:.6f}" font-family="DejaVu Sans, Helvetica, Arial, sans-serif">',
+           f"<title>{escape(s.title)}</title>",
+           f'<rect width="{width:.6f}" height="{height:.6f}" fill="#ffffff"/>',
+           f'<g id="measured" transform="{flip}" fill="none" stroke-width="{stroke:.4f}" stroke-linecap="round">']
+    for kind in ("closed", "open", "twice"):
+        d = " ".join(p for p, k in zip(s.paths, s.kind, strict=True) if k == kind)
+        if d:
+            dash = f' stroke-dasharray="{4 * stroke:.3f} {2 * stroke:.3f}"' if kind == "twice" else ""
+            out.append(f'<path class="{kind}" stroke="{COLOURS[kind]}"{dash} d="{d}"/>')
+    out.append("</g>")  # the measured paths alone in their group: re-measuring it gives the drawing's length
+    out.append(f'<g id="marks" transform="{flip}" fill="none" stroke-width="{stroke:.4f}">')
+    mark = COLOURS["mark"]
+    for x, y in s.starts:
+        out.append(f'<circle cx="{x:.6f}" cy="{y:.6f}" r="{2.5 * stroke:.4f}" fill="{mark}" stroke="none"/>')
+    size = 6 * stroke
+    for (px, py), (dx, dy) in s.arrows:
+        tip = (px + dx * size, py + dy * size)
+        left = (px - dy * size * 0.5, py + dx * size * 0.5)
+        right = (px + dy * size * 0.5, py - dx * size * 0.5)
+        out.append(f'<path d="M {left[0]:.6f} {left[1]:.6f} L {tip[0]:.6f} {tip[1]:.6f} L {right[0]:.6f} '
+                   f'{right[1]:.6f} Z" fill="{mark}" stroke="none"/>')
+    for x, y, gw in s.gaps:
+        out.append(f'<circle class="gap" cx="{x:.6f}" cy="{y:.6f}" r="{max(4 * stroke, gw):.4f}" '
+                   f'stroke="{COLOURS["gap"]}"/>')
+    out.append("</g>")
+    out.append(f'<g font-size="{text:.3f}" fill="#222222">')
+    bar = nice_length(w)
+    by = margin + h + text * 1.2
+    out.append(f'<rect x="{margin:.4f}" y="{by:.4f}" width="{bar:.6f}" height="{text * 0.3:.4f}" fill="#222222"/>')
+    out.append(f'<text x="{margin + bar + text * 0.5:.4f}" y="{by + text * 0.35:.4f}">{bar:g} mm</text>')
+    out.append(f'<text x="{width - margin:.4f}" y="{margin * 0.6:.4f}" text-anchor="end">{w:.1f} x {h:.1f} mm</text>')
+    for k, (kind, label) in enumerate(LABELS.items()):
+        y = by + text * 1.6 * (k + 1.5)
+        out.append(f'<rect x="{margin:.4f}" y="{y - text * 0.7:.4f}" width="{text * 1.5:.4f}" '
+                   f'height="{text * 0.6:.4f}" fill="{COLOURS[kind]}"/>'
+                   f'<text x="{margin + text * 2:.4f}" y="{y:.4f}">{escape(label)}</text>')
+    for k, note in enumerate(s.notes[:6]):
+        y = by + text * 1.6 * (len(LABELS) + k + 1.5)
+        out.append(f'<text x="{margin:.4f}" y="{y:.4f}" fill="#777777">note: {escape(note[:120])}</text>')
+    out.append("</g></svg>")
+    return "\n".join(out) + "\n"
+
+
+# -- PNG and PDF ------------------------------------------------------------------------------
+def render_raster(s: Scene, path: Path, dpi: float = 150.0) -> None:
+    """The picture through matplotlib (Bézier paths), 1 mm on the page per mm drawn for small drawings,
+    scaled to fit an A3 sheet for large ones."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    from matplotlib.figure import Figure
+    from matplotlib.patches import Circle, PathPatch
+    from matplotlib.path import Path as MplPath
+
+    x0, y0, x1, y1 = s.box
+    w, h = max(x1 - x0, 1e-6), max(y1 - y0, 1e-6)
+    margin = 0.06 * max(w, h) + 2.0
+    scale = min(1.0, 400.0 / max(w, h))  # mm on paper per mm drawn
+    fig = Figure(figsize=((w + 2 * margin) * scale / 25.4, (h + 2 * margin) * scale / 25.4 + 1.2), dpi=dpi)
+    ax = fig.add_axes((0.0, 1.2 / ((h + 2 * margin) * scale / 25.4 + 1.2), 1.0,
+                       1.0 - 1.2 / ((h + 2 * margin) * scale / 25.4 + 1.2)))
+    ax.set_xlim(x0 - margin, x1 + margin)
+    ax.set_ylim((y1 + margin, y0 - margin) if s.y_down else (y0 - margin, y1 + margin))
+    ax.set_aspect("equal")
+    ax.axis("off")
+    for kind in ("closed", "open", "twice"):
+        verts, codes = [], []
+        for pieces, k in zip(s.pieces, s.kind, strict=True):
+            if k != kind:
+                continue
+            for piece in pieces:
+                verts.extend(piece)
+                if len(piece) == 2:
+                    codes.extend([MplPath.MOVETO, MplPath.LINETO])
+                else:
+                    codes.extend([MplPath.MOVETO, MplPath.CURVE4, MplPath.CURVE4, MplPath.CURVE4])
+        if verts:
+            ax.add_patch(PathPatch(MplPath(np.array(verts), codes), fill=False, edgecolor=COLOURS[kind],
+                                   linewidth=1.0, linestyle="--" if kind == "twice" else "-", label=LABELS[kind]))
+    for x, y in s.starts:
+        ax.plot([x], [y], marker="o", markersize=2.5, color=COLOURS["mark"])
+    size = 0.02 * max(w, h)
+    for (px, py), (dx, dy) in s.arrows:
+        ax.annotate("", xy=(px + dx * size, py + dy * size), xytext=(px, py),
+                    arrowprops={"arrowstyle": "-|>", "color": COLOURS["mark"], "lw": 0.8})
+    for x, y, gw in s.gaps:
+        ax.add_patch(Circle((x, y), max(gw, 0.01 * max(w, h)), fill=False, edgecolor=COLOURS["gap"], linewidth=1.0))
+    bar = nice_length(w)
+    fig.text(0.02, 0.02, f"scale bar: {bar:g} mm  |  extents {w:.1f} x {h:.1f} mm", fontsize=7)
+    ax.plot([x0, x0 + bar], [y0 - margin * 0.5] * 2 if not s.y_down else [y1 + margin * 0.5] * 2,
+            color="#222222", linewidth=2)
+    handles = [h_ for h_ in ax.patches if h_.get_label() and not h_.get_label().startswith("_")]
+    if handles:
+        fig.legend(handles=handles, loc="lower right", fontsize=7, frameon=False)
+    fig.savefig(path, dpi=dpi, facecolor="white")

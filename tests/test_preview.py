@@ -1,0 +1,77 @@
+"""Preview pictures: exact curves in SVG (re-measured by pathlen itself), pixels where they belong in PNG."""
+
+import json
+from pathlib import Path
+
+import ezdxf
+import numpy as np
+import pytest
+
+from pathlen.cli import main
+
+FIXTURES = Path(__file__).resolve().parent.parent / "fixtures"
+
+
+@pytest.mark.parametrize("name", ["kl101_bracket.dxf", "kl330_sign_panel.dxf", "kl412_lamp_panel.svg",
+                                  "kl214_gasket.dxf"])
+def test_svg_preview_remeasured_gives_the_same_length(runner, tmp_path, name):
+    # the picture is exact: its "measured" group, read back by pathlen, has the drawing's length (to the
+    # 1e-6 mm the coordinates are written with); lines, arcs, Béziers and conic arcs stay curves
+    out = tmp_path / "p.svg"
+    res = runner.invoke(main, ["preview", str(FIXTURES / name), "-o", str(out)])
+    assert res.exit_code == 0, res.output
+    back = json.loads(runner.invoke(main, ["measure", str(out), str(FIXTURES / name), "--format", "json"]).stdout)
+    picture, drawing = back["files"][0]["layers"]["measured"]["length"], back["files"][1]["length"]
+    assert picture == pytest.approx(drawing, rel=1e-8)
+
+
+def png_pixels(path):
+    import matplotlib.image as mpimg
+
+    return (mpimg.imread(path)[:, :, :3] * 255).round().astype(int)
+
+
+def colour_mask(img, hex_colour, tol=40):
+    rgb = np.array([int(hex_colour[k:k + 2], 16) for k in (1, 3, 5)])
+    return np.abs(img - rgb).sum(axis=2) <= tol
+
+
+def test_png_square_lands_on_the_expected_pixels(runner, tmp_path):
+    # a 100 mm square drawn at 1 mm per mm on paper and 150 dpi: its sides 100/25.4·150 = 590.6 px apart,
+    # the left side after the 8 mm margin (0.06·100 + 2) at 47.2 px
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 4
+    doc.modelspace().add_lwpolyline([(0, 0), (100, 0), (100, 100), (0, 100)], close=True)
+    doc.modelspace().add_line((20, 50), (60, 50))  # open
+    doc.modelspace().add_line((60.2, 50), (80, 50))  # a 0.2 mm gap, under the 0.5 mm reported
+    path = tmp_path / "square.dxf"
+    doc.saveas(path)
+    out = tmp_path / "square.png"
+    res = runner.invoke(main, ["preview", str(path), "-o", str(out), "--dpi", "150"])
+    assert res.exit_code == 0, res.output
+    img = png_pixels(out)
+    closed = colour_mask(img, "#0b6e6e")
+    row = round((8 + 30) / 25.4 * 150)  # a row through the square's sides, away from the lines
+    columns = np.flatnonzero(closed[row])
+    assert abs(columns.min() - 8 / 25.4 * 150) <= 3 and abs(columns.max() - 108 / 25.4 * 150) <= 3
+    assert colour_mask(img, "#d98c00").any()  # the open lines in amber
+    assert colour_mask(img, "#7a3db8").any()  # the gap circled in violet
+    assert img.shape[1] == pytest.approx(116 / 25.4 * 150, abs=2)
+
+
+def test_preview_refuses_unknown_formats_and_names_bad_files(runner, tmp_path):
+    assert runner.invoke(main, ["preview", str(FIXTURES / "kl101_bracket.dxf"), "-o", str(tmp_path / "x.bmp")]
+                         ).exit_code == 2
+    bad = tmp_path / "bad.dxf"
+    bad.write_bytes(b"\x00")
+    res = runner.invoke(main, ["preview", str(bad), "-o", str(tmp_path / "x.svg")])
+    assert res.exit_code == 1 and "not a DXF file" in res.stderr
+
+
+def test_names_from_drawings_are_text_in_the_svg(runner, tmp_path):
+    svg = tmp_path / "hostile.svg"
+    svg.write_text('<svg xmlns="http://www.w3.org/2000/svg" width="10mm" height="10mm" viewBox="0 0 10 10">'
+                   '<line x2="5"/><text>&lt;script&gt;alert(1)&lt;/script&gt;</text></svg>')
+    out = tmp_path / "p.svg"
+    assert runner.invoke(main, ["preview", str(svg), "-o", str(out)]).exit_code == 0
+    assert "<script" not in out.read_text()
