@@ -59,4 +59,5 @@ def bead(reading: Reading, bead_spec: str | None, plan_file: str | None, pack: s
     notes = cautions()
     emit(results, r.fmt, r.output, lambda console: bead_out.render_table(results, r.units, settings, notes, console),
          lambda: bead_out.render_json(results, r.units, settings, notes) if r.fmt == "json"
-         else bead_out.render_csv(results, r.units, settings), notes)
+         else bead_out.render_csv(results, r.units, settings), notes,
+         report=r.report, document=lambda: bead_out.bead_document(results, r.units, settings, notes))

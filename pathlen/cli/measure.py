@@ -20,4 +20,5 @@ def measure(reading: Reading) -> None:
                                max_segments=r.max_segments)
     results = collect(r.files(), settings, r)
     emit(results, r.fmt, r.output, lambda console: table_out.render(results, r.units, console),
-         lambda: json_out.render(results, r.units) if r.fmt == "json" else csv_out.render(results, r.units))
+         lambda: json_out.render(results, r.units) if r.fmt == "json" else csv_out.render(results, r.units),
+         report=r.report, document=lambda: json_out.measure_document(results, r.units))

@@ -6,9 +6,7 @@ from __future__ import annotations
 import functools
 import io
 import math
-import os
 import sys
-import tempfile
 from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
@@ -52,6 +50,7 @@ class Reading:
     max_segments: int
     limits: Limits
     strict: bool
+    report: str | None = None
 
     def files(self) -> list[str]:
         """The drawing files named or found in folders; a usage error when there are none."""
@@ -82,7 +81,8 @@ def reading_options(paths_required: bool = True, units: tuple[str, ...] = OUTPUT
 
 
 _READING_KEYS = ("paths", "fmt", "output", "units", "rtol", "drawing_units", "svg_dpi", "join_tol", "jobs",
-                 "max_segments", "timeout", "max_memory", "strict", "recover", "hidden_layers", "svg_language")
+                 "max_segments", "timeout", "max_memory", "strict", "recover", "hidden_layers", "svg_language",
+                 "report")
 
 
 Decorator = Callable[[Callable[..., Any]], Callable[..., Any]]
@@ -122,6 +122,8 @@ def _reading_options(paths_required: bool, units: tuple[str, ...]) -> list[Decor
         click.option("--svg-language", metavar="TAG", default=None,
                      help="The user's language for SVG systemLanguage conditions (a language tag such as en or "
                           "de-CH; default from the environment, named in the report when used)."),
+        click.option("--report", type=click.Path(dir_okay=False), default=None, metavar="FILE.html",
+                     help="Also write a one-file HTML report (totals, tables, pictures, cautions)."),
         click.option("--hidden-layers", is_flag=True,
                      help="Measure DXF layers that are switched off or frozen too (left out by default)."),
     ]
@@ -129,16 +131,17 @@ def _reading_options(paths_required: bool, units: tuple[str, ...]) -> list[Decor
 
 def _reading(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rtol: float, drawing_units: str | None,
              svg_dpi: float | None, join_tol: float, jobs: int, max_segments: int, timeout: float, max_memory: int,
-             strict: bool, recover: bool, hidden_layers: bool, svg_language: str | None) -> Reading:
+             strict: bool, recover: bool, hidden_layers: bool, svg_language: str | None, report: str | None) -> Reading:
     if not 0 < rtol < 1:
         raise click.BadParameter("must lie between 0 and 1", param_hint="--rtol")
     if not join_tol >= 0:
         raise click.BadParameter("must not be negative", param_hint="--join-tol")
-    if output is not None and not (Path(output).parent or Path(".")).is_dir():
-        raise click.BadParameter(f"folder {str(Path(output).parent)!r} does not exist", param_hint="--output")
+    for name, target in (("--output", output), ("--report", report)):
+        if target is not None and not (Path(target).parent or Path(".")).is_dir():
+            raise click.BadParameter(f"folder {str(Path(target).parent)!r} does not exist", param_hint=name)
     return Reading(paths, fmt, output, units, rtol, join_tol, jobs,
                    ImportOptions(drawing_units, svg_dpi, recover, hidden_layers, svg_language), max_segments,
-                   Limits(timeout, max_memory), strict)
+                   Limits(timeout, max_memory), strict, report)
 
 
 def drawing_files(paths: tuple[str, ...]) -> list[str]:
@@ -149,8 +152,14 @@ def drawing_files(paths: tuple[str, ...]) -> list[str]:
 
 
 def emit(results: list[Any], fmt: str, output: str | None, table: Callable[[Console], None],
-         text: Callable[[], str], cautions: list[str] | None = None) -> None:
-    """Report a batch (errors and warnings on standard error) and exit 0, or 1 if a file failed."""
+         text: Callable[[], str], cautions: list[str] | None = None, report: str | None = None,
+         document: Callable[[], dict[str, Any]] | None = None) -> None:
+    """Report a batch (errors and warnings on standard error), the HTML ``report`` of ``document()`` if
+    asked for, and exit 0, or 1 if a file failed."""
+    if report and document is not None:
+        from pathlen.export.report import drawing_pictures, render_report
+
+        write_atomic(report, render_report(document(), drawing_pictures([r.path for r in results if r.ok])))
     err = Console(stderr=True, highlight=False, soft_wrap=True)
     for r in results:
         if not r.ok:
@@ -202,13 +211,11 @@ def collect(files: list[str], settings: Any, reading: Reading, work: Callable[[s
 
 
 def write_atomic(path: str, text: str) -> None:
-    """Write ``text`` to ``path`` through a temporary file, so a crash leaves the old file."""
-    target = Path(path)
+    """Write ``text`` to ``path`` atomically (:func:`pathlen.watch.outputs.write_atomic`); a file
+    error for click when it cannot."""
+    from pathlen.watch.outputs import write_atomic as write
+
     try:
-        fd, tmp = tempfile.mkstemp(dir=target.parent or Path("."), prefix=f".{target.name}.", suffix=".tmp")
-        with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
-            fh.write(text)
-        os.replace(tmp, target)
+        write(Path(path), text)
     except OSError as exc:
         raise click.FileError(path, hint=exc.strerror or str(exc)) from None
-

@@ -72,4 +72,5 @@ def seam(reading: Reading, allowance: float, stitch: int, spc: float | None, spi
     emit(results, r.fmt, r.output,
          lambda console: seam_out.render_table(results, r.units, settings, cone_mm, notes, console),
          lambda: seam_out.render_json(results, r.units, settings, cone_mm, notes) if r.fmt == "json"
-         else seam_out.render_csv(results, r.units), notes)
+         else seam_out.render_csv(results, r.units), notes,
+         report=r.report, document=lambda: seam_out.seam_document(results, r.units, settings, cone_mm, notes))

@@ -38,7 +38,8 @@ def inside(base: Path, target: Path) -> Path:
 
 def write_atomic(path: Path, text: str) -> None:
     """Write through a temporary file in the same folder, fsync, rename, fsync the folder: a reader
-    sees the old file or the whole new one, never a part."""
+    sees the old file or the whole new one, never a part.  The file gets the usual permissions
+    (0666 less the umask), not the temporary file's private ones."""
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
     try:
@@ -46,6 +47,7 @@ def write_atomic(path: Path, text: str) -> None:
             fh.write(text)
             fh.flush()
             os.fsync(fh.fileno())
+        os.chmod(tmp, 0o666 & ~_umask())
         os.replace(tmp, path)
     except BaseException:
         with contextlib.suppress(OSError):
@@ -61,6 +63,12 @@ def _fsync_dir(folder: Path) -> None:
             os.fsync(fd)
         finally:
             os.close(fd)
+
+
+def _umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
 
 
 def same_content(path: Path, text: str) -> bool:

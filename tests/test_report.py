@@ -1,0 +1,83 @@
+"""The HTML report in a real headless browser (Chromium from the Debian packages; .ci/run installs it)."""
+
+import json
+import re
+import shutil
+import subprocess
+from pathlib import Path
+
+import pytest
+
+from pathlen.cli import main
+
+FIXTURES = Path(__file__).resolve().parent.parent / "fixtures"
+HOSTILE = "<script>document.title='owned'</script><img src=x onerror=alert(1)>"
+
+
+def chromium() -> str:
+    for name in ("chromium", "chromium-browser", "google-chrome"):
+        found = shutil.which(name)
+        if found:
+            return found
+    pytest.fail("Chromium is missing: .ci/run installs it (apt-get install chromium)")
+
+
+def browse(html: Path, *flags: str) -> subprocess.CompletedProcess:
+    return subprocess.run([chromium(), "--headless", "--no-sandbox", "--disable-gpu", "--enable-logging=stderr",
+                           "--v=0", *flags, html.as_uri()], capture_output=True, text=True, timeout=120, check=False)
+
+
+@pytest.fixture
+def report(runner, tmp_path):
+    hostile = tmp_path / "hostile.svg"
+    hostile.write_text('<svg xmlns="http://www.w3.org/2000/svg" width="50mm" height="50mm" viewBox="0 0 50 50">'
+                       f'<g id="{HOSTILE.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")}">'
+                       '<rect width="40" height="30"/></g></svg>')
+    page = tmp_path / "report.html"
+    res = runner.invoke(main, ["measure", str(FIXTURES / "kl101_bracket.dxf"), str(FIXTURES / "kl412_lamp_panel.svg"),
+                               str(hostile), "--report", str(page), "--format", "json"])
+    assert res.exit_code == 0, res.output
+    return page, json.loads(res.stdout)
+
+
+def test_report_in_a_browser_shows_the_json_numbers_and_hostile_names_as_text(report):
+    page, doc = report
+    dom = browse(page, "--dump-dom")
+    assert dom.returncode == 0, dom.stderr[-2000:]
+    html = dom.stdout
+    assert html.count("<h2>") == len(doc["files"])  # a section per file
+    shown = [float(v) for v in re.findall(r'data-v="([^"]+)"', html)]
+    for f in doc["files"]:
+        for layer in f["layers"].values():
+            assert layer["length"] in shown  # the exact JSON numbers stand behind the rounded ones
+    assert "&lt;script&gt;document.title='owned'&lt;/script&gt;" in html  # the layer name, as text
+    assert "<title>Path lengths</title>" in html  # no script ran
+    assert "owned" not in html.split("<title>")[1].split("</title>")[0]
+    console = [line for line in dom.stderr.splitlines() if "CONSOLE" in line or "Uncaught" in line]
+    assert console == []
+
+
+def test_report_screenshot_is_not_blank(report, tmp_path):
+    page, _ = report
+    shot = tmp_path / "shot.png"
+    done = browse(page, f"--screenshot={shot}", "--window-size=1000,1400", "--hide-scrollbars")
+    assert shot.exists(), done.stderr[-2000:]
+    import matplotlib.image as mpimg
+
+    img = mpimg.imread(shot)[:, :, :3]
+    assert len({tuple(px) for px in (img[::20, ::20].reshape(-1, 3) * 255).round().astype(int)}) > 10
+
+
+@pytest.mark.parametrize(("command", "extra", "words"), [
+    ("cut", ["--profile", "steel-3mm-laser"], ["Cut estimate", "Machine time", "caution"]),
+    ("bead", ["--bead", "rect:12x6"], ["Sealant beads", "Packs"]),
+    ("seam", [], ["Seams and thread", "Thread (order)"]),
+])
+def test_every_estimate_writes_its_report(runner, tmp_path, command, extra, words):
+    page = tmp_path / f"{command}.html"
+    res = runner.invoke(main, [command, str(FIXTURES / "kl101_bracket.dxf"), *extra, "--report", str(page)])
+    assert res.exit_code == 0, res.output
+    html = page.read_text()
+    for w in words:
+        assert w in html
+    assert "http://" not in html.replace('xmlns="http://www.w3.org/2000/svg"', "")  # nothing fetched
