@@ -1,6 +1,7 @@
 """Preview pictures: exact curves in SVG (re-measured by pathlen itself), pixels where they belong in PNG."""
 
 import json
+import math
 from pathlib import Path
 
 import ezdxf
@@ -75,3 +76,22 @@ def test_names_from_drawings_are_text_in_the_svg(runner, tmp_path):
     out = tmp_path / "p.svg"
     assert runner.invoke(main, ["preview", str(svg), "-o", str(out)]).exit_code == 0
     assert "<script" not in out.read_text()
+
+
+def test_cut_order_matches_the_cut_estimate(runner, tmp_path):
+    # the pierces numbered in the picture are the cut estimate's, and its dashed rapids add up to the
+    # estimate's rapid length (the same plan, drawn)
+    import re
+
+    out = tmp_path / "order.svg"
+    drawing = FIXTURES / "kl101_bracket.dxf"
+    assert runner.invoke(main, ["preview", str(drawing), "-o", str(out), "--profile", "steel-3mm-laser"]).exit_code == 0
+    svg = out.read_text()
+    numbers = [int(n) for n in re.findall(r">(\d+)</text>", svg)]
+    cut = json.loads(runner.invoke(main, ["cut", str(drawing), "--profile", "steel-3mm-laser", "--format", "json"]
+                                   ).stdout)["files"][0]
+    assert numbers == list(range(1, cut["pierces"] + 1))
+    legs = re.search(r'class="rapid" d="([^"]+)"', svg).group(1)
+    values = [float(v) for v in re.findall(r"-?\d+\.\d+", legs)]
+    rapid = sum(math.dist(values[k:k + 2], values[k + 2:k + 4]) for k in range(0, len(values), 4))
+    assert rapid == pytest.approx(cut["rapid_length"], rel=1e-6)

@@ -20,8 +20,11 @@ from pathlen.errors import PathlenError
 @click.option("--hidden-layers", is_flag=True, help="Show DXF layers that are off or frozen too.")
 @click.option("--dpi", type=click.FloatRange(min=10, max=1200), default=150.0, show_default=True,
               help="Resolution of PNG output.")
+@click.option("--profile", help="Show the cut order of this process profile: pierces numbered, rapids dashed.")
+@click.option("--profiles", "profile_files", multiple=True, type=click.Path(dir_okay=False),
+              help="A TOML file of your own profiles.")
 def preview(path: Path, output: Path, join_tol: float, drawing_units: str | None, svg_dpi: float | None,
-            hidden_layers: bool, dpi: float) -> None:
+            hidden_layers: bool, dpi: float, profile: str | None, profile_files: tuple[str, ...]) -> None:
     """Draw the drawing PATH as pathlen measured it: contours by kind, starts and directions, gaps, scale bar."""
     from pathlen.cli.reading import write_atomic
     from pathlen.export.preview import build_scene, render_raster, scene_svg
@@ -29,6 +32,11 @@ def preview(path: Path, output: Path, join_tol: float, drawing_units: str | None
     from pathlen.importers import ImportOptions, read_drawing
     from pathlen.instances import expand
 
+    if profile is not None:
+        from pathlen.cli.profile_files import profiles_or_exit
+
+        if profile not in profiles_or_exit(profile_files):
+            raise click.BadParameter(f"no profile {profile!r} (see 'pathlen profiles')", param_hint="--profile")
     suffix = output.suffix.lower()
     if suffix not in (".svg", ".png", ".pdf"):
         raise click.BadParameter("must end in .svg, .png or .pdf", param_hint="--output")
@@ -46,7 +54,7 @@ def preview(path: Path, output: Path, join_tol: float, drawing_units: str | None
     shown = np.array([not e.hidden for e in drawing.entities], dtype=bool)
     if not shown.all():
         drawing = keep_entities(drawing, shown)
-    scene = build_scene(drawing, path.name, path.suffix.lower() == ".svg", join_tol)
+    scene = build_scene(drawing, path.name, path.suffix.lower() == ".svg", join_tol, cut_order=profile is not None)
     if suffix == ".svg":
         write_atomic(str(output), scene_svg(scene))
     else:

@@ -44,10 +44,16 @@ class Scene:
     y_down: bool
     notes: list[str] = field(default_factory=list)
     title: str = ""
+    #: with a cut order: pierce points in order, and the rapid path from home through them
+    pierces: list[tuple[float, float]] = field(default_factory=list)
+    rapids: np.ndarray = field(default_factory=lambda: np.zeros((0, 2)))
 
 
-def build_scene(drawing: Drawing, title: str, y_down: bool, join_tol: float = DEFAULT_JOIN_TOL_MM) -> Scene:
-    """Classify the drawing's segments and contours for the picture (``drawing`` without placements)."""
+def build_scene(drawing: Drawing, title: str, y_down: bool, join_tol: float = DEFAULT_JOIN_TOL_MM,
+                cut_order: bool = False, home: tuple[float, float] = (0.0, 0.0)) -> Scene:
+    """Classify the drawing's segments and contours for the picture (``drawing`` without placements);
+    with ``cut_order`` also the pierce points in the order ``pathlen cut`` plans (holes first, from
+    ``home``) and the rapid moves between them."""
     table = segment_table(drawing, measure(drawing))
     _, layer = segment_layers(drawing, table)
     contours = chain_contours(table, layer, join_tol)
@@ -61,9 +67,23 @@ def build_scene(drawing: Drawing, title: str, y_down: bool, join_tol: float = DE
     arrows = _arrows(table, contours)
     lo, hi = table.box if len(table) else (np.zeros((1, 3)), np.ones((1, 3)))
     box = (float(lo[:, 0].min()), float(lo[:, 1].min()), float(hi[:, 0].max()), float(hi[:, 1].max()))
-    return Scene(segment_paths(drawing), segment_cubics(drawing), list(kind), starts, arrows,
-                 [(float(m[0]), float(m[1]), float(w)) for m, w in zip(middle, width, strict=True)], box, y_down,
-                 list(drawing.warnings), title)
+    scene = Scene(segment_paths(drawing), segment_cubics(drawing), list(kind), starts, arrows,
+                  [(float(m[0]), float(m[1]), float(w)) for m, w in zip(middle, width, strict=True)], box, y_down,
+                  list(drawing.warnings), title)
+    if cut_order and len(contours):
+        from pathlen.estimates.tour import plan_tour
+        from pathlen.nesting import nesting_depth
+
+        _, parent = nesting_depth(table, contours)
+        tour = plan_tour(contours.start[:, :2], contours.end[:, :2], contours.closed, parent, home)
+        path = [np.asarray(home, dtype=float)]
+        for k in tour.order.tolist():
+            entry = contours.end[k, :2] if tour.reverse[k] else contours.start[k, :2]
+            leave = entry if contours.closed[k] else (contours.start[k, :2] if tour.reverse[k] else contours.end[k, :2])
+            scene.pierces.append((float(entry[0]), float(entry[1])))
+            path += [entry, leave]
+        scene.rapids = np.array(path, dtype=float)
+    return scene
 
 
 def _arrows(table: SegmentTable, contours: object) -> np.ndarray:
@@ -123,7 +143,16 @@ def scene_svg(s: Scene) -> str:
     for x, y, gw in s.gaps:
         out.append(f'<circle class="gap" cx="{x:.6f}" cy="{y:.6f}" r="{max(4 * stroke, gw):.4f}" '
                    f'stroke="{COLOURS["gap"]}"/>')
+    if len(s.rapids) > 1:  # rapid moves: from home to each pierce, dashed (every second leg is the cut)
+        legs = " ".join(f"M {a[0]:.6f} {a[1]:.6f} L {b[0]:.6f} {b[1]:.6f}"
+                        for a, b in zip(s.rapids[0::2], s.rapids[1::2], strict=False))
+        out.append(f'<path class="rapid" d="{legs}" stroke="{COLOURS["mark"]}" '
+                   f'stroke-dasharray="{2 * stroke:.3f} {3 * stroke:.3f}"/>')
     out.append("</g>")
+    for n, (x, y) in enumerate(s.pierces, start=1):  # numbers upright, outside the flipped group
+        px, py = x + margin - x0, (y + margin - y0) if s.y_down else (margin + y1 - y)
+        out.append(f'<text x="{px + 1.5 * stroke:.4f}" y="{py - 1.5 * stroke:.4f}" font-size="{text * 0.8:.3f}" '
+                   f'fill="{COLOURS["mark"]}">{n}</text>')
     out.append(f'<g font-size="{text:.3f}" fill="#222222">')
     bar = nice_length(w)
     by = margin + h + text * 1.2
@@ -186,6 +215,10 @@ def render_raster(s: Scene, path: Path, dpi: float = 150.0) -> None:
                     arrowprops={"arrowstyle": "-|>", "color": COLOURS["mark"], "lw": 0.8})
     for x, y, gw in s.gaps:
         ax.add_patch(Circle((x, y), max(gw, 0.01 * max(w, h)), fill=False, edgecolor=COLOURS["gap"], linewidth=1.0))
+    for a, b in zip(s.rapids[0::2], s.rapids[1::2], strict=False):
+        ax.plot([a[0], b[0]], [a[1], b[1]], linestyle=(0, (2, 3)), linewidth=0.7, color=COLOURS["mark"])
+    for n, (x, y) in enumerate(s.pierces, start=1):
+        ax.annotate(str(n), (x, y), textcoords="offset points", xytext=(3, 3), fontsize=6, color=COLOURS["mark"])
     bar = nice_length(w)
     fig.text(0.02, 0.02, f"scale bar: {bar:g} mm  |  extents {w:.1f} x {h:.1f} mm", fontsize=7)
     ax.plot([x0, x0 + bar], [y0 - margin * 0.5] * 2 if not s.y_down else [y1 + margin * 0.5] * 2,
