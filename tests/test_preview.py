@@ -95,3 +95,15 @@ def test_cut_order_matches_the_cut_estimate(runner, tmp_path):
     values = [float(v) for v in re.findall(r"-?\d+\.\d+", legs)]
     rapid = sum(math.dist(values[k:k + 2], values[k + 2:k + 4]) for k in range(0, len(values), 4))
     assert rapid == pytest.approx(cut["rapid_length"], rel=1e-6)
+
+
+def test_seam_edges_are_numbered_as_the_seam_command_numbers_them(runner, tmp_path):
+    out = tmp_path / "tote.svg"
+    pattern = FIXTURES / "kl610_tote_bag.dxf"
+    assert runner.invoke(main, ["preview", str(pattern), "-o", str(out), "--seam"]).exit_code == 0
+    import re
+
+    labels = re.findall(r'class="label"[^>]*>([^<]+)</text>', out.read_text())
+    seam = json.loads(runner.invoke(main, ["seam", str(pattern), "--format", "json"]).stdout)["files"][0]
+    expected = [f"{p['name']}:{e['index']}" for p in seam["pieces"] for e in p["edges"]]
+    assert labels == expected

@@ -23,8 +23,14 @@ from pathlen.errors import PathlenError
 @click.option("--profile", help="Show the cut order of this process profile: pierces numbered, rapids dashed.")
 @click.option("--profiles", "profile_files", multiple=True, type=click.Path(dir_okay=False),
               help="A TOML file of your own profiles.")
+@click.option("--seam", "seam_edges", is_flag=True, help="Number the seam edges of each pattern piece, as "
+              "'pathlen seam' does (with --allowance, --cut-layer, --sew-layer).")
+@click.option("--allowance", type=click.FloatRange(min=0), default=10.0, show_default=True, metavar="MM")
+@click.option("--cut-layer", "cut_layers", help="Layers or #rrggbb colours of cut lines (with --seam).")
+@click.option("--sew-layer", "sew_layers", help="Layers or #rrggbb colours of drawn sew lines (with --seam).")
 def preview(path: Path, output: Path, join_tol: float, drawing_units: str | None, svg_dpi: float | None,
-            hidden_layers: bool, dpi: float, profile: str | None, profile_files: tuple[str, ...]) -> None:
+            hidden_layers: bool, dpi: float, profile: str | None, profile_files: tuple[str, ...], seam_edges: bool,
+            allowance: float, cut_layers: str | None, sew_layers: str | None) -> None:
     """Draw the drawing PATH as pathlen measured it: contours by kind, starts and directions, gaps, scale bar."""
     from pathlen.cli.reading import write_atomic
     from pathlen.export.preview import build_scene, render_raster, scene_svg
@@ -55,8 +61,28 @@ def preview(path: Path, output: Path, join_tol: float, drawing_units: str | None
     if not shown.all():
         drawing = keep_entities(drawing, shown)
     scene = build_scene(drawing, path.name, path.suffix.lower() == ".svg", join_tol, cut_order=profile is not None)
+    if seam_edges:
+        scene.labels = _seam_labels(path, ImportOptions(drawing_units, svg_dpi, hidden_layers=hidden_layers),
+                                    join_tol, allowance, cut_layers, sew_layers)
     if suffix == ".svg":
         write_atomic(str(output), scene_svg(scene))
     else:
         render_raster(scene, output, dpi)
     click.echo(f"wrote {output}", err=True)
+
+
+def _seam_labels(path: Path, options: object, join_tol: float, allowance: float, cut_layers: str | None,
+                 sew_layers: str | None) -> list[tuple[float, float, str]]:
+    """'PIECE:EDGE' at a point of every edge of every piece, as ``pathlen seam`` numbers them."""
+    from pathlen.batch import MeasureSettings
+    from pathlen.estimates.seam_estimate import SeamSettings, estimate_seams
+
+    def split(text: str | None) -> tuple[str, ...]:
+        return tuple(x.strip() for x in (text or "").split(",") if x.strip())
+
+    settings = SeamSettings(allowance, cut_layers=split(cut_layers), sew_layers=split(sew_layers),
+                            measure=MeasureSettings(join_tol_mm=join_tol, import_options=options))  # type: ignore[arg-type]
+    result = estimate_seams(str(path), settings)
+    if not result.ok:
+        raise click.ClickException(f"seam edges: {result.error}")
+    return [(x, y, f"{p.name}:{k}") for p in result.pieces for k, (x, y) in enumerate(p.edge_points, start=1)]

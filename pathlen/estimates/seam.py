@@ -18,7 +18,7 @@ are numbered from 1 counter-clockwise, starting at the split nearest the piece's
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -40,6 +40,8 @@ class SewLine:
     length_mm: float
     edges: list[float]
     unsnapped_marks: int = 0
+    #: per edge, the rows of the segment table it runs along (for pictures)
+    edge_rows: list[list[int]] = field(default_factory=list)
 
 
 def sew_line(table: SegmentTable, outline: Contour, allowance: float, marks: list[tuple[float, float]]
@@ -72,7 +74,7 @@ def sew_line(table: SegmentTable, outline: Contour, allowance: float, marks: lis
         else:
             unsnapped += 1
     if not split.any():
-        return SewLine(float(sew.sum()), [float(sew.sum())], unsnapped)
+        return SewLine(float(sew.sum()), [float(sew.sum())], unsnapped, [idx.tolist()])
     cuts = np.flatnonzero(split)
     first = int(cuts[np.argmin(starts[cuts, 0] + starts[cuts, 1])])
     n = len(idx)
@@ -85,14 +87,17 @@ def sew_line(table: SegmentTable, outline: Contour, allowance: float, marks: lis
         seq = [(first - 1 - j) % n for j in range(n)]
         opens = [bool(split[(k + 1) % n]) for k in seq]
     edges: list[float] = []
+    rows: list[list[int]] = [[]]
     current = 0.0
     for j, k in enumerate(seq):
         if j > 0 and opens[j]:
             edges.append(current)
+            rows.append([])
             current = 0.0
         current += float(sew[k])
+        rows[-1].append(int(idx[k]))
     edges.append(current)
-    return SewLine(float(sew.sum()), edges, unsnapped)
+    return SewLine(float(sew.sum()), edges, unsnapped, rows)
 
 
 def _check_allowance(table: SegmentTable, outline: Contour, tau: np.ndarray, a: float) -> None:

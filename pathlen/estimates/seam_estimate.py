@@ -64,6 +64,8 @@ class PieceSeams:
     seams: list[Seam] = field(default_factory=list)
     #: why this piece has no seams (an allowance too large for it, say); the other pieces go on
     error: str | None = None
+    #: a point on each edge (mm; on the line the edge runs along), for pictures
+    edge_points: list[tuple[float, float]] = field(default_factory=list)
 
     @property
     def sew_length_mm(self) -> float:
@@ -163,7 +165,7 @@ def _pattern_piece(piece: PatternPiece, s: SeamSettings, warnings: list[str]) ->
                         "of the line: they split no edge")
     notches = int(_on(names, layer, NOTCH_LAYERS).sum()) if piece.notches == 0 else piece.notches
     return PieceSeams(piece.name, piece.quantity, piece.size, float(outlines.length[k]), line.length_mm, line.edges,
-                      notches)
+                      notches, edge_points=_edge_points(table, line.edge_rows))
 
 
 def _selected(drawing: Drawing, table: SegmentTable, selectors: tuple[str, ...]) -> np.ndarray:
@@ -197,8 +199,14 @@ def _plain_pieces(drawing: Drawing, s: SeamSettings) -> list[PieceSeams]:
         except InputError as exc:
             out.append(PieceSeams(name, 1, "", float(outlines.length[k]), 0.0, [], error=str(exc)))
             continue
-        out.append(PieceSeams(name, 1, "", float(outlines.length[k]), line.length_mm, line.edges))
+        out.append(PieceSeams(name, 1, "", float(outlines.length[k]), line.length_mm, line.edges,
+                              edge_points=_edge_points(table, line.edge_rows)))
     return out
+
+
+def _edge_points(table: SegmentTable, rows: list[list[int]]) -> list[tuple[float, float]]:
+    """The middle of each edge's middle segment (mm)."""
+    return [(float(table.middle[r[len(r) // 2], 0]), float(table.middle[r[len(r) // 2], 1])) for r in rows if r]
 
 
 def _allowance(s: SeamSettings, piece: str) -> float:

@@ -47,6 +47,8 @@ class Scene:
     #: with a cut order: pierce points in order, and the rapid path from home through them
     pierces: list[tuple[float, float]] = field(default_factory=list)
     rapids: np.ndarray = field(default_factory=lambda: np.zeros((0, 2)))
+    #: words to write on the drawing (x, y in mm, text): seam edge numbers
+    labels: list[tuple[float, float, str]] = field(default_factory=list)
 
 
 def build_scene(drawing: Drawing, title: str, y_down: bool, join_tol: float = DEFAULT_JOIN_TOL_MM,
@@ -153,6 +155,10 @@ def scene_svg(s: Scene) -> str:
         px, py = x + margin - x0, (y + margin - y0) if s.y_down else (margin + y1 - y)
         out.append(f'<text x="{px + 1.5 * stroke:.4f}" y="{py - 1.5 * stroke:.4f}" font-size="{text * 0.8:.3f}" '
                    f'fill="{COLOURS["mark"]}">{n}</text>')
+    for x, y, words in s.labels:
+        px, py = x + margin - x0, (y + margin - y0) if s.y_down else (margin + y1 - y)
+        out.append(f'<text class="label" x="{px:.4f}" y="{py:.4f}" font-size="{text * 0.8:.3f}" text-anchor="middle" '
+                   f'fill="{COLOURS["gap"]}">{escape(words)}</text>')
     out.append(f'<g font-size="{text:.3f}" fill="#222222">')
     bar = nice_length(w)
     by = margin + h + text * 1.2
@@ -219,6 +225,8 @@ def render_raster(s: Scene, path: Path, dpi: float = 150.0) -> None:
         ax.plot([a[0], b[0]], [a[1], b[1]], linestyle=(0, (2, 3)), linewidth=0.7, color=COLOURS["mark"])
     for n, (x, y) in enumerate(s.pierces, start=1):
         ax.annotate(str(n), (x, y), textcoords="offset points", xytext=(3, 3), fontsize=6, color=COLOURS["mark"])
+    for x, y, words in s.labels:
+        ax.annotate(words, (x, y), ha="center", fontsize=6, color=COLOURS["gap"])
     bar = nice_length(w)
     fig.text(0.02, 0.02, f"scale bar: {bar:g} mm  |  extents {w:.1f} x {h:.1f} mm", fontsize=7)
     ax.plot([x0, x0 + bar], [y0 - margin * 0.5] * 2 if not s.y_down else [y1 + margin * 0.5] * 2,
