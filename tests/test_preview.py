@@ -107,3 +107,19 @@ def test_seam_edges_are_numbered_as_the_seam_command_numbers_them(runner, tmp_pa
     seam = json.loads(runner.invoke(main, ["seam", str(pattern), "--format", "json"]).stdout)["files"][0]
     expected = [f"{p['name']}:{e['index']}" for p in seam["pieces"] for e in p["edges"]]
     assert labels == expected
+
+
+def test_layers_off_are_ghosted_not_measured(runner, tmp_path):
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 4
+    doc.layers.add("NOTES").off()
+    doc.modelspace().add_circle((0, 0), 10)
+    doc.modelspace().add_line((-20, -20), (20, 20), dxfattribs={"layer": "NOTES"})
+    path = tmp_path / "ghost.dxf"
+    doc.saveas(path)
+    out = tmp_path / "ghost.svg"
+    assert runner.invoke(main, ["preview", str(path), "-o", str(out)]).exit_code == 0
+    svg = out.read_text()
+    assert 'class="ghost"' in svg and "not measured (layer off or frozen)" in svg
+    back = json.loads(runner.invoke(main, ["measure", str(out), "--format", "json"]).stdout)["files"][0]
+    assert back["layers"]["measured"]["length"] == pytest.approx(2 * math.pi * 10, rel=1e-8)  # the circle only

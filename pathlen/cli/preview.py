@@ -17,7 +17,8 @@ from pathlen.errors import PathlenError
               help="Distance within which segment ends join into one contour.")
 @click.option("--drawing-units", default=None, help="Units of a DXF drawing without $INSUNITS (mm, in, ...).")
 @click.option("--svg-dpi", type=click.FloatRange(min=1.0, max=1e6), default=None, help="px per inch of a px SVG.")
-@click.option("--hidden-layers", is_flag=True, help="Show DXF layers that are off or frozen too.")
+@click.option("--hidden-layers", is_flag=True, help="Treat DXF layers that are off or frozen as measured (they are "
+              "shown faintly, as not measured, otherwise).")
 @click.option("--dpi", type=click.FloatRange(min=10, max=1200), default=150.0, show_default=True,
               help="Resolution of PNG output.")
 @click.option("--profile", help="Show the cut order of this process profile: pierces numbered, rapids dashed.")
@@ -34,7 +35,7 @@ def preview(path: Path, output: Path, join_tol: float, drawing_units: str | None
     """Draw the drawing PATH as pathlen measured it: contours by kind, starts and directions, gaps, scale bar."""
     from pathlen.cli.reading import write_atomic
     from pathlen.export.preview import build_scene, render_raster, scene_svg
-    from pathlen.geometry import MM_PER_UNIT, keep_entities
+    from pathlen.geometry import MM_PER_UNIT
     from pathlen.importers import ImportOptions, read_drawing
     from pathlen.instances import expand
 
@@ -55,11 +56,6 @@ def preview(path: Path, output: Path, join_tol: float, drawing_units: str | None
     except PathlenError as exc:
         click.echo(f"error {path}: {exc}", err=True)
         raise SystemExit(1) from None
-    import numpy as np
-
-    shown = np.array([not e.hidden for e in drawing.entities], dtype=bool)
-    if not shown.all():
-        drawing = keep_entities(drawing, shown)
     scene = build_scene(drawing, path.name, path.suffix.lower() == ".svg", join_tol, cut_order=profile is not None)
     if seam_edges:
         scene.labels = _seam_labels(path, ImportOptions(drawing_units, svg_dpi, hidden_layers=hidden_layers),

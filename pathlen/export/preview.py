@@ -25,9 +25,12 @@ from pathlen.segments import SegmentTable, segment_layers, segment_table
 
 #: Our colours: closed contours in deep teal, open ones in amber, segments drawn twice in crimson,
 #: gaps in violet, starts and arrows in slate.
-COLOURS = {"closed": "#0b6e6e", "open": "#d98c00", "twice": "#c0143c", "gap": "#7a3db8", "mark": "#44505c"}
+COLOURS = {"closed": "#0b6e6e", "open": "#d98c00", "twice": "#c0143c", "gap": "#7a3db8", "mark": "#44505c",
+           "ghost": "#c3c9cf"}
 LABELS = {"closed": "closed contour", "open": "open contour", "twice": "drawn twice", "gap": "gap (width)",
-          "mark": "start and direction"}
+          "mark": "start and direction", "ghost": "not measured (layer off or frozen)"}
+#: Segment kinds drawn as paths, in drawing order (ghosts underneath).
+PATH_KINDS = ("ghost", "closed", "open", "twice")
 
 
 @dataclass
@@ -64,6 +67,9 @@ def build_scene(drawing: Drawing, title: str, y_down: bool, join_tol: float = DE
         if contours.closed[k]:
             kind[contours.steps[contours.first[k]:contours.first[k] + contours.size[k]]] = "closed"
     kind[duplicate_segments(table, layer, join_tol)] = "twice"
+    hidden = np.array([e.hidden for e in drawing.entities], dtype=bool)
+    if hidden.any() and len(table):
+        kind[hidden[table.entity]] = "ghost"
     middle, width, _ = gap_points(contours, join_tol)
     starts = contours.start[:, :2] if len(contours) else np.zeros((0, 2))
     arrows = _arrows(table, contours)
@@ -125,10 +131,14 @@ def scene_svg(s: Scene) -> str:
            f"<title>{escape(s.title)}</title>",
            f'<rect width="{width:.6f}" height="{height:.6f}" fill="#ffffff"/>',
            f'<g id="measured" transform="{flip}" fill="none" stroke-width="{stroke:.4f}" stroke-linecap="round">']
-    for kind in ("closed", "open", "twice"):
+    for kind in PATH_KINDS:
         d = " ".join(p for p, k in zip(s.paths, s.kind, strict=True) if k == kind)
         if d:
             dash = f' stroke-dasharray="{4 * stroke:.3f} {2 * stroke:.3f}"' if kind == "twice" else ""
+            if kind == "ghost":  # not measured: outside the "measured" group, drawn faintly underneath
+                out.insert(-1, f'<path class="ghost" transform="{flip}" fill="none" stroke-width="{stroke:.4f}" '
+                               f'stroke="{COLOURS["ghost"]}" d="{d}"/>')
+                continue
             out.append(f'<path class="{kind}" stroke="{COLOURS[kind]}"{dash} d="{d}"/>')
     out.append("</g>")  # the measured paths alone in their group: re-measuring it gives the drawing's length
     out.append(f'<g id="marks" transform="{flip}" fill="none" stroke-width="{stroke:.4f}">')
@@ -191,15 +201,17 @@ def render_raster(s: Scene, path: Path, dpi: float = 150.0) -> None:
     x0, y0, x1, y1 = s.box
     w, h = max(x1 - x0, 1e-6), max(y1 - y0, 1e-6)
     margin = 0.06 * max(w, h) + 2.0
-    scale = min(1.0, 400.0 / max(w, h))  # mm on paper per mm drawn
-    fig = Figure(figsize=((w + 2 * margin) * scale / 25.4, (h + 2 * margin) * scale / 25.4 + 1.2), dpi=dpi)
-    ax = fig.add_axes((0.0, 1.2 / ((h + 2 * margin) * scale / 25.4 + 1.2), 1.0,
-                       1.0 - 1.2 / ((h + 2 * margin) * scale / 25.4 + 1.2)))
+    # mm on paper per mm drawn: 1 where it fits an A3 sheet and a page at least 100 mm wide, else scaled
+    scale = max(min(1.0, 400.0 / max(w, h)), 100.0 / (w + 2 * margin))
+    band = 1.6  # inches below the drawing for the scale bar, notes and legend
+    tall = (h + 2 * margin) * scale / 25.4
+    fig = Figure(figsize=((w + 2 * margin) * scale / 25.4, tall + band), dpi=dpi)
+    ax = fig.add_axes((0.0, band / (tall + band), 1.0, tall / (tall + band)))
     ax.set_xlim(x0 - margin, x1 + margin)
     ax.set_ylim((y1 + margin, y0 - margin) if s.y_down else (y0 - margin, y1 + margin))
     ax.set_aspect("equal")
     ax.axis("off")
-    for kind in ("closed", "open", "twice"):
+    for kind in PATH_KINDS:
         verts, codes = [], []
         for pieces, k in zip(s.pieces, s.kind, strict=True):
             if k != kind:
@@ -229,9 +241,11 @@ def render_raster(s: Scene, path: Path, dpi: float = 150.0) -> None:
         ax.annotate(words, (x, y), ha="center", fontsize=6, color=COLOURS["gap"])
     bar = nice_length(w)
     fig.text(0.02, 0.02, f"scale bar: {bar:g} mm  |  extents {w:.1f} x {h:.1f} mm", fontsize=7)
+    for k, note in enumerate(s.notes[:4]):
+        fig.text(0.02, 0.05 + 0.025 * k, f"note: {note[:60]}", fontsize=6, color="#777777")
     ax.plot([x0, x0 + bar], [y0 - margin * 0.5] * 2 if not s.y_down else [y1 + margin * 0.5] * 2,
             color="#222222", linewidth=2)
     handles = [h_ for h_ in ax.patches if h_.get_label() and not h_.get_label().startswith("_")]
     if handles:
-        fig.legend(handles=handles, loc="lower right", fontsize=7, frameon=False)
+        fig.legend(handles=handles, loc="lower right", bbox_to_anchor=(0.98, 0.06), fontsize=7, frameon=False)
     fig.savefig(path, dpi=dpi, facecolor="white")
