@@ -12,12 +12,12 @@ import math
 import os
 import re
 import tempfile
-import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 from pathlen.errors import UsageError
+from pathlen.tomlfile import read_toml
 
 BUILTIN = Path(__file__).resolve().parent / "data" / "profiles.toml"
 PROCESSES = ("laser", "plasma", "waterjet")
@@ -104,14 +104,7 @@ def load_profiles(extra: list[Path] | None = None) -> dict[str, Profile]:
 def read_profile_file(path: Path) -> dict[str, Profile]:
     """Parse and check one TOML file; raises :class:`UsageError` with one line per the first problem."""
     where = str(path)
-    try:
-        data = tomllib.loads(path.read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise UsageError(f"{where}: no such profile file") from None
-    except OSError as exc:
-        raise UsageError(f"{where}: cannot read ({exc.strerror})") from None
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
-        raise UsageError(f"{where}: not valid TOML ({exc})") from None
+    data = read_toml(path, "profile file")
     unknown_top = set(data) - {"profile"}
     if unknown_top:
         raise UsageError(f"{where}: unknown table {sorted(unknown_top)[0]!r}; profiles go under [profile.NAME]")

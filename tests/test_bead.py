@@ -111,7 +111,7 @@ def test_a_plan_by_layer_with_two_sides(runner, wall, tmp_path):
     ('[[joint]]\nlayer = "A"\nsection = "rect:12x6"\nsides = 3\n', "sides must be 1 or 2"),
     ('[[joint]]\nlayer = "A"\nsection = "rect:12x6"\nwidth = 3\n', "unknown key 'width'"),
     ("[beads]\n", "unknown table"),
-    ("not toml [", "not a TOML file"),
+    ("not toml [", "not valid TOML"),
 ])
 def test_bad_plans_are_one_line_usage_errors(runner, wall, tmp_path, text, words):
     plan = tmp_path / "plan.toml"

@@ -10,11 +10,11 @@ from __future__ import annotations
 
 import math
 import re
-import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from pathlen.errors import UsageError
+from pathlen.tomlfile import read_toml
 
 #: US customary fluid ounce in ml, exact (NIST Handbook 44, appendix C: 1 fl oz = 29.5735295625 mL).
 ML_PER_US_FL_OZ = 29.5735295625
@@ -117,12 +117,7 @@ class Joint:
 
 def load_plan(path: Path) -> list[Joint]:
     """A bead plan: ``[[joint]]`` tables with ``layer`` (or ``color``), ``section`` and optional ``sides``."""
-    try:
-        data = tomllib.loads(path.read_text(encoding="utf-8"))
-    except OSError as exc:
-        raise UsageError(f"{path}: cannot read the bead plan ({exc.strerror or exc})") from None
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
-        raise UsageError(f"{path}: not a TOML file ({str(exc).splitlines()[0]})") from None
+    data = read_toml(path, "bead plan")
     unknown = set(data) - {"joint"}
     if unknown:
         raise UsageError(f"{path}: unknown table {sorted(unknown)[0]!r}; joints go in [[joint]] tables")

@@ -16,12 +16,12 @@ Every problem is one line naming the plan, the entry and the reason (a usage err
 
 from __future__ import annotations
 
-import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from pathlen.errors import UsageError
 from pathlen.estimates.thread import STITCH_RATIO
+from pathlen.tomlfile import read_toml
 
 DEFAULT_TOLERANCE_PCT = 3.0  # common practice: ease a few percent at most on matched edges
 
@@ -44,12 +44,7 @@ class SeamPlan:
 
 
 def load_seam_plan(path: Path) -> SeamPlan:
-    try:
-        data = tomllib.loads(path.read_text(encoding="utf-8"))
-    except OSError as exc:
-        raise UsageError(f"{path}: cannot read the seam plan ({exc.strerror or exc})") from None
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
-        raise UsageError(f"{path}: not a TOML file ({str(exc).splitlines()[0]})") from None
+    data = read_toml(path, "seam plan")
     unknown = set(data) - {"seam", "tolerance_pct", "allowance"}
     if unknown:
         raise UsageError(f"{path}: unknown key {sorted(unknown)[0]!r} (seam, tolerance_pct, allowance)")

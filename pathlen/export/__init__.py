@@ -2,7 +2,12 @@
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+from typing import Any
+
+from rich.console import Console
 from rich.markup import escape
+from rich.table import Table
 
 from pathlen.geometry import MM_PER_UNIT
 
@@ -13,6 +18,23 @@ OUTPUT_UNITS = ("mm", "in")
 def plain(text: object) -> str:
     """Text from a drawing, a file name or an error, made safe to print through rich: never markup."""
     return escape(str(text))
+
+
+def report_table(title: str, columns: list[tuple[str, str]]) -> Table:
+    """A rich table with ``(head, "left" | "right")`` columns that fold long values."""
+    table = Table(title=title)
+    for name, justify in columns:
+        table.add_column(name, justify=justify, overflow="fold")  # type: ignore[arg-type]
+    return table
+
+
+def print_notes(console: Console, results: list[Any], cautions: Sequence[str] = ()) -> None:
+    """Each file's warnings, then the cautions, as plain text lines after a table."""
+    for r in results:
+        for w in r.warnings:
+            console.print(f"[yellow]warning[/yellow] {plain(r.path)}: {plain(w)}", highlight=False)
+    for c in cautions:
+        console.print(f"[bold red]caution[/bold red] {plain(c)}", highlight=False)
 
 
 def from_mm(value: float, units: str) -> float:

@@ -12,10 +12,9 @@ import json
 from typing import Any
 
 from rich.console import Console
-from rich.table import Table
 
 from pathlen.estimates.bead import ROD_OVERSIZE, BeadEstimate, BeadSettings, whole_packs
-from pathlen.export import from_mm, plain
+from pathlen.export import from_mm, plain, print_notes, report_table
 
 
 def _line_entry(line: Any, units: str) -> dict[str, Any]:
@@ -75,11 +74,10 @@ def render_csv(results: list[BeadEstimate], units: str, s: BeadSettings) -> str:
 def render_table(results: list[BeadEstimate], units: str, s: BeadSettings, cautions: list[str],
                  console: Console) -> None:
     digits = 1 if units == "mm" else 2
-    table = Table(title=f"Sealant beads ({s.pack_ml:g} ml packs, {s.waste_pct:g} % waste)")
-    for name, justify in (("File", "left"), ("Joint", "left"), ("Section", "left"), (f"Length ({units})", "right"),
-                          ("Area (mm²)", "right"), ("Volume (ml)", "right"), ("Packs", "right"),
-                          (f"Backer rod ({units})", "right"), ("Rod Ø (mm)", "right")):
-        table.add_column(name, justify=justify, overflow="fold")  # type: ignore[arg-type]
+    table = report_table(f"Sealant beads ({s.pack_ml:g} ml packs, {s.waste_pct:g} % waste)", [
+        ("File", "left"), ("Joint", "left"), ("Section", "left"), (f"Length ({units})", "right"),
+        ("Area (mm²)", "right"), ("Volume (ml)", "right"), ("Packs", "right"), (f"Backer rod ({units})", "right"),
+        ("Rod Ø (mm)", "right")])
     for r in results:
         if not r.ok:
             table.add_row(plain(r.path), "", "", "[red]failed[/red]", "", "", "", "", "")
@@ -106,8 +104,4 @@ def render_table(results: list[BeadEstimate], units: str, s: BeadSettings, cauti
         extra.append(f"sealant cost {t['cost']:,.2f}")
     if extra:
         console.print("; ".join(extra).capitalize() + ".", highlight=False)
-    for r in results:
-        for w in r.warnings:
-            console.print(f"[yellow]warning[/yellow] {plain(r.path)}: {plain(w)}", highlight=False)
-    for c in cautions:
-        console.print(f"[bold red]caution[/bold red] {plain(c)}", highlight=False)
+    print_notes(console, results, cautions)

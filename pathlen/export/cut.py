@@ -11,10 +11,9 @@ import json
 from typing import Any
 
 from rich.console import Console
-from rich.table import Table
 
 from pathlen.estimates.cut import CutEstimate
-from pathlen.export import from_mm, plain
+from pathlen.export import from_mm, plain, print_notes, report_table
 from pathlen.profiles import Profile
 
 TIME_KEYS = ("total", "cutting", "piercing", "rapids", "motion_losses", "setup")
@@ -96,11 +95,10 @@ def render_table(results: list[CutEstimate], units: str, profile: Profile, cauti
     money = plain(v["currency"] or "money")
     title = (f"Cut estimate: {profile.name} ({v['process']}, {v['material']}, {v['thickness_mm']:g} mm, "
              f"feed {results[0].feed_mm_min if results else 0:,.0f} mm/min)")
-    table = Table(title=plain(title))
-    for name, justify in (("File", "left"), ("Qty", "right"), ("Contours closed/open", "right"),
-                          ("Pierces", "right"), (f"Cut ({units})", "right"), (f"Rapid ({units})", "right"),
-                          ("Time h:mm:ss", "right"), (f"Cost ({money})", "right")):
-        table.add_column(name, justify=justify, overflow="fold")  # type: ignore[arg-type]
+    table = report_table(plain(title), [
+        ("File", "left"), ("Qty", "right"), ("Contours closed/open", "right"), ("Pierces", "right"),
+        (f"Cut ({units})", "right"), (f"Rapid ({units})", "right"), ("Time h:mm:ss", "right"),
+        (f"Cost ({money})", "right")])
     digits = 1 if units == "mm" else 2
     for r in results:
         if not r.ok:
@@ -120,8 +118,4 @@ def render_table(results: list[CutEstimate], units: str, profile: Profile, cauti
                   f"{_clock(ts['rapids'])}, acceleration and corners {_clock(ts['motion_losses'])}, setup "
                   f"{_clock(ts['setup'])}.  Cost ({money}): machine {t['cost']['machine']:,.2f}, consumables "
                   f"{t['cost']['consumables']:,.2f}, setup {t['cost']['setup']:,.2f}.", highlight=False)
-    for r in results:
-        for w in r.warnings:
-            console.print(f"[yellow]warning[/yellow] {plain(r.path)}: {plain(w)}", highlight=False)
-    for c in cautions:
-        console.print(f"[bold red]caution[/bold red] {plain(c)}", highlight=False)
+    print_notes(console, results, cautions)

@@ -12,10 +12,9 @@ import json
 from typing import Any
 
 from rich.console import Console
-from rich.table import Table
 
 from pathlen.estimates.seam_estimate import SeamEstimate, SeamSettings, cones_for
-from pathlen.export import from_mm, plain
+from pathlen.export import from_mm, plain, print_notes, report_table
 
 MM_PER_YD = 914.4
 
@@ -92,12 +91,10 @@ def render_csv(results: list[SeamEstimate], units: str) -> str:
 def render_table(results: list[SeamEstimate], units: str, s: SeamSettings, cone_mm: float | None,
                  cautions: list[str], console: Console) -> None:
     tu = thread_unit(units)
-    table = Table(title=f"Seams (allowance {s.allowance_mm:g} mm where no sew line is drawn, thread + "
-                        f"{s.waste_pct:g} % waste)")
-    for name, justify in (("File", "left"), ("Piece", "left"), ("Size", "left"), ("Qty", "right"),
-                          (f"Cut line ({units})", "right"), (f"Sewn ({units})", "right"), ("Edges", "left"),
-                          ("Stitches", "left"), (f"Thread ({tu})", "right")):
-        table.add_column(name, justify=justify, overflow="fold")  # type: ignore[arg-type]
+    table = report_table(f"Seams (allowance {s.allowance_mm:g} mm where no sew line is drawn, thread + "
+                         f"{s.waste_pct:g} % waste)", [
+        ("File", "left"), ("Piece", "left"), ("Size", "left"), ("Qty", "right"), (f"Cut line ({units})", "right"),
+        (f"Sewn ({units})", "right"), ("Edges", "left"), ("Stitches", "left"), (f"Thread ({tu})", "right")])
     for r in results:
         if not r.ok:
             table.add_row(plain(r.path), "", "", "", "[red]failed[/red]", "", "", "", "")
@@ -120,7 +117,4 @@ def render_table(results: list[SeamEstimate], units: str, s: SeamSettings, cone_
             mark = "ok" if m.ok else "[yellow]check[/yellow]"
             console.print(f"match {plain(m.a)} ~ {plain(m.b)}: {from_mm(m.difference_mm, units):+.2f} {units} "
                           f"({m.ease_pct:+.1f} % ease) {mark}", highlight=False)
-        for w in r.warnings:
-            console.print(f"[yellow]warning[/yellow] {plain(r.path)}: {plain(w)}", highlight=False)
-    for c in cautions:
-        console.print(f"[bold red]caution[/bold red] {plain(c)}", highlight=False)
+    print_notes(console, results, cautions)

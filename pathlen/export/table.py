@@ -6,7 +6,7 @@ from rich.console import Console
 from rich.table import Table
 
 from pathlen.batch import FileResult
-from pathlen.export import from_mm, plain
+from pathlen.export import from_mm, plain, print_notes
 
 
 def fmt_length(mm: float, units: str) -> str:
@@ -46,6 +46,4 @@ def render(results: list[FileResult], units: str, console: Console) -> None:
     table.add_row(f"[b]Total ({len(results)} files, {failed} failed)[/b]", "", "",
                   f"[b]{fmt_length(total, units)}[/b]", fmt_bound(bound, units), "")
     console.print(table)
-    for r in results:
-        for w in r.warnings:
-            console.print(f"[yellow]warning[/yellow] {plain(r.path)}: {plain(w)}", highlight=False)
+    print_notes(console, results)

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import tomllib
 from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
@@ -80,12 +79,9 @@ def build_task(name: str, profile: str | None = None, profile_files: tuple[str, 
 def load_service_file(path: Path, default: Task, profile_files: tuple[str, ...] = ()) -> dict[str, Task]:
     """A service file: ``[folder."NAME"]`` tables (``task``, ``profile``, ``bead``) giving the task for the
     inbox's sub-folder NAME; files elsewhere get ``default``.  One usage error per problem."""
-    try:
-        data = tomllib.loads(path.read_text(encoding="utf-8"))
-    except OSError as exc:
-        raise UsageError(f"{path}: cannot read the service file ({exc.strerror or exc})") from None
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
-        raise UsageError(f"{path}: not a TOML file ({str(exc).splitlines()[0]})") from None
+    from pathlen.tomlfile import read_toml
+
+    data = read_toml(path, "service file")
     if set(data) - {"folder"}:
         raise UsageError(f"{path}: unknown table {sorted(set(data) - {'folder'})[0]!r}; use [folder.\"NAME\"]")
     out = {"": default}
