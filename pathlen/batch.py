@@ -215,6 +215,7 @@ def _worker(conn: Any, work: Callable[[str, Any], Any], settings: Any, limits: L
     import signal
 
     signal.signal(signal.SIGINT, signal.SIG_IGN)  # Ctrl-C is the parent's to handle
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)  # not the parent's handler (the watch service sets one)
     if not own_threads:
         from pathlen.measure import planar_cubic
 
