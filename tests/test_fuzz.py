@@ -90,7 +90,11 @@ SVG_BASE = ('<svg xmlns="http://www.w3.org/2000/svg" xmlns:xlink="http://www.w3.
             'rx="5" ry="2"/></g><line x1="0" y1="70" x2="90" y2="70" stroke="#00f"/></svg>')
 SNIPPETS = ["1e400", "NaN", "-", "<", ">", "&", "&amp;", '"', "#p", "<use href='#CUT'/>", "<use href='#p'/>",
             "<g id='p'>", "</g>", "scale(0)", "matrix(1 2 3)", "display:none", "%", "em", "\u0661", "_", "Z",
-            "A", "a1 1 0 011 1", "<!--", "-->", "<![CDATA[", "]]>", "xmlns='x'", "<svg>", "</svg>", " "]
+            "A", "a1 1 0 011 1", "<!--", "-->", "<![CDATA[", "]]>", "xmlns='x'", "<svg>", "</svg>", " ",
+            "<marker id='m' orient='auto' viewBox='0 0 1 1'><path d='M0 0 L1 1'/></marker>",
+            " marker-end='url(#m)' marker-mid='url(#m)'", " style='marker:url(#CUT)'", "<switch>", "</switch>",
+            " systemLanguage='en,de'", " requiredExtensions=''", " style='font-size:1e400px'", " x='2em' r='5vw'",
+            " style='transform:rotate(1e400deg) scale(0)'", " style='transform-origin:left 1e400px'"]
 
 
 @FUZZ
