@@ -1,6 +1,7 @@
 """The HTML report in a real headless browser (Chromium from the Debian packages; .ci/run installs it)."""
 
 import json
+import os
 import re
 import shutil
 import subprocess
@@ -15,11 +16,14 @@ HOSTILE = "<script>document.title='owned'</script><img src=x onerror=alert(1)>"
 
 
 def chromium() -> str:
+    """The browser; in CI (.ci/run installs it) a missing one fails the test, elsewhere it is skipped."""
     for name in ("chromium", "chromium-browser", "google-chrome"):
         found = shutil.which(name)
         if found:
             return found
-    pytest.fail("Chromium is missing: .ci/run installs it (apt-get install chromium)")
+    if os.environ.get("CI"):
+        pytest.fail("Chromium is missing: .ci/run installs it (apt-get install chromium)")
+    pytest.skip("Chromium is not installed here (apt-get install chromium); CI installs it and runs this test")
 
 
 def browse(html: Path, *flags: str) -> subprocess.CompletedProcess:
