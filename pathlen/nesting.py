@@ -91,6 +91,7 @@ def _starts_inside(table: SegmentTable, contours: ContourSet, starts: np.ndarray
     bx, by = np.ascontiguousarray(pts[:, 1:, 0]).ravel(), np.ascontiguousarray(pts[:, 1:, 1]).ravel()
     edge_lo, edge_n = k * contours.first, k * contours.size
     hits = np.zeros(len(point_i), dtype=bool)
+    point_x, point_y = starts[point_i, 0], starts[point_i, 1]
     per_pair = edge_n[container]
     cuts = np.searchsorted(np.cumsum(per_pair), np.arange(EDGE_TESTS_PER_PASS, int(per_pair.sum()) + 1,
                                                           EDGE_TESTS_PER_PASS))
@@ -99,10 +100,10 @@ def _starts_inside(table: SegmentTable, contours: ContourSet, starts: np.ndarray
             continue
         first = edge_lo[container[lo:hi]]
         pair, edge = expand_ranges(np.arange(lo, hi), first, first + edge_n[container[lo:hi]]).T
-        py = starts[point_i, 1][pair]
+        py = point_y[pair]
         straddle = np.flatnonzero((ay[edge] > py) != (by[edge] > py))  # most edges do not: the rest skip them
         pair, edge, py = pair[straddle], edge[straddle], py[straddle]
-        px = starts[point_i, 0][pair]
+        px = point_x[pair]
         x = ax[edge] + (py - ay[edge]) * (bx[edge] - ax[edge]) / (by[edge] - ay[edge])
         crossings = np.bincount(pair - lo, weights=x > px, minlength=hi - lo)
         on = np.bincount(pair - lo, weights=x == px, minlength=hi - lo)

@@ -11,6 +11,7 @@ import pytest
 
 from pathlen.batch import FileResult, Limits, MeasureSettings, measure_file, one_line_failure, run_batch
 from pathlen.cli import main
+from tests.drawings import line_dxf
 
 
 def flaky_work(path: str, settings: MeasureSettings) -> FileResult:
@@ -27,12 +28,7 @@ def flaky_work(path: str, settings: MeasureSettings) -> FileResult:
 
 @pytest.fixture
 def good(tmp_path):
-    doc = ezdxf.new()
-    doc.header["$INSUNITS"] = 4
-    doc.modelspace().add_line((0, 0), (10, 0))
-    path = tmp_path / "good.dxf"
-    doc.saveas(path)
-    return str(path)
+    return str(line_dxf(tmp_path / "good.dxf"))
 
 
 @pytest.mark.parametrize("jobs", [1, 2])

@@ -13,6 +13,7 @@ import mpmath as mp
 import pytest
 
 from pathlen.batch import find_drawings, measure_file
+from tests.drawings import line_dxf
 
 MM_DOC = 'width="100mm" height="100mm" viewBox="0 0 100 100"'
 
@@ -105,10 +106,7 @@ def test_polyline_without_vertices_is_named(tmp_path):
 
 
 def test_damaged_section_name_is_refused(tmp_path):
-    doc = ezdxf.new()
-    doc.modelspace().add_line((0, 0), (10, 0))
-    path = tmp_path / "damaged.dxf"
-    doc.saveas(path)
+    path = line_dxf(tmp_path / "damaged.dxf", insunits=None)
     text = path.read_text()
     path.write_text(text.replace("ENTITIES", "ENTTIES", 1))
     result = measure_file(str(path))

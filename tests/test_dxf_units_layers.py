@@ -7,6 +7,7 @@ import pytest
 
 from pathlen.batch import MeasureSettings, measure_file
 from pathlen.importers import ImportOptions
+from tests.drawings import line_dxf
 
 # DXF reference, HEADER section, $INSUNITS: the code list.  Lengths in mm from the definitions:
 # SI prefixes; 1 in = 25.4 mm (international yard and pound, 1959); astronomical unit
@@ -39,12 +40,7 @@ def test_every_insunits_code_has_its_factor(tmp_path, code, mm):
 
 
 def test_us_survey_foot_is_not_the_international_foot(tmp_path):
-    doc = ezdxf.new()
-    doc.header["$INSUNITS"] = 21
-    doc.modelspace().add_line((0, 0), (1000, 0))
-    path = tmp_path / "survey.dxf"
-    doc.saveas(path)
-    result = measure_file(str(path))
+    result = measure_file(str(line_dxf(tmp_path / "survey.dxf", 1000.0, insunits=21)))
     assert result.length_mm == pytest.approx(1000 * 1_200_000 / 3937, rel=1e-15)
     assert result.length_mm - 1000 * 304.8 == pytest.approx(0.6096, rel=1e-5)  # about 2 ppm more
 
@@ -90,11 +86,7 @@ def test_hidden_layers_flag_measures_them(tmp_path):
 def test_library_log_lines_become_warnings(tmp_path, capfd):
     # ezdxf reports some problems only through Python logging (here: tags outside a section); they belong to
     # the file's warnings, not as bare lines on standard error
-    doc = ezdxf.new()
-    doc.header["$INSUNITS"] = 4
-    doc.modelspace().add_line((0, 0), (10, 0))
-    path = tmp_path / "logged.dxf"
-    doc.saveas(path)
+    path = line_dxf(tmp_path / "logged.dxf")
     text = path.read_text()
     path.write_text(text.replace("  0\nENDSEC\n", "  0\nENDSEC\n  0\nSTRAY\n", 1))
     result = measure_file(str(path))

@@ -18,8 +18,7 @@ from pathlen.estimates.seam import sew_line
 from pathlen.estimates.seam_plan import DEFAULT_TOLERANCE_PCT, PlannedSeam, SeamPlan
 from pathlen.estimates.thread import thread_ratio
 from pathlen.geometry import Drawing
-from pathlen.importers import read_drawing
-from pathlen.importers.pattern import CUT_LAYERS, NOTCH_LAYERS, SEW_LAYERS, PatternPiece, read_pattern_pieces
+from pathlen.importers.pattern import CUT_LAYERS, NOTCH_LAYERS, SEW_LAYERS, PatternPiece, read_pattern
 from pathlen.instances import expand
 from pathlen.measure import measure
 from pathlen.nesting import nesting_depth
@@ -116,12 +115,10 @@ def estimate_seams(path: str, settings: SeamSettings) -> SeamEstimate:
 def _estimate(path: str, s: SeamSettings) -> SeamEstimate:
     options = s.measure.import_options  # type: ignore[attr-defined]
     out = SeamEstimate(path, True, quantity=s.quantity)
-    pattern = read_pattern_pieces(Path(path), options)
-    if pattern:
-        for piece in pattern:
-            out.pieces.append(_pattern_piece(piece, s, out.warnings))
-    else:
-        drawing = read_drawing(Path(path), options)
+    pattern, drawing = read_pattern(Path(path), options)
+    for piece in pattern:
+        out.pieces.append(_pattern_piece(piece, s, out.warnings))
+    if drawing is not None:
         out.warnings.extend(drawing.warnings)
         flat = expand(drawing, s.measure.max_segments, "the seam estimate")  # type: ignore[attr-defined]
         out.pieces.extend(_plain_pieces(flat, s))

@@ -44,6 +44,11 @@ def read_drawing(path: Path, options: ImportOptions = ImportOptions()) -> Drawin
         drawing = read_svg(path, options.svg_dpi, options.svg_language)
     else:
         raise InputError(f"unsupported file type {suffix or '(none)'!r}: expected {' or '.join(SUFFIXES)}")
+    return finish_drawing(drawing)
+
+
+def finish_drawing(drawing: Drawing) -> Drawing:
+    """What every importer's drawing goes through: geometry checked, entities not measured counted."""
     check_geometry(drawing)
     for kind, count in sorted(drawing.skipped.items()):
         drawing.warnings.append(f"{count} {kind} entit{'y' if count == 1 else 'ies'} not measured")

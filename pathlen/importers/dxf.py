@@ -14,6 +14,7 @@ import math
 import re
 import struct
 from collections.abc import Callable
+from dataclasses import dataclass
 from pathlib import Path
 
 import ezdxf
@@ -51,18 +52,41 @@ def read_dxf(path: Path, drawing_units: str | None = None, recover: bool = False
     ``recover``.  Entities on layers that are off or frozen are marked hidden (measured only
     with ``hidden_layers``: the caller decides).  ezdxf's own log messages become warnings.
     """
+    return dxf_drawing(load_dxf(path, recover), drawing_units, hidden_layers)
+
+
+@dataclass
+class LoadedDxf:
+    """A DXF document as loaded, with what loading had to say."""
+
+    doc: ezdxf.document.Drawing
+    notes: list[str]
+    recovered: bool
+
+
+def load_dxf(path: Path, recover: bool = False) -> LoadedDxf:
+    """Load the document (refusing a damaged one unless ``recover``); ezdxf's log lines become notes."""
     with _LogCapture() as log:
         doc, notes, recovered = _load(path, recover)
+    return LoadedDxf(doc, [*notes, *log.messages], recovered)
+
+
+def dxf_drawing(loaded: LoadedDxf, drawing_units: str | None = None, hidden_layers: bool = False) -> Drawing:
+    """The model space of a loaded document as a Drawing in millimetres (see :func:`read_dxf`)."""
+    doc = loaded.doc
+    with _LogCapture() as log:
         hidden = frozenset() if hidden_layers else _hidden_layers(doc)
         importer = _DxfImporter(doc, hidden)
         coll = SegmentCollector(hidden)
-        coll.warn(*notes)
+        coll.warn(*loaded.notes)
         for entity in doc.modelspace():
             importer.add(entity, coll)
         drawing = coll.drawing()
-    drawing.warnings.extend(log.messages)
-    drawing.recovered = recovered
-    unit = drawing_units or _header_unit(doc, drawing)
+    drawing.warnings.extend(m for m in log.messages if m not in drawing.warnings)
+    drawing.recovered = loaded.recovered
+    unit, note = drawing_unit(doc, drawing_units)
+    if note:
+        drawing.warnings.append(note)
     scale = MM_PER_UNIT[unit]
     return drawing if scale == 1.0 else drawing.transformed(affine(np.eye(3) * scale))
 
@@ -185,15 +209,17 @@ def _hidden_layers(doc: ezdxf.document.Drawing) -> frozenset[str]:
     return frozenset(out)
 
 
-def _header_unit(doc: ezdxf.document.Drawing, drawing: Drawing) -> str:
+def drawing_unit(doc: ezdxf.document.Drawing, drawing_units: str | None = None) -> tuple[str, str | None]:
+    """The unit of the drawing's coordinates (``drawing_units`` over ``$INSUNITS``) and a warning when
+    it had to be taken as mm."""
+    if drawing_units:
+        return drawing_units, None
     code = int(doc.header.get("$INSUNITS", 0) or 0)
     if code in INSUNITS:
-        return INSUNITS[code]
+        return INSUNITS[code], None
     if code == 0:
-        drawing.warnings.append("drawing has no units ($INSUNITS = 0): taken as mm; set --drawing-units")
-    else:
-        drawing.warnings.append(f"$INSUNITS = {code} is not a length unit pathlen converts: taken as mm")
-    return "mm"
+        return "mm", "drawing has no units ($INSUNITS = 0): taken as mm; set --drawing-units"
+    return "mm", f"$INSUNITS = {code} is not a length unit pathlen converts: taken as mm"
 
 
 class _DxfImporter:

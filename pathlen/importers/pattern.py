@@ -18,7 +18,7 @@ import numpy as np
 
 from pathlen.errors import InputError
 from pathlen.geometry import MM_PER_UNIT, Drawing, SegmentCollector, affine
-from pathlen.importers import ImportOptions, check_geometry
+from pathlen.importers import ImportOptions, check_geometry, check_regular_file, finish_drawing, read_drawing
 from pathlen.instances import expand
 
 #: D6673 layer numbers (as layer names).
@@ -44,21 +44,30 @@ class PatternPiece:
     notches: int = 0
 
 
-def read_pattern_pieces(path: Path, options: ImportOptions | None = None) -> list[PatternPiece]:
-    """The D6673 pieces of a DXF file (blocks holding a layer-1 cut line), [] for anything else."""
+def read_pattern(path: Path, options: ImportOptions | None = None) -> tuple[list[PatternPiece], Drawing | None]:
+    """The D6673 pieces of a DXF file (blocks holding a layer-1 cut line); where there are none, the
+    drawing itself as :func:`~pathlen.importers.read_drawing` gives it (a DXF is loaded once)."""
     options = options or ImportOptions()
     if path.suffix.lower() != ".dxf":
-        return []
+        return [], read_drawing(path, options)
     from pathlen.importers import dxf
 
-    with dxf._LogCapture():
-        doc, _, _ = dxf._load(path, options.recover)
-    importer = dxf._DxfImporter(doc)
-    unit = options.drawing_units or _unit(doc)
-    scale = MM_PER_UNIT[unit]
+    check_regular_file(path)
+    loaded = dxf.load_dxf(path, options.recover)
+    pieces = _pieces(loaded.doc, options)
+    if pieces:
+        return pieces, None
+    return [], finish_drawing(dxf.dxf_drawing(loaded, options.drawing_units, options.hidden_layers))
+
+
+def _pieces(doc: object, options: ImportOptions) -> list[PatternPiece]:
+    from pathlen.importers import dxf
+
+    importer = dxf._DxfImporter(doc)  # type: ignore[arg-type]
+    scale = MM_PER_UNIT[dxf.drawing_unit(doc, options.drawing_units)[0]]  # type: ignore[arg-type]
     pieces = []
-    for insert in doc.modelspace().query("INSERT"):
-        block = doc.blocks.get(insert.dxf.name)
+    for insert in doc.modelspace().query("INSERT"):  # type: ignore[attr-defined]
+        block = doc.blocks.get(insert.dxf.name)  # type: ignore[attr-defined]
         if block is None or not any(e.dxf.layer in CUT_LAYERS for e in block):
             continue
         coll = SegmentCollector()
@@ -88,13 +97,6 @@ def read_pattern_pieces(path: Path, options: ImportOptions | None = None) -> lis
         pieces.append(PatternPiece(info.get("piece name", info.get("name", insert.dxf.name)), max(quantity, 0),
                                    info.get("size", ""), info.get("category", ""), drawing, marks, notches))
     return pieces
-
-
-def _unit(doc: object) -> str:
-    from pathlen.importers.dxf import INSUNITS
-
-    code = int(doc.header.get("$INSUNITS", 0) or 0)  # type: ignore[attr-defined]
-    return INSUNITS.get(code, "mm")
 
 
 def _text(e: object) -> str:

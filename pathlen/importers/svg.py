@@ -440,7 +440,6 @@ class _Importer:
         except BadValue as exc:
             self.warn_element(elem, tag, str(exc))
             return []
-        self.rel = replace(self.root_rel, em=st.font_size)
         if tag in SHAPES:
             if st.visible:
                 self.shape(elem, tag, st)
