@@ -5,3 +5,40 @@ from click.testing import CliRunner
 @pytest.fixture
 def runner() -> CliRunner:
     return CliRunner()
+
+
+# ----- every DXF the suite reads is kept and read again by both readers at the end (test_dxf_readers.py)
+import hashlib  # noqa: E402
+import shutil  # noqa: E402
+from pathlib import Path  # noqa: E402
+
+import pathlen.importers.dxf as dxf_module  # noqa: E402
+
+DXF_RECORD = Path(__file__).parent / ".dxf_seen"
+
+
+@pytest.fixture(autouse=True, scope="session")
+def record_dxf_files():
+    """Wrap the DXF entry point so that each file read (in this process or a forked worker) is copied
+    to ``tests/.dxf_seen`` under its content hash."""
+    shutil.rmtree(DXF_RECORD, ignore_errors=True)
+    DXF_RECORD.mkdir()
+    original = dxf_module.read_dxf
+
+    def recording(path, *args, **kwargs):
+        try:
+            data = Path(path).read_bytes()
+            (DXF_RECORD / (hashlib.sha1(data).hexdigest() + ".dxf")).write_bytes(data)
+        except OSError:
+            pass
+        return original(path, *args, **kwargs)
+
+    dxf_module.read_dxf = recording
+    yield
+    dxf_module.read_dxf = original
+
+
+def pytest_collection_modifyitems(config, items):
+    """The side-by-side check of recorded files runs last, after every other test has read its DXF."""
+    last = [i for i in items if i.name == "test_every_dxf_the_suite_read"]
+    items[:] = [i for i in items if i not in last] + last

@@ -98,16 +98,24 @@ def _span_beziers(homog: FloatArray, knots: FloatArray, p: int) -> FloatArray:
     """``[spans, p+1, 4]`` homogeneous Bézier control points of every non-empty span, by blossoming."""
     k = np.arange(p, len(knots) - p - 1)
     k = k[knots[k + 1] > knots[k]]
-    a, b = knots[k], knots[k + 1]
     local = homog[k[:, None] - p + np.arange(p + 1)]  # [S, p+1, 4]: P[k-p .. k]
-    out = np.empty((len(k), p + 1, 4))
+    window = knots[k[:, None] - p + 1 + np.arange(2 * p)]  # [S, 2p]: U[k-p+1 .. k+p]
+    return window_beziers(local, window, p)
+
+
+def window_beziers(local: FloatArray, window: FloatArray, p: int) -> FloatArray:
+    """Bézier pieces of spans given by their own data: ``local[S, p+1, 4]`` homogeneous control points
+    ``P[k-p .. k]`` and ``window[S, 2p]`` knots ``U[k-p+1 .. k+p]`` of span ``[U[k], U[k+1])``.  Spans of
+    different splines (of one degree) can share one call."""
+    a, b = window[:, p - 1], window[:, p]
+    out = np.empty((len(local), p + 1, 4))
     for i in range(p + 1):
         d = local.copy()
         for r in range(1, p + 1):
             u = a if r <= p - i else b
             j = np.arange(r, p + 1)
-            left = knots[k[:, None] - p + j]
-            right = knots[k[:, None] + 1 + j - r]
+            left = window[:, j - 1]
+            right = window[:, p + j - r]
             alpha = ((u[:, None] - left) / (right - left))[:, :, None]
             d[:, r:] = (1.0 - alpha) * d[:, r - 1:-1] + alpha * d[:, r:]
         out[:, i] = d[:, p]

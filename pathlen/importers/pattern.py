@@ -50,7 +50,7 @@ def read_pattern(path: Path, options: ImportOptions | None = None) -> tuple[list
     options = options or ImportOptions()
     if path.suffix.lower() != ".dxf":
         return [], read_drawing(path, options)
-    from pathlen.importers import dxf
+    from pathlen.importers import dxf_ezdxf as dxf
 
     check_regular_file(path)
     loaded = dxf.load_dxf(path, options.recover)
@@ -61,7 +61,7 @@ def read_pattern(path: Path, options: ImportOptions | None = None) -> tuple[list
 
 
 def _pieces(doc: object, options: ImportOptions) -> list[PatternPiece]:
-    from pathlen.importers import dxf
+    from pathlen.importers import dxf_ezdxf as dxf
 
     importer = dxf._DxfImporter(doc)  # type: ignore[arg-type]
     scale = MM_PER_UNIT[dxf.drawing_unit(doc, options.drawing_units)[0]]  # type: ignore[arg-type]

@@ -1,0 +1,614 @@
+"""Bulk DXF reader: a text DXF file's tags straight to segment arrays, every entity kind at once.
+
+The ezdxf reader (:mod:`pathlen.importers.dxf`) builds ezdxf's document model and walks it entity by
+entity.  This one parses the tag stream in bulk (:mod:`~pathlen.importers.dxf_tags`), places every
+entity (:mod:`~pathlen.importers.dxf_layout`), reads the fields of all entities of a kind as arrays
+(:mod:`~pathlen.importers.dxf_fields`) and computes their segments with the same formulas as the ezdxf
+reader's handlers, in the same order, so that both give the same drawing.  Blocks, INSERT placements,
+layer "0" inheritance, hidden layers, units and warnings follow the ezdxf reader's rules exactly.
+
+Whatever it is not sure of raises :class:`~pathlen.importers.dxf_tags.NotPlain`, and the file is read
+by ezdxf instead: a file is either read by this module in full or not at all.
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import NDArray
+
+from pathlen.errors import InputError
+from pathlen.geometry import (
+    Beziers,
+    Drawing,
+    EllipticArcs,
+    Entity,
+    FloatArray,
+    IntArray,
+    Lines,
+    SegmentCollector,
+    take_rows,
+)
+from pathlen.importers.dxf_fields import Fields
+from pathlen.importers.dxf_layout import MEASURED, Layout, layout
+from pathlen.importers.dxf_tags import NotPlain, TagTable, parse_tags
+from pathlen.importers.nurbs import bezier_pieces, window_beziers
+
+TWO_PI = 2.0 * math.pi
+Z_AXIS = (0.0, 0.0, 1.0)
+#: The ezdxf reader's warning for splines given by fit points only (kept word for word).
+FIT_POINTS_WARNING = ("SPLINE given by fit points only: curve reconstructed by ezdxf's fit-point "
+                      "interpolation, which may differ from the drawing program's")
+
+
+@dataclass
+class PlainDxf:
+    """What the bulk reader found: the model space drawing (in drawing units) and ``$INSUNITS``."""
+
+    drawing: Drawing
+    insunits: int
+
+
+def read_plain(data: bytes, hidden_layers: bool = False) -> PlainDxf:
+    """Read a text DXF file's model space from its bytes; raises NotPlain (read it with ezdxf)."""
+    tags = parse_tags(data)
+    lay = layout(tags)
+    return _Reader(tags, lay, hidden_layers).model()
+
+
+class _Segments:
+    """Segments of all entities, tagged with their entity number (file order)."""
+
+    def __init__(self) -> None:
+        self.lines: list[tuple[FloatArray, FloatArray, IntArray]] = []
+        self.arcs: list[tuple[FloatArray, FloatArray, FloatArray, FloatArray, FloatArray, IntArray]] = []
+        self.beziers: dict[int, list[tuple[FloatArray, FloatArray, IntArray]]] = {}
+
+    def batches(self) -> tuple[Lines, EllipticArcs, dict[int, Beziers]]:
+        """Concatenated batches whose ``entity`` is the entity number (rows not yet sorted)."""
+        if self.lines:
+            lines = Lines(*(np.concatenate(col) for col in zip(*self.lines, strict=True)))
+        else:
+            lines = Lines(np.zeros((0, 3)), np.zeros((0, 3)), np.zeros(0, dtype=np.int64))
+        if self.arcs:
+            arcs = EllipticArcs(*(np.concatenate(col) for col in zip(*self.arcs, strict=True)))
+        else:
+            arcs = EllipticArcs(*[np.zeros((0, 3))] * 3, np.zeros(0), np.zeros(0), np.zeros(0, dtype=np.int64))
+        beziers = {d: Beziers(*(np.concatenate(col) for col in zip(*rows, strict=True)))
+                   for d, rows in self.beziers.items()}
+        return lines, arcs, beziers
+
+
+class _Reader:
+    def __init__(self, tags: TagTable, lay: Layout, hidden_layers: bool) -> None:
+        self.tags = tags
+        self.lay = lay
+        self.f = Fields(tags, lay.owner, len(lay.kinds))
+        self.kinds = lay.kinds
+        self.hidden = frozenset() if hidden_layers else self._hidden_layers()
+        self.insunits = self._insunits()
+        self.spaces = self._spaces()
+        self.blocks_by_key = {b.name.lower(): b for b in lay.blocks}
+        self.block_drawings: dict[str, Drawing] = {}
+        self.open_blocks: list[str] = []
+        self.skipped_rows: dict[int, str] = {}
+        self.fit_splines: set[int] = set()
+        self.loops: set[int] = set()
+        self._measure_all()
+
+    # ----- tables and header -------------------------------------------------------------------
+    def _hidden_layers(self) -> frozenset[str]:
+        entries = np.array(self.lay.layer_entries, dtype=np.int64)
+        names = self.f.text(2, entries, "")
+        if len({n.lower() for n in names}) != len(names) or "" in names:
+            raise NotPlain("layer table with a nameless or repeated layer")
+        colour = self.f.integer(62, entries, 7)
+        flags = self.f.integer(70, entries, 0)
+        return frozenset(n for n, c, fl in zip(names, colour.tolist(), flags.tolist(), strict=True)
+                         if c < 0 or fl & 1)
+
+    def _insunits(self) -> int:
+        codes = self.tags.codes
+        head = int(self.lay.first_tag[self.lay.header])
+        stop = int(self.lay.first_tag[self.lay.header + 1]) if self.lay.header + 1 < len(self.kinds) else len(codes)
+        nine = np.flatnonzero(codes[head:stop] == 9) + head
+        found = [i for i in nine.tolist() if self.tags.data[self.tags.start[i]:self.tags.end[i]] == b"$INSUNITS"]
+        if not found:
+            return 0
+        if len(found) > 1 or codes[found[0] + 1] != 70:
+            raise NotPlain("$INSUNITS given twice or without its value")
+        value = float(self.tags.number[found[0] + 1])
+        if value != round(value):
+            raise NotPlain("$INSUNITS is not an integer")
+        return int(value)
+
+    def _spaces(self) -> dict[int, list[int]]:
+        """Entities of model space (key -1) and of each block (key: block number), main entities only."""
+        lay = self.lay
+        records = np.array(lay.block_records, dtype=np.int64)
+        record_names = [n.lower() for n in self.f.text(2, records, "")]
+        record_handles = self.f.text(5, records, "")
+        model = dict(zip(record_names, record_handles, strict=True))
+        names = self.f.text(2, np.array([b.head for b in lay.blocks], dtype=np.int64), "")
+        for b, name in zip(lay.blocks, names, strict=True):
+            b.name = name
+        keys = [n.lower() for n in names]
+        if "" in keys or len(set(keys)) != len(keys):
+            raise NotPlain("a nameless or repeated block name")
+        if records.size and not set(keys) <= set(record_names):
+            raise NotPlain("a block without a block record")
+        for b in lay.blocks:
+            if b.name.lower() == "*model_space" and b.entities:
+                raise NotPlain("entities in the *Model_Space block")
+        spaces = {k: b.entities for k, b in enumerate(lay.blocks)}
+        ents = np.array(lay.entities, dtype=np.int64)
+        owner = self.f.text(330, ents, "")
+        paper_flag = self.f.integer(67, ents, 0)
+        msp, psp = model.get("*model_space"), model.get("*paper_space")
+        paper = [(o == psp) if o in (msp, psp) and o else bool(flag)
+                 for o, flag in zip(owner, paper_flag.tolist(), strict=True)]
+        spaces[-1] = [e for e, p in zip(lay.entities, paper, strict=True) if not p]
+        return spaces
+
+    # ----- geometry of all measured entities ----------------------------------------------------
+    def _measure_all(self) -> None:
+        kinds = self.kinds
+        by_kind: dict[str, list[int]] = {k: [] for k in (*MEASURED, "INSERT")}
+        for ents in self.spaces.values():
+            for e in ents:
+                if kinds[e] in by_kind:
+                    by_kind[kinds[e]].append(e)
+        self.by_kind = {k: np.array(sorted(v), dtype=np.int64) for k, v in by_kind.items()}
+        seg = _Segments()
+        self._lines(seg)
+        self._circles(seg)
+        self._ellipses(seg)
+        self._lwpolylines(seg)
+        self._polylines(seg)
+        self._splines(seg)
+        self.segments = seg
+        measured = np.concatenate([v for k, v in self.by_kind.items() if k != "INSERT"])
+        rows = np.setdiff1d(measured, np.array(sorted(self.skipped_rows), dtype=np.int64))
+        self.row_entities = rows  # entities that get an entity row, file order
+        layers = self.f.text(8, rows, "0")
+        handles = self.f.text(5, rows)
+        self.entity_info = {int(e): (layer, handle) for e, layer, handle in zip(rows.tolist(), layers, handles,
+                                                                                 strict=True)}
+        self._batches()
+
+    def _ocs_to_wcs(self, ents: IntArray) -> _Ocs:
+        return _Ocs(self.f.point(210, ents, Z_AXIS))
+
+    def _lines(self, seg: _Segments) -> None:
+        e = self.by_kind["LINE"]
+        seg.lines.append((self.f.point(10, e), self.f.point(11, e), e))
+
+    def _circles(self, seg: _Segments) -> None:
+        for kind in ("CIRCLE", "ARC"):
+            e = self.by_kind[kind]
+            r = self.f.number(40, e)
+            if not np.all(r > 0):
+                raise NotPlain("a circle or arc whose radius is not positive")
+            ocs = self._ocs_to_wcs(e)
+            zero = np.zeros_like(r)
+            center = ocs.points(self.f.point(10, e))
+            u = ocs.points(np.stack([r, zero, zero], axis=1))
+            v = ocs.points(np.stack([zero, r, zero], axis=1))
+            if kind == "CIRCLE":
+                t0, t1 = zero, np.full_like(r, TWO_PI)
+            else:
+                t0 = np.radians(self.f.number(50, e)) % TWO_PI
+                t1 = np.radians(self.f.number(51, e)) % TWO_PI
+                t1 = np.where(t1 <= t0, t1 + TWO_PI, t1)
+            seg.arcs.append((center, u, v, t0, t1, e))
+
+    def _ellipses(self, seg: _Segments) -> None:
+        e = self.by_kind["ELLIPSE"]
+        center, major = self.f.point(10, e), self.f.point(11, e)
+        ratio = self.f.number(40, e)
+        t0, t1 = self.f.number(41, e, 0.0), self.f.number(42, e, TWO_PI)
+        extrusion = self.f.point(210, e, Z_AXIS)
+        cross = np.cross(extrusion, major)
+        length = _magnitude(cross)
+        if np.any(length == 0):
+            raise NotPlain("an ellipse whose major axis is parallel to its extrusion")
+        minor = cross * ((_magnitude(major) * ratio) / length)[:, None]
+        part = np.abs((t1 - t0) - TWO_PI) > 1e-12
+        s0, s1 = t0 % TWO_PI, t1 % TWO_PI
+        s1 = np.where(s1 <= s0, s1 + TWO_PI, s1)
+        seg.arcs.append((center, major, minor, np.where(part, s0, t0), np.where(part, s1, t1), e))
+
+    def _lwpolylines(self, seg: _Segments) -> None:
+        e = self.by_kind["LWPOLYLINE"]
+        wanted = self._mask(e)
+        idx, own = self.f.many(10, wanted)
+        xyz = self.f.points_at(idx, 10, flat=True)
+        bulge = np.zeros(len(idx))
+        b_idx, b_own = self.f.many(42, wanted)
+        vertex = np.searchsorted(idx, b_idx) - 1
+        if np.any(vertex < 0) or np.any(own[np.maximum(vertex, 0)] != b_own) or len(np.unique(vertex)) < len(vertex):
+            raise NotPlain("a bulge that does not follow its vertex")
+        bulge[vertex] = self.tags.number[b_idx]
+        flags = self.f.integer(70, e, 0)
+        elevation = self.f.number(38, e, 0.0)
+        closed = (flags & 1).astype(bool)
+        self.loops.update(e[closed].tolist())
+        _bulge_path(seg, xyz[:, 0], xyz[:, 1], own, e, elevation, closed, self._ocs_to_wcs(e), bulge)
+
+    def _polylines(self, seg: _Segments) -> None:
+        e = self.by_kind["POLYLINE"]
+        flags = self.f.integer(70, e, 0)
+        mesh = (flags & (16 | 64)) != 0
+        for m in e[mesh].tolist():
+            self.skipped_rows[m] = "POLYLINE mesh"
+        e, flags = e[~mesh], flags[~mesh]
+        closed = (flags & 1).astype(bool)
+        vertex_lists = [self.lay.vertices[m] for m in e.tolist()]
+        verts = np.array(list(itertools.chain.from_iterable(vertex_lists)), dtype=np.int64)
+        own = np.repeat(e, [len(v) for v in vertex_lists])
+        keep = (self.f.integer(70, verts, 0) & 16) == 0  # 16: spline frame control point
+        verts, own = verts[keep], own[keep]
+        if len(e) and np.any(np.bincount(np.searchsorted(e, own), minlength=len(e)) < 2):
+            raise NotPlain("a POLYLINE with fewer than two vertices")
+        location = self.f.point(10, verts)
+        self.loops.update(e[closed].tolist())
+        three_d = (flags & 8) != 0
+        if np.any(three_d):
+            _polyline_3d(seg, location, own, e[three_d], closed[three_d])
+        flat = ~three_d
+        if np.any(flat):
+            pick = np.isin(own, e[flat])
+            elevation = self.f.point(10, e[flat], (0.0, 0.0, 0.0))[:, 2]
+            bulge = self.f.number(42, verts[pick], 0.0)
+            _bulge_path(seg, location[pick, 0], location[pick, 1], own[pick], e[flat], elevation, closed[flat],
+                        self._ocs_to_wcs(e[flat]), bulge)
+
+    def _splines(self, seg: _Segments) -> None:
+        e = self.by_kind["SPLINE"]
+        wanted = self._mask(e)
+        ctrl_idx, ctrl_own = self.f.many(10, wanted)
+        knot_idx, knot_own = self.f.many(40, wanted)
+        w_idx, w_own = self.f.many(41, wanted)
+        fit_idx, fit_own = self.f.many(11, wanted)
+        degree = self.f.integer(71, e, 3)
+        where = np.searchsorted(e, ctrl_own)
+        n_ctrl = np.bincount(where, minlength=len(e))
+        n_knot = np.bincount(np.searchsorted(e, knot_own), minlength=len(e))
+        n_w = np.bincount(np.searchsorted(e, w_own), minlength=len(e))
+        n_fit = np.bincount(np.searchsorted(e, fit_own), minlength=len(e))
+        ctrl = self.f.points_at(ctrl_idx, 10)
+        knots = self.tags.number[knot_idx]
+        weights = self.tags.number[w_idx]
+        by_ctrl = n_ctrl > 0
+        if np.any(~by_ctrl & (n_fit == 0)):
+            raise NotPlain("a SPLINE without control or fit points")
+        p, n = degree, n_ctrl
+        bad = by_ctrl & ((p < 1) | (n < p + 1) | (n_knot != n + p + 1) | ((n_w != 0) & (n_w != n)))
+        if np.any(bad):
+            raise NotPlain("a SPLINE with inconsistent counts")
+        c_start, k_start, w_start = _starts(n_ctrl), _starts(n_knot), _starts(n_w)
+        if len(knots) and np.any(np.diff(knots)[(np.diff(np.searchsorted(e, knot_own)) == 0)] < 0):
+            raise NotPlain("a SPLINE whose knots decrease")
+        if len(weights) and not np.all(weights > 0):
+            raise NotPlain("a SPLINE with a weight that is not positive")
+        for deg, count in sorted({(int(a), int(b)) for a, b in zip(p[by_ctrl], n[by_ctrl], strict=True)}):
+            group = np.flatnonzero(by_ctrl & (p == deg) & (n == count))
+            self._spline_group(seg, e[group], deg, count, ctrl, c_start[group], knots, k_start[group],
+                               weights, w_start[group], n_w[group] > 0)
+        for k in np.flatnonzero(~by_ctrl).tolist():
+            self._fit_spline(seg, int(e[k]), fit_idx[fit_own == e[k]])
+
+    def _spline_group(self, seg: _Segments, ents: IntArray, p: int, n: int, ctrl: FloatArray, c0: IntArray,
+                      knots: FloatArray, k0: IntArray, weights: FloatArray, w0: IntArray, has_w: NDArray[np.bool_]
+                      ) -> None:
+        """Splines of one degree and control-point count, split into Bézier pieces together."""
+        cp = take_rows(ctrl, c0[:, None] + np.arange(n))  # [S, n, 3]
+        kv = knots[k0[:, None] + np.arange(n + p + 1)]  # [S, n+p+1]
+        w = np.ones((len(ents), n))
+        given = np.flatnonzero(has_w)
+        w[given] = weights[w0[given][:, None] + np.arange(n)]
+        if np.any(kv[:, n] <= kv[:, p]):
+            raise NotPlain("a SPLINE with an empty knot domain")
+        homog = np.concatenate([cp * w[:, :, None], w[:, :, None]], axis=2)
+        spans = np.arange(p, n)
+        s_idx, k_idx = np.nonzero(take_rows(kv.T, spans + 1).T > take_rows(kv.T, spans).T)
+        k = spans[k_idx]
+        local = homog[s_idx[:, None], k[:, None] - p + np.arange(p + 1)]
+        window = kv[s_idx[:, None], k[:, None] - p + 1 + np.arange(2 * p)]
+        h = window_beziers(local, window, p)
+        piece_ctrl, piece_w = h[:, :, :3] / h[:, :, 3:], h[:, :, 3]
+        rational = has_w & (np.ptp(w, axis=1) > 0)
+        piece_w = np.where(rational[s_idx][:, None], piece_w, 1.0)
+        _add_pieces(seg, piece_ctrl, piece_w, ents[s_idx], p)
+
+    def _fit_spline(self, seg: _Segments, e: int, fit_idx: IntArray) -> None:
+        """A spline given by fit points, through ezdxf's own interpolation (as the ezdxf reader does)."""
+        from ezdxf.math import fit_points_to_cad_cv
+
+        one = np.array([e], dtype=np.int64)
+        start = self.f.first(12, one)[0]
+        end = self.f.first(13, one)[0]
+        tangents = None
+        if start >= 0 and end >= 0:
+            tangents = [tuple(self.f.points_at(np.array([start]), 12)[0]),
+                        tuple(self.f.points_at(np.array([end]), 13)[0])]
+        try:
+            tool = fit_points_to_cad_cv([tuple(p) for p in self.f.points_at(fit_idx, 11)], tangents=tangents)
+            pieces, piece_w = bezier_pieces(np.array(tool.control_points, dtype=float),
+                                            np.array(tool.knots(), dtype=float), tool.degree,
+                                            np.array(tool.weights(), dtype=float) if tool.is_rational else None)
+        except Exception as exc:  # noqa: BLE001 - whatever ezdxf's interpolation raises, ezdxf's reader reports
+            raise NotPlain(f"fit-point spline: {exc}") from None
+        rational = tool.is_rational and np.ptp(np.array(tool.weights())) > 0
+        _add_pieces(seg, pieces, piece_w if rational else np.ones(pieces.shape[:2]), np.full(len(pieces), e),
+                    tool.degree)
+        self.fit_splines.add(e)
+
+    def _mask(self, ents: IntArray) -> NDArray[np.bool_]:
+        mask = np.zeros(len(self.kinds), dtype=bool)
+        mask[ents] = True
+        return mask
+
+    # ----- assembly ------------------------------------------------------------------------------
+    def _batches(self) -> None:
+        """Sort every batch by entity number (file order), as the ezdxf reader appends them."""
+        lines, arcs, beziers = self.segments.batches()
+        order = np.argsort(lines.entity, kind="stable")
+        self.lines = Lines(take_rows(lines.p0, order), take_rows(lines.p1, order), lines.entity[order])
+        order = np.argsort(arcs.entity, kind="stable")
+        self.arcs = EllipticArcs(take_rows(arcs.center, order), take_rows(arcs.u, order), take_rows(arcs.v, order),
+                                 arcs.t0[order], arcs.t1[order], arcs.entity[order])
+        self.beziers = {}
+        for d, b in sorted(beziers.items()):
+            order = np.argsort(b.entity, kind="stable")
+            self.beziers[d] = Beziers(take_rows(b.ctrl, order), take_rows(b.weights, order), b.entity[order])
+
+    def model(self) -> PlainDxf:
+        return PlainDxf(self._space_drawing(-1), self.insunits)
+
+    def _space_drawing(self, space: int) -> Drawing:
+        """One space as the ezdxf reader's SegmentCollector would leave it."""
+        ents = self.spaces[space]
+        coll = SegmentCollector(self.hidden)
+        kinds = self.kinds
+        rows: list[int] = []
+        for e in ents:
+            kind = kinds[e]
+            if kind in MEASURED and e not in self.skipped_rows:
+                layer, handle = self.entity_info[e]
+                coll.entities.append(Entity(layer, handle, kind, hidden=layer in self.hidden, loop=e in self.loops))
+                rows.append(e)
+                if e in self.fit_splines:
+                    coll.warn(FIT_POINTS_WARNING)
+            elif kind == "INSERT":
+                self._insert(e, coll)
+            else:
+                coll.skipped[self.skipped_rows.get(e, kind)] += 1
+        drawing = coll.drawing()
+        row_of = np.array(rows, dtype=np.int64)
+        drawing.lines = _own_lines(self.lines, row_of)
+        drawing.arcs = _own_arcs(self.arcs, row_of)
+        drawing.beziers = {d: _own_beziers(b, row_of) for d, b in self.beziers.items()}
+        drawing.beziers = {d: b for d, b in drawing.beziers.items() if len(b)}
+        return drawing
+
+    def _insert(self, e: int, coll: SegmentCollector) -> None:
+        one = np.array([e], dtype=np.int64)
+        name = self.f.text(2, one)[0]
+        block = self._block(name, coll)
+        if block is None:
+            return
+        layer = self.f.text(8, one, "0")[0]
+        matrix, grid = self._insert_matrix(e, self.blocks_by_key[name.lower()].head)
+        if not np.all(np.isfinite(matrix)):
+            handle = self.f.text(5, one)[0]
+            coll.warn(f"INSERT #{handle} of block {name!r} skipped: non-finite insertion point, scale or rotation")
+            return
+        coll.add_placement(block, matrix, (name, layer), lambda lay: layer if lay == "0" else lay, f"{name}/", grid)
+
+    def _block(self, name: str, coll: SegmentCollector) -> Drawing | None:
+        if name in self.block_drawings:
+            return self.block_drawings[name]
+        if name in self.open_blocks:
+            chain = [*self.open_blocks[self.open_blocks.index(name):], name]
+            steps = ", ".join(f"{a!r} inserts {b!r}" for a, b in itertools.pairwise(chain))
+            raise InputError(f"block cycle: {steps}; a block cannot contain itself")
+        block = self.blocks_by_key.get(name.lower())
+        if block is None:
+            coll.warn(f"block {name!r} is not defined: INSERT skipped")
+            return None
+        self.open_blocks.append(name)
+        drawing = self._space_drawing(self.lay.blocks.index(block))
+        self.open_blocks.pop()
+        self.block_drawings[name] = drawing
+        return drawing
+
+    def _insert_matrix(self, e: int, block_head: int) -> tuple[FloatArray, tuple | None]:
+        """The INSERT's 4x4 map (column convention) as ezdxf's ``Insert.matrix44`` builds it, and its grid."""
+        f, one = self.f, np.array([e], dtype=np.int64)
+        scale = [float(f.number(c, one, 1.0)[0]) for c in (41, 42, 43)]
+        angle = math.radians(float(f.number(50, one, 0.0)[0]))
+        ocs = self._ocs_to_wcs(one)
+        ax, ay, az = ocs.axes()
+        c, s = math.cos(angle), math.sin(angle)
+        linear = np.empty((3, 3))
+        # ezdxf: ucs(ux*sx, uy*sy, uz*sz) then a rotation about uz: columns are the images of x, y, z
+        linear[:, 0] = (ax * c + ay * s) * scale[0]
+        linear[:, 1] = (ay * c - ax * s) * scale[1]
+        linear[:, 2] = az * scale[2]
+        insert = ocs.points(f.point(10, one, (0.0, 0.0, 0.0)))[0]
+        base = f.point(10, np.array([block_head], dtype=np.int64), (0.0, 0.0, 0.0))[0]
+        matrix = np.eye(4)
+        matrix[:3, :3] = linear
+        matrix[:3, 3] = insert - linear @ base
+        cols, rows = int(f.integer(70, one, 1)[0]), int(f.integer(71, one, 1)[0])
+        dx, dy = float(f.number(44, one, 0.0)[0]), float(f.number(45, one, 0.0)[0])
+        rows, cols = (max(rows, 0) if dy else min(rows, 1)), (max(cols, 0) if dx else min(cols, 1))
+        grid = None
+        if rows * cols != 1:
+            row_step = ocs.points(np.array([[-s * dy, c * dy, 0.0]]))[0]
+            col_step = ocs.points(np.array([[c * dx, s * dx, 0.0]]))[0]
+            grid = (rows, cols, row_step, col_step)
+        return matrix, grid
+
+
+class _Ocs:
+    """Object coordinate systems of many entities by the arbitrary axis algorithm (DXF reference,
+    "Object Coordinate Systems"), with ezdxf's rule that an extrusion close to +z is no transformation."""
+
+    def __init__(self, extrusion: FloatArray) -> None:
+        length = _magnitude(extrusion)
+        if not np.all(np.isfinite(extrusion)) or np.any(length == 0):
+            raise NotPlain("an extrusion direction of zero or non-finite length")
+        az = extrusion * (1.0 / length)[:, None]
+        ref = np.array(Z_AXIS)
+        close = np.abs(az - ref) <= np.maximum(1e-9 * np.maximum(np.abs(az), np.abs(ref)), 1e-12)
+        self.plain = np.all(close, axis=1)
+        self.all_plain = bool(np.all(self.plain))
+        if self.all_plain:
+            return
+        small = (np.abs(az[:, 0]) < 1.0 / 64.0) & (np.abs(az[:, 1]) < 1.0 / 64.0)
+        ax = np.where(small[:, None], np.cross([0.0, 1.0, 0.0], az), np.cross(ref, az))
+        ax = ax * (1.0 / _magnitude(ax))[:, None]
+        ay = np.cross(az, ax)
+        ay = ay * (1.0 / _magnitude(ay))[:, None]
+        self.ax, self.ay, self.az = ax, ay, az
+
+    def points(self, p: FloatArray) -> FloatArray:
+        """OCS coordinates ``p[n, 3]`` (one per entity) in WCS."""
+        if self.all_plain:
+            return p
+        wcs = p[:, 0:1] * self.ax + p[:, 1:2] * self.ay + p[:, 2:3] * self.az
+        return np.where(self.plain[:, None], p, wcs)
+
+    def axes(self) -> tuple[FloatArray, FloatArray, FloatArray]:
+        """The axes of the first entity's OCS (x, y, z unit vectors in WCS)."""
+        if self.plain[0]:
+            return np.array([1.0, 0.0, 0.0]), np.array([0.0, 1.0, 0.0]), np.array(Z_AXIS)
+        return self.ax[0], self.ay[0], self.az[0]
+
+
+def _magnitude(v: FloatArray) -> FloatArray:
+    return np.sqrt(v[:, 0] * v[:, 0] + v[:, 1] * v[:, 1] + v[:, 2] * v[:, 2])
+
+
+def _starts(counts: IntArray) -> IntArray:
+    return np.concatenate(([0], np.cumsum(counts)[:-1])).astype(np.int64)
+
+
+def _bulge_path(seg: _Segments, x: FloatArray, y: FloatArray, own: IntArray, ents: IntArray, elevation: FloatArray,
+                closed: NDArray[np.bool_], ocs: _Ocs, bulge: FloatArray) -> None:
+    """Lines and bulge arcs of polylines (vertices ``x, y`` in OCS, grouped by entity in file order), with
+    the ezdxf reader's formulas: bulge b = tan(θ/4), centre = chord midpoint + left normal·(1 - b²)/(4b)."""
+    if len(ents) == 0:
+        return
+    group = np.searchsorted(ents, own)
+    counts = np.bincount(group, minlength=len(ents))
+    if np.any(counts < 2):
+        raise NotPlain("a polyline with fewer than two vertices")
+    first = _starts(counts)
+    nxt = np.arange(len(x)) + 1
+    last = first + counts - 1
+    nxt[last] = first
+    use = np.ones(len(x), dtype=bool)
+    use[last[~closed]] = False
+    i = np.flatnonzero(use)
+    j = nxt[i]
+    dx, dy = x[j] - x[i], y[j] - y[i]
+    i, j, dx, dy = (a[(dx != 0.0) | (dy != 0.0)] for a in (i, j, dx, dy))
+    b = bulge[i]
+    z = elevation[group[i]]
+    per = _RowOcs(ocs, group[i])
+    straight = b == 0.0
+    li, lj = i[straight], j[straight]
+    lz = z[straight]
+    p0 = per.points(np.stack([x[li], y[li], lz], axis=1), straight)
+    p1 = per.points(np.stack([x[lj], y[lj], lz], axis=1), straight)
+    seg.lines.append((p0, p1, own[li]))
+    ai, aj, ab, az_ = i[~straight], j[~straight], b[~straight], z[~straight]
+    x0, y0, x1, y1 = x[ai], y[ai], x[aj], y[aj]
+    ddx, ddy = dx[~straight], dy[~straight]
+    k = (1.0 - ab * ab) / (4.0 * ab)
+    cx, cy = 0.5 * (x0 + x1) - ddy * k, 0.5 * (y0 + y1) + ddx * k
+    ux, uy = x0 - cx, y0 - cy
+    vx, vy = np.where(ab > 0, -uy, uy), np.where(ab > 0, ux, -ux)
+    theta = 4.0 * np.arctan(np.abs(ab))
+    zero = np.zeros_like(ux)
+    arc = ~straight
+    center = per.points(np.stack([cx, cy, az_], axis=1), arc)
+    u = per.points(np.stack([ux, uy, zero], axis=1), arc)
+    v = per.points(np.stack([vx, vy, zero], axis=1), arc)
+    seg.arcs.append((center, u, v, zero.copy(), theta, own[ai]))
+
+
+class _RowOcs:
+    """The OCS of each segment's entity (``group[k]`` indexes the entities of ``ocs``)."""
+
+    def __init__(self, ocs: _Ocs, group: IntArray) -> None:
+        self.ocs, self.group = ocs, group
+
+    def points(self, p: FloatArray, which: NDArray[np.bool_]) -> FloatArray:
+        if self.ocs.all_plain:
+            return p
+        g = self.group[which]
+        o = self.ocs
+        wcs = p[:, 0:1] * o.ax[g] + p[:, 1:2] * o.ay[g] + p[:, 2:3] * o.az[g]
+        return np.where(o.plain[g][:, None], p, wcs)
+
+
+def _polyline_3d(seg: _Segments, location: FloatArray, own: IntArray, ents: IntArray, closed: NDArray[np.bool_]
+                 ) -> None:
+    """Straight pieces between consecutive vertices of 3-D polylines (closing piece when closed)."""
+    pick = np.isin(own, ents)
+    pts, o = location[pick], own[pick]
+    group = np.searchsorted(ents, o)
+    counts = np.bincount(group, minlength=len(ents))
+    first = _starts(counts)
+    nxt = np.arange(len(pts)) + 1
+    last = first + counts - 1
+    nxt[last] = first
+    use = np.ones(len(pts), dtype=bool)
+    use[last[~closed]] = False
+    i = np.flatnonzero(use)
+    seg.lines.append((pts[i], pts[nxt[i]], o[i]))
+
+
+def _add_pieces(seg: _Segments, ctrl: FloatArray, weights: FloatArray, ents: IntArray, degree: int) -> None:
+    """Bézier pieces as the collector's ``add_bezier`` takes them: degree 1 with equal weights is a line."""
+    if degree == 1:
+        line = weights[:, 0] == weights[:, 1]
+        seg.lines.append((ctrl[line, 0], ctrl[line, 1], ents[line]))
+        ctrl, weights, ents = ctrl[~line], weights[~line], ents[~line]
+        if not len(ents):
+            return
+    seg.beziers.setdefault(degree, []).append((ctrl, weights, ents))
+
+
+def _own_lines(lines: Lines, rows: IntArray) -> Lines:
+    pick, local = _local(lines.entity, rows)
+    return Lines(take_rows(lines.p0, pick), take_rows(lines.p1, pick), local)
+
+
+def _own_arcs(arcs: EllipticArcs, rows: IntArray) -> EllipticArcs:
+    pick, local = _local(arcs.entity, rows)
+    return EllipticArcs(take_rows(arcs.center, pick), take_rows(arcs.u, pick), take_rows(arcs.v, pick),
+                        arcs.t0[pick], arcs.t1[pick], local)
+
+
+def _own_beziers(b: Beziers, rows: IntArray) -> Beziers:
+    pick, local = _local(b.entity, rows)
+    return Beziers(take_rows(b.ctrl, pick), take_rows(b.weights, pick), local)
+
+
+def _local(entity: IntArray, rows: IntArray) -> tuple[IntArray, IntArray]:
+    """Segments (sorted by entity number) whose entity is one of ``rows`` (sorted), and their row number."""
+    lo = np.searchsorted(entity, rows[0]) if len(rows) else 0
+    hi = np.searchsorted(entity, rows[-1], side="right") if len(rows) else 0
+    pick = np.arange(lo, hi)
+    local = np.searchsorted(rows, entity[pick])
+    inside = (local < len(rows)) & (rows[np.minimum(local, len(rows) - 1)] == entity[pick])
+    return pick[inside], local[inside].astype(np.int64)
+

@@ -1,0 +1,425 @@
+"""DXF importer through ezdxf's document model: model space -> :class:`~pathlen.geometry.Drawing` in millimetres.
+
+One small handler per entity type (``HANDLERS``).  Blocks are imported once
+each into their own coordinates and placed by every INSERT as whole arrays.
+Entities on layer "0" inside a block take the layer of the INSERT placing it.
+"""
+
+from __future__ import annotations
+
+import io
+import itertools
+import logging
+import math
+import re
+import struct
+from collections.abc import Callable
+from dataclasses import dataclass
+from pathlib import Path
+
+import ezdxf
+import numpy as np
+from ezdxf import recover as ezdxf_recover
+from ezdxf.entities import DXFGraphic, Insert
+from ezdxf.lldxf.const import DXFError
+
+from pathlen.errors import InputError
+from pathlen.geometry import Drawing, SegmentCollector
+from pathlen.importers.dxf_units import in_millimetres, unit_of_code
+from pathlen.importers.nurbs import SplineError, bezier_pieces
+
+#: Sections of a DXF file (DXF reference, "DXF Files"); any other name is a damaged file.
+KNOWN_SECTIONS = frozenset({"HEADER", "CLASSES", "TABLES", "BLOCKS", "ENTITIES", "OBJECTS", "THUMBNAILIMAGE",
+                            "ACDSDATA"})
+#: The header given to a file that has none, so that its entities are read with every group code
+#: (ezdxf reads a header-less file as R12 and drops what R12 did not have).  No $INSUNITS: unitless.
+MINIMAL_HEADER = "  0\nSECTION\n  2\nHEADER\n  9\n$ACADVER\n  1\nAC1027\n  0\nENDSEC\n"
+TWO_PI = 2.0 * math.pi
+
+
+def read_dxf(path: Path, drawing_units: str | None = None, recover: bool = False,
+             hidden_layers: bool = False) -> Drawing:
+    """Read a DXF file's model space.
+
+    ``drawing_units`` (a key of ``MM_PER_UNIT``) overrides ``$INSUNITS``; without either the
+    drawing is taken as millimetres, with a warning.  A damaged file is refused unless
+    ``recover``.  Entities on layers that are off or frozen are marked hidden (measured only
+    with ``hidden_layers``: the caller decides).  ezdxf's own log messages become warnings.
+    """
+    return dxf_drawing(load_dxf(path, recover), drawing_units, hidden_layers)
+
+
+@dataclass
+class LoadedDxf:
+    """A DXF document as loaded, with what loading had to say."""
+
+    doc: ezdxf.document.Drawing
+    notes: list[str]
+    recovered: bool
+
+
+def load_dxf(path: Path, recover: bool = False) -> LoadedDxf:
+    """Load the document (refusing a damaged one unless ``recover``); ezdxf's log lines become notes."""
+    with _LogCapture() as log:
+        doc, notes, recovered = _load(path, recover)
+    return LoadedDxf(doc, [*notes, *log.messages], recovered)
+
+
+def dxf_drawing(loaded: LoadedDxf, drawing_units: str | None = None, hidden_layers: bool = False) -> Drawing:
+    """The model space of a loaded document as a Drawing in millimetres (see :func:`read_dxf`)."""
+    doc = loaded.doc
+    with _LogCapture() as log:
+        hidden = frozenset() if hidden_layers else _hidden_layers(doc)
+        importer = _DxfImporter(doc, hidden)
+        coll = SegmentCollector(hidden)
+        coll.warn(*loaded.notes)
+        for entity in doc.modelspace():
+            importer.add(entity, coll)
+        drawing = coll.drawing()
+    drawing.warnings.extend(m for m in log.messages if m not in drawing.warnings)
+    drawing.recovered = loaded.recovered
+    return in_millimetres(drawing, *drawing_unit(doc, drawing_units))
+
+
+class _LogCapture(logging.Handler):
+    """ezdxf's log records of WARNING and above, as one-line warnings of this file (not printed)."""
+
+    def __init__(self) -> None:
+        super().__init__(logging.WARNING)
+        self.messages: list[str] = []
+
+    def emit(self, record: logging.LogRecord) -> None:
+        text = _first_line(Exception(record.getMessage()))
+        message = f"DXF reader: {text}"
+        if message not in self.messages and len(self.messages) < 20:
+            self.messages.append(message)
+
+    def __enter__(self) -> _LogCapture:
+        self.logger = logging.getLogger("ezdxf")
+        self.saved = self.logger.propagate
+        self.logger.addHandler(self)
+        self.logger.propagate = False
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.logger.removeHandler(self)
+        self.logger.propagate = self.saved
+
+
+#: What ezdxf raises on files it cannot make sense of (besides OSError).
+_UNREADABLE = (DXFError, UnicodeError, ValueError, TypeError, IndexError, KeyError, OverflowError, AttributeError,
+               StopIteration, struct.error, EOFError)
+
+
+def _load(path: Path, recover: bool) -> tuple[ezdxf.document.Drawing, list[str], bool]:
+    """The document, notes for the report, and whether structural recovery was needed."""
+    try:
+        doc = _read_whole(path)
+        damage = _damage(doc)
+    except OSError as exc:
+        if exc.strerror:
+            raise InputError(f"cannot read file: {exc.strerror}") from None
+        raise InputError("not a DXF file (no DXF structure found)") from None
+    except _UNREADABLE as exc:
+        damage = _plain_reason(exc)
+    if damage is None:
+        return doc, [], False
+    if not recover:
+        raise InputError(f"DXF damaged: {damage}; --recover measures what can be read")
+    try:
+        doc, auditor = ezdxf_recover.readfile(path)
+    except (*_UNREADABLE, OSError) as exc:
+        raise InputError(f"DXF structure not readable: {_plain_reason(exc)}") from None
+    fixes = len(auditor.fixes) + len(auditor.errors)
+    return doc, [f"damaged DXF read by structural recovery ({damage}; {fixes} repairs): check the result"], True
+
+
+def _read_whole(path: Path) -> ezdxf.document.Drawing:
+    """ezdxf's reading, except that a text file without a HEADER section gets a minimal one."""
+    with path.open("rb") as fh:
+        head = fh.read(65536)
+    if not head.strip():
+        raise InputError("empty file")
+    binary = head.startswith(b"AutoCAD Binary DXF")
+    if not binary and _SECTION.search(head) is None:
+        raise InputError("not a DXF file (no DXF structure found)")
+    if binary or _HEADER_SECTION.search(head) is not None:
+        return ezdxf.readfile(path)
+    raw = path.read_bytes()
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError:
+        text = raw.decode("cp1252", errors="replace")
+    return ezdxf.read(io.StringIO(MINIMAL_HEADER + text.lstrip("\ufeff")))
+
+
+_HEADER_SECTION = re.compile(rb"(?m)^[ \t]*0[ \t]*\r?\n[ \t]*SECTION[ \t]*\r?\n"
+                             rb"[ \t]*2[ \t]*\r?\n[ \t]*HEADER[ \t]*\r?$")
+
+
+_SECTION = re.compile(rb"(?m)^[ \t]*0[ \t]*\r?\n[ \t]*SECTION[ \t]*\r?$")
+
+
+def _damage(doc: ezdxf.document.Drawing) -> str | None:
+    """What is wrong with a document ezdxf read without complaint, or None."""
+    unknown = sorted({str(s.entities[0][1].value) for s in doc.stored_sections
+                      if s.entities and len(s.entities[0]) > 1} - KNOWN_SECTIONS)
+    if unknown:
+        return f"unknown section {', '.join(repr(u[:40]) for u in unknown)} (a misspelt ENTITIES?)"
+    return None
+
+
+def _plain_reason(exc: BaseException) -> str:
+    """ezdxf's reason for refusing a file, in words a shop user can act on."""
+    if isinstance(exc, StopIteration | EOFError | struct.error):
+        return "the file ends early (truncated?)"
+    if isinstance(exc, UnicodeError):
+        return "text in an encoding that cannot be decoded"
+    if isinstance(exc, DXFError):
+        text = _first_line(exc).removeprefix(f"{type(exc).__name__}: ").rstrip(".")
+        return text + ("; file truncated?" if "missing" in text.lower() or "EOF" in text else "")
+    return "not a DXF structure that can be read (truncated or damaged?)"
+
+
+def _first_line(exc: BaseException) -> str:
+    text = str(exc).strip().splitlines()
+    return text[0][:200] if text else type(exc).__name__
+
+
+def _hidden_layers(doc: ezdxf.document.Drawing) -> frozenset[str]:
+    """Layers switched off or frozen in the layer table (DXF reference, LAYER: negative colour = off,
+    flag 1 = frozen)."""
+    out = set()
+    for layer in doc.layers:
+        try:
+            if layer.is_off() or layer.is_frozen():
+                out.add(layer.dxf.name)
+        except (AttributeError, ValueError, TypeError):
+            continue
+    return frozenset(out)
+
+
+def drawing_unit(doc: ezdxf.document.Drawing, drawing_units: str | None = None) -> tuple[str, str | None]:
+    """The unit of the drawing's coordinates (``drawing_units`` over ``$INSUNITS``) and a warning when
+    it had to be taken as mm."""
+    if drawing_units:
+        return drawing_units, None
+    return unit_of_code(int(doc.header.get("$INSUNITS", 0) or 0))
+
+
+class _DxfImporter:
+    """Walks entities, caching each block's geometry by name."""
+
+    def __init__(self, doc: ezdxf.document.Drawing, hidden: frozenset[str] = frozenset()) -> None:
+        self.doc = doc
+        self.hidden = hidden
+        self.blocks: dict[str, Drawing] = {}
+        self.open_blocks: list[str] = []
+
+    def add(self, entity: DXFGraphic, coll: SegmentCollector) -> None:
+        """One entity into ``coll``; an entity whose data cannot be used is skipped with a warning."""
+        kind = entity.dxftype()
+        handler = HANDLERS.get(kind)
+        if handler is None and kind != "INSERT":
+            coll.skipped[kind] += 1
+            return
+        try:
+            if kind == "INSERT":
+                self.add_insert(entity, coll)  # type: ignore[arg-type]
+            else:
+                handler(entity, coll)  # type: ignore[misc]
+        except (SplineError, DXFError, ValueError, TypeError, AttributeError, IndexError, KeyError,
+                ZeroDivisionError, OverflowError) as exc:
+            coll.warn(f"{kind} #{entity.dxf.handle} skipped: {_first_line(exc)}")
+
+    def add_insert(self, insert: Insert, coll: SegmentCollector) -> None:
+        """Place the block once per INSERT (a MINSERT as one placement with a grid); its geometry is
+        read once per block name, never copied."""
+        name = insert.dxf.name
+        block = self.block(name, coll)
+        if block is None:
+            return
+        layer = insert.dxf.layer
+        rows = np.array(list(insert.matrix44().rows()), dtype=float)
+        if not np.all(np.isfinite(rows)):
+            coll.warn(f"INSERT #{insert.dxf.handle} of block {name!r} skipped: non-finite insertion point, "
+                      "scale or rotation")
+            return
+        coll.add_placement(block, rows.T, (name, layer), lambda lay: layer if lay == "0" else lay,
+                           f"{name}/", _minsert_grid(insert))
+
+    def block(self, name: str, coll: SegmentCollector) -> Drawing | None:
+        if name in self.blocks:
+            return self.blocks[name]
+        if name in self.open_blocks:
+            chain = [*self.open_blocks[self.open_blocks.index(name):], name]
+            steps = ", ".join(f"{a!r} inserts {b!r}" for a, b in itertools.pairwise(chain))
+            raise InputError(f"block cycle: {steps}; a block cannot contain itself")
+        layout = self.doc.blocks.get(name)
+        if layout is None:
+            coll.warn(f"block {name!r} is not defined: INSERT skipped")
+            return None
+        self.open_blocks.append(name)
+        sub = SegmentCollector(self.hidden)
+        for entity in layout:
+            self.add(entity, sub)
+        self.open_blocks.pop()
+        self.blocks[name] = sub.drawing()
+        return self.blocks[name]
+
+
+def _minsert_grid(insert: Insert) -> tuple[int, int, np.ndarray, np.ndarray] | None:
+    """A MINSERT's grid in WCS (rows, columns, row step, column step), or None for one copy.
+
+    As the DXF reference and ezdxf's ``multi_insert`` have it: steps along the block's rotated
+    OCS axes, not scaled; a zero spacing puts every copy of that direction in one place (drawn once).
+    """
+    rows, cols = int(insert.dxf.row_count), int(insert.dxf.column_count)
+    dy, dx = float(insert.dxf.row_spacing), float(insert.dxf.column_spacing)
+    rows, cols = (max(rows, 0) if dy else min(rows, 1)), (max(cols, 0) if dx else min(cols, 1))
+    if rows * cols == 1:
+        return None
+    ocs = insert.ocs()
+    angle = math.radians(insert.dxf.rotation)
+    c, s = math.cos(angle), math.sin(angle)
+    row_step = np.array(ocs.to_wcs((-s * dy, c * dy, 0.0)).xyz, dtype=float)
+    col_step = np.array(ocs.to_wcs((c * dx, s * dx, 0.0)).xyz, dtype=float)
+    return rows, cols, row_step, col_step
+
+
+def _entity(e: DXFGraphic, coll: SegmentCollector) -> int:
+    return coll.entity(e.dxf.layer, e.dxf.handle or "", e.dxftype())
+
+
+def _line(e: DXFGraphic, coll: SegmentCollector) -> None:
+    coll.add_line(e.dxf.start.xyz, e.dxf.end.xyz, _entity(e, coll))
+
+
+def _circle_arc(e: DXFGraphic, coll: SegmentCollector, t0: float, t1: float) -> None:
+    r = float(e.dxf.radius)
+    if not r > 0:
+        raise ValueError(f"radius {r} is not positive")
+    ocs = e.ocs()
+    center = ocs.to_wcs(e.dxf.center).xyz
+    u = (ocs.to_wcs((r, 0, 0))).xyz
+    v = (ocs.to_wcs((0, r, 0))).xyz
+    coll.add_arc(center, u, v, t0, t1, _entity(e, coll))
+
+
+def _circle(e: DXFGraphic, coll: SegmentCollector) -> None:
+    _circle_arc(e, coll, 0.0, TWO_PI)
+
+
+def _arc(e: DXFGraphic, coll: SegmentCollector) -> None:
+    t0 = math.radians(e.dxf.start_angle) % TWO_PI
+    t1 = math.radians(e.dxf.end_angle) % TWO_PI
+    if t1 <= t0:
+        t1 += TWO_PI
+    _circle_arc(e, coll, t0, t1)
+
+
+def _ellipse(e: DXFGraphic, coll: SegmentCollector) -> None:
+    t0 = float(e.dxf.start_param)
+    t1 = float(e.dxf.end_param)
+    if abs((t1 - t0) - TWO_PI) > 1e-12:  # not a whole turn: normalise like an arc
+        t0 %= TWO_PI
+        t1 %= TWO_PI
+        if t1 <= t0:
+            t1 += TWO_PI
+    coll.add_arc(e.dxf.center.xyz, e.dxf.major_axis.xyz, e.minor_axis.xyz, t0, t1, _entity(e, coll))
+
+
+def _bulged_path(points: list[tuple[float, float, float]], bulges: list[float], closed: bool,
+                 ocs, coll: SegmentCollector, ent: int) -> None:
+    """Lines and bulge arcs between OCS vertices ``points`` (x, y, elevation)."""
+    count = len(points)
+    last = count if closed else count - 1
+    plain = not ocs.transform  # default extrusion: OCS is WCS, no conversions needed
+
+    def to_wcs(p: tuple[float, float, float]) -> tuple[float, float, float]:
+        return p if plain else ocs.to_wcs(p).xyz
+
+    wcs = [to_wcs(p) for p in points]
+    for i in range(last):
+        j = (i + 1) % count
+        b = bulges[i]
+        (x0, y0, z), (x1, y1, _) = points[i], points[j]
+        dx, dy = x1 - x0, y1 - y0
+        if dx == 0.0 and dy == 0.0:
+            continue  # repeated vertex: nothing to measure
+        if b == 0.0:
+            coll.add_line(wcs[i], wcs[j], ent)
+            continue
+        # bulge b = tan(theta/4); centre = midpoint + left normal·(1 - b²)/(4b)
+        k = (1.0 - b * b) / (4.0 * b)
+        cx, cy = 0.5 * (x0 + x1) - dy * k, 0.5 * (y0 + y1) + dx * k
+        ux, uy = x0 - cx, y0 - cy
+        vx, vy = (-uy, ux) if b > 0 else (uy, -ux)
+        theta = 4.0 * math.atan(abs(b))
+        coll.add_arc(to_wcs((cx, cy, z)), to_wcs((ux, uy, 0.0)), to_wcs((vx, vy, 0.0)), 0.0, theta, ent)
+
+
+def _lwpolyline(e: DXFGraphic, coll: SegmentCollector) -> None:
+    pts = list(e.lwpoints)  # (x, y, start width, end width, bulge)
+    if len(pts) < 2:
+        coll.warn(f"LWPOLYLINE #{e.dxf.handle} has {len(pts)} vertices: nothing to measure")
+        return
+    z = float(e.dxf.elevation)
+    ent = _entity(e, coll)
+    coll.entities[ent].loop = bool(e.closed)
+    _bulged_path([(p[0], p[1], z) for p in pts], [float(p[4]) for p in pts], bool(e.closed), e.ocs(), coll, ent)
+
+
+def _polyline(e: DXFGraphic, coll: SegmentCollector) -> None:
+    if e.is_polygon_mesh or e.is_poly_face_mesh:
+        coll.skipped["POLYLINE mesh"] += 1
+        return
+    verts = [v for v in e.vertices if not v.dxf.flags & 16]  # 16: spline frame control point
+    if len(verts) < 2:
+        coll.warn(f"POLYLINE #{e.dxf.handle} has {len(verts)} vertices: nothing to measure")
+        return
+    ent = _entity(e, coll)
+    coll.entities[ent].loop = bool(e.is_closed)
+    if e.is_3d_polyline:
+        pts = [v.dxf.location.xyz for v in verts]
+        if e.is_closed:
+            pts.append(pts[0])
+        coll.add_polyline(pts, ent)
+        return
+    z = float(e.dxf.elevation.z)
+    pts = [(v.dxf.location.x, v.dxf.location.y, z) for v in verts]
+    _bulged_path(pts, [float(v.dxf.bulge) for v in verts], bool(e.is_closed), e.ocs(), coll, ent)
+
+
+def _spline(e: DXFGraphic, coll: SegmentCollector) -> None:
+    if e.control_point_count():
+        ctrl = np.array(e.control_points, dtype=float)
+        knots = np.array(e.knots, dtype=float)
+        weights = np.array(e.weights, dtype=float) if len(e.weights) else None
+        degree = int(e.dxf.degree)
+    elif e.fit_point_count():
+        tool = e.construction_tool()
+        ctrl = np.array(tool.control_points, dtype=float)
+        knots = np.array(tool.knots(), dtype=float)
+        weights = np.array(tool.weights(), dtype=float) if tool.is_rational else None
+        degree = tool.degree
+        coll.warn("SPLINE given by fit points only: curve reconstructed by ezdxf's fit-point "
+                  "interpolation, which may differ from the drawing program's")
+    else:
+        raise ValueError("no control or fit points")
+    ent = _entity(e, coll)
+    pieces, piece_w = bezier_pieces(ctrl, knots, degree, weights)
+    rational = weights is not None and np.ptp(weights) > 0
+    for c, w in zip(pieces, piece_w, strict=False):
+        coll.add_bezier(c, w if rational else None, ent)
+
+
+HANDLERS: dict[str, Callable[[DXFGraphic, SegmentCollector], None]] = {
+    "LINE": _line,
+    "CIRCLE": _circle,
+    "ARC": _arc,
+    "ELLIPSE": _ellipse,
+    "LWPOLYLINE": _lwpolyline,
+    "POLYLINE": _polyline,
+    "SPLINE": _spline,
+}

@@ -1,0 +1,211 @@
+"""Where each entity of a tag table belongs: sections, tables, blocks, model space, linked entities.
+
+Entities are the runs of tags that begin with a code-0 tag.  :func:`layout` walks those runs once, in
+Python over the code-0 tags only, and checks the file has the plain structure ezdxf reads without a
+word: known sections once each, ``BLOCK ... ENDBLK`` pairs, ``POLYLINE`` followed by ``VERTEX``
+entities and ``SEQEND``, ``INSERT`` with attributes followed by ``ATTRIB`` entities and ``SEQEND``,
+unique hexadecimal handles.  Anything else raises :class:`~pathlen.importers.dxf_tags.NotPlain`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+from numpy.typing import NDArray
+
+from pathlen.importers.dxf_tags import NotPlain, TagTable
+
+#: Entity kinds pathlen measures (the same set as the ezdxf reader's handlers) and INSERT.
+MEASURED = frozenset({"LINE", "CIRCLE", "ARC", "ELLIPSE", "LWPOLYLINE", "POLYLINE", "SPLINE"})
+#: Kinds counted as "not measured" without reading them; any other kind sends the file to ezdxf.
+NOT_MEASURED = frozenset({"TEXT", "MTEXT", "POINT", "HATCH", "DIMENSION", "ATTDEF", "SOLID", "TRACE", "3DFACE",
+                          "LEADER", "VIEWPORT", "XLINE", "RAY"})
+#: Section names ezdxf reads (DXF reference, "DXF Files").
+SECTIONS = frozenset({"HEADER", "CLASSES", "TABLES", "BLOCKS", "ENTITIES", "OBJECTS", "THUMBNAILIMAGE", "ACDSDATA"})
+
+
+@dataclass
+class Block:
+    """A block definition: name, the tag index of its BLOCK entity, and its entities (entity numbers)."""
+
+    name: str
+    head: int
+    entities: list[int] = field(default_factory=list)
+
+
+@dataclass
+class Layout:
+    """The file's structure, by entity number (``first_tag[n]`` is entity ``n``'s code-0 tag)."""
+
+    first_tag: NDArray[np.int64]
+    #: entity number of every tag
+    owner: NDArray[np.int32]
+    kinds: list[str]
+    header: int
+    entities: list[int]
+    blocks: list[Block]
+    layer_entries: list[int]
+    block_records: list[int]
+    vertices: dict[int, list[int]]
+    attributed: set[int]
+
+
+
+def layout(tags: TagTable) -> Layout:
+    """Walk the code-0 tags of ``tags`` (see the module docstring)."""
+    first = np.flatnonzero(tags.codes == 0)
+    if len(first) == 0 or first[0] != 0:
+        raise NotPlain("tags before the first entity")
+    kinds = tags.texts(first)
+    owner = np.zeros(len(tags), dtype=np.int32)
+    owner[first[1:]] = 1
+    owner = np.cumsum(owner, dtype=np.int32)
+    follows = _attribs_follow(tags, owner)
+    out = Layout(first, owner, kinds, -1, [], [], [], [], {}, set())
+    seen: set[str] = set()
+    i, n = 0, len(kinds)
+    while i < n:
+        if kinds[i] != "SECTION":
+            raise NotPlain(f"{kinds[i][:20]!r} outside a section")
+        name = _section_name(tags, first, i)
+        if name not in SECTIONS or name in seen:
+            raise NotPlain(f"section {name[:20]!r}")
+        seen.add(name)
+        end = i + 1
+        while end < n and kinds[end] not in ("ENDSEC", "SECTION"):
+            end += 1
+        if end == n or kinds[end] != "ENDSEC":
+            raise NotPlain("a section without ENDSEC")
+        body = range(i + 1, end)
+        if name in ("HEADER", "CLASSES") and any(kinds[e] != "CLASS" for e in body):
+            raise NotPlain(f"an entity {kinds[body[0]][:20]!r} in the {name} section")
+        if name == "HEADER":
+            out.header = i
+        elif name == "TABLES":
+            _tables(tags, first, kinds, body, out)
+        elif name == "BLOCKS":
+            _blocks(tags, first, kinds, body, follows, out)
+        elif name == "ENTITIES":
+            out.entities = _graphics(kinds, body, follows, out)
+        i = end + 1
+    if out.header < 0:
+        raise NotPlain("no HEADER section")
+    _check_handles(tags, owner, kinds)
+    return out
+
+
+def _section_name(tags: TagTable, first: NDArray[np.int64], i: int) -> str:
+    start = first[i]
+    stop = first[i + 1] if i + 1 < len(first) else len(tags)
+    if start + 1 >= stop or tags.codes[start + 1] != 2:
+        raise NotPlain("a section without a name")
+    return tags.text(start + 1)
+
+
+def _tables(tags: TagTable, first: NDArray[np.int64], kinds: list[str], body: range, out: Layout) -> None:
+    table = ""
+    for e in body:
+        kind = kinds[e]
+        if kind == "TABLE":
+            head = first[e]
+            table = tags.text(head + 1) if tags.codes[head + 1] == 2 else ""
+        elif kind == "ENDTAB":
+            table = ""
+        elif not table or kind != table:
+            raise NotPlain(f"{kind[:20]!r} in table {table!r}")
+        elif kind == "LAYER":
+            out.layer_entries.append(e)
+        elif kind == "BLOCK_RECORD":
+            out.block_records.append(e)
+
+
+def _blocks(tags: TagTable, first: NDArray[np.int64], kinds: list[str], body: range, follows: dict[int, bool],
+            out: Layout) -> None:
+    block: Block | None = None
+    members: list[int] = []
+    for e in body:
+        kind = kinds[e]
+        if kind == "BLOCK":
+            if block is not None:
+                raise NotPlain("BLOCK without ENDBLK")
+            block = Block("", e)
+            members = []
+        elif kind == "ENDBLK":
+            if block is None:
+                raise NotPlain("ENDBLK without BLOCK")
+            block.entities = members
+            out.blocks.append(block)
+            block = None
+        elif block is None:
+            raise NotPlain("an entity outside a block")
+        else:
+            members.append(e)
+    if block is not None:
+        raise NotPlain("BLOCK without ENDBLK")
+    for b in out.blocks:
+        b.entities = _graphics(kinds, b.entities, follows, out)
+
+
+def _graphics(kinds: list[str], members, follows: dict[int, bool], out: Layout) -> list[int]:
+    """The main entities among ``members`` (consecutive entity numbers), linking VERTEX and ATTRIB runs."""
+    main: list[int] = []
+    members = list(members)
+    k, n = 0, len(members)
+    while k < n:
+        e = members[k]
+        kind = kinds[e]
+        if kind in ("POLYLINE", "INSERT") and (kind == "POLYLINE" or follows.get(e, False)):
+            child = "VERTEX" if kind == "POLYLINE" else "ATTRIB"
+            run = []
+            k += 1
+            while k < n and kinds[members[k]] == child:
+                run.append(members[k])
+                k += 1
+            if k == n or kinds[members[k]] != "SEQEND":
+                raise NotPlain(f"{kind} without SEQEND")
+            if kind == "POLYLINE":
+                out.vertices[e] = run
+            else:
+                out.attributed.add(e)
+        elif kind not in MEASURED and kind not in NOT_MEASURED and kind != "INSERT":
+            raise NotPlain(f"entity kind {kind[:20]!r}")
+        main.append(e)
+        k += 1
+    return main
+
+
+def _attribs_follow(tags: TagTable, owner: NDArray[np.int32]) -> dict[int, bool]:
+    """Entities whose group code 66 says attributes (or vertices) follow."""
+    sixty_six = np.flatnonzero(tags.codes == 66)
+    owners = owner[sixty_six]
+    return {int(e): bool(v) for e, v in zip(owners.tolist(), tags.number[sixty_six].tolist(), strict=True)}
+
+
+HEX = np.zeros(256, dtype=bool)
+for _c in b"0123456789abcdefABCDEF":
+    HEX[_c] = True
+
+
+def _check_handles(tags: TagTable, owner_of: NDArray[np.int32], kinds: list[str]) -> None:
+    """Every handle (group code 5; 105 for DIMSTYLE) hexadecimal, one per entity, unique in the file:
+    ezdxf warns about or replaces anything else."""
+    five = np.flatnonzero(tags.codes == 5)
+    dimstyles = np.array([k == "DIMSTYLE" for k in kinds], dtype=bool)
+    five = five[~dimstyles[owner_of[five]]]
+    one_oh_five = np.flatnonzero(tags.codes == 105)
+    one_oh_five = one_oh_five[dimstyles[owner_of[one_oh_five]]]
+    handles = np.concatenate((five, one_oh_five))
+    if len(np.unique(owner_of[handles])) != len(handles):
+        raise NotPlain("an entity with two handles")
+    width = tags.end[handles] - tags.start[handles]
+    if len(handles) and (width.max() > 16 or width.min() < 1):
+        raise NotPlain("a handle of unusual width")
+    buf = np.frombuffer(tags.data, dtype=np.uint8)
+    idx = tags.start[handles][:, None] + np.arange(16)
+    inside = idx < tags.end[handles][:, None]
+    chars = np.where(inside, buf[np.clip(idx, 0, len(buf) - 1)], 0).astype(np.uint8)
+    if not np.all(HEX[chars] | ~inside):
+        raise NotPlain("a handle that is not hexadecimal")
+    if len(np.unique(chars.view("S16").ravel())) != len(handles):
+        raise NotPlain("a handle used twice")

@@ -1,0 +1,188 @@
+"""A text DXF file's tag stream as arrays: group codes, value positions and numbers, parsed in bulk.
+
+A DXF file is a sequence of tags, each two lines: a group code (an integer) and a value whose type the
+code fixes (DXF reference, "Group Code Value Types").  Here the whole file is one ``bytes`` object and
+every tag is a row of arrays: ``codes[i]``, the value's byte range ``[start[i], end[i])`` and, for the
+numeric codes pathlen reads, ``number[i]`` (NaN otherwise).  Nothing is made per tag in Python.
+
+Anything outside the plain form (a binary DXF, a byte-order mark, a lone carriage return, a group code
+that is not digits after optional spaces, an unreadable number, no EOF) raises :class:`NotPlain`: the
+caller reads such a file with ezdxf instead, which knows every odd form and its error messages.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import NDArray
+
+#: Group codes with numeric values (DXF reference, "Group Code Value Types"; the ranges ezdxf converts):
+#: every one must be a number, as ezdxf refuses the file otherwise.
+NUMERIC_CODES = np.zeros(1072, dtype=bool)
+for _lo, _hi in ((10, 59), (110, 149), (210, 239), (460, 469), (1010, 1059),  # floats
+                 (60, 79), (90, 99), (160, 179), (270, 299), (370, 389), (400, 409), (420, 429), (440, 459),
+                 (1060, 1071)):  # integers
+    NUMERIC_CODES[_lo:_hi + 1] = True
+#: Codes of a point's x; its y (code + 10) must follow.
+POINT_CODES = np.array([10, 11, 12, 13, 14, 15, 16, 17, 18, 110, 111, 112, 210, 211, 212, 213,
+                        1010, 1011, 1012, 1013])
+#: Codes of binary chunks: hexadecimal digits in pairs.
+BINARY_CODES = np.array([310, 311, 312, 313, 314, 315, 316, 317, 318, 319, 1004])
+_HEX_LINE = re.compile(rb"(?:[0-9A-Fa-f]{2})*")
+
+#: Longest group-code line (spaces and digits) and numeric value read in bulk; longer ones are parsed one by one.
+CODE_WIDTH = 6
+NUMBER_WIDTH = 32
+#: Tags handled per numpy pass (bounds the temporary arrays: CHUNK x NUMBER_WIDTH bytes).
+CHUNK = 1 << 18
+
+_NUMBER_BYTES = np.zeros(256, dtype=bool)
+for _c in b"0123456789+-.eE ":
+    _NUMBER_BYTES[_c] = True
+
+
+class NotPlain(Exception):
+    """The file is not in the plain form the bulk reader takes; the reason says why."""
+
+
+@dataclass
+class TagTable:
+    """Tags ``0 .. len-1`` of a DXF file up to (not including) its EOF tag."""
+
+    data: bytes
+    codes: NDArray[np.int32]
+    start: NDArray[np.int64]
+    end: NDArray[np.int64]
+    number: NDArray[np.float64]
+
+    def __len__(self) -> int:
+        return len(self.codes)
+
+    def text(self, i: int) -> str:
+        """Value of tag ``i`` as text (ASCII; anything else raises :class:`NotPlain`)."""
+        raw = self.data[self.start[i]:self.end[i]]
+        if not raw.isascii():
+            raise NotPlain("text that is not ASCII")
+        return raw.decode("ascii")
+
+    def texts(self, index: NDArray[np.int64]) -> list[str]:
+        """Values of the tags ``index`` as text, decoded once per distinct value."""
+        data, start, end = self.data, self.start, self.end
+        seen: dict[bytes, str] = {}
+        out = []
+        for s, e in zip(start[index].tolist(), end[index].tolist(), strict=True):
+            raw = data[s:e]
+            value = seen.get(raw)
+            if value is None:
+                if not raw.isascii():
+                    raise NotPlain("text that is not ASCII")
+                value = seen[raw] = raw.decode("ascii")
+            out.append(value)
+        return out
+
+
+def parse_tags(data: bytes) -> TagTable:
+    """The tag table of a text DXF file's bytes; :class:`NotPlain` for any other form."""
+    if data.startswith(b"AutoCAD Binary DXF"):
+        raise NotPlain("binary DXF")
+    if data.startswith(b"\xef\xbb\xbf"):
+        raise NotPlain("byte-order mark")
+    buf = np.frombuffer(data, dtype=np.uint8)
+    newline = np.flatnonzero(buf == 10)
+    returns = int(np.count_nonzero(buf == 13))
+    line_end = newline.copy()
+    if returns:
+        crlf = buf[np.maximum(newline - 1, 0)] == 13
+        if int(np.count_nonzero(crlf)) != returns:
+            raise NotPlain("a carriage return that does not end a line")
+        line_end -= crlf
+    line_start = np.concatenate(([0], newline + 1))
+    if line_start[-1] < len(buf):  # last line without a newline
+        line_end = np.concatenate((line_end, [len(buf)]))
+    else:
+        line_start = line_start[:-1]
+    pairs = len(line_start) // 2
+    code_start, code_end = line_start[0:2 * pairs:2], line_end[0:2 * pairs:2]
+    value_start, value_end = line_start[1:2 * pairs:2], line_end[1:2 * pairs:2]
+    codes = _group_codes(buf, code_start, code_end)
+    eof = _eof_index(data, codes, value_start, value_end)
+    codes, value_start, value_end = codes[:eof], value_start[:eof], value_end[:eof]
+    if np.any(codes < 0):
+        raise NotPlain("a group code that is not a plain integer")
+    _check_points_and_binary(data, codes, value_start, value_end)
+    return TagTable(data, codes, value_start, value_end, _numbers(buf, data, codes, value_start, value_end))
+
+
+def _check_points_and_binary(data: bytes, codes: NDArray[np.int32], start: NDArray[np.int64],
+                             end: NDArray[np.int64]) -> None:
+    """A point's x followed by its y; binary chunks in hexadecimal: ezdxf's tag compiler refuses others."""
+    x = np.flatnonzero(np.isin(codes, POINT_CODES))
+    if len(x) and (x[-1] + 1 >= len(codes) or np.any(codes[np.minimum(x + 1, len(codes) - 1)] != codes[x] + 10)):
+        raise NotPlain("a point without its y")
+    for i in np.flatnonzero(np.isin(codes, BINARY_CODES)).tolist():
+        if _HEX_LINE.fullmatch(data, start[i], end[i]) is None:
+            raise NotPlain("binary data that is not hexadecimal")
+
+
+def _group_codes(buf: NDArray[np.uint8], start: NDArray[np.int64], end: NDArray[np.int64]) -> NDArray[np.int32]:
+    """Integer group codes; -1 where the line is not optional spaces followed by digits."""
+    out = np.full(len(start), -1, dtype=np.int32)
+    offsets = np.arange(CODE_WIDTH)
+    powers = 10 ** np.arange(CODE_WIDTH - 1, -1, -1, dtype=np.int32)
+    for lo in range(0, len(start), CHUNK):
+        s, e = start[lo:lo + CHUNK], end[lo:lo + CHUNK]
+        short = (e - s <= CODE_WIDTH) & (e > s)
+        idx = e[:, None] - CODE_WIDTH + offsets
+        inside = idx >= s[:, None]
+        chars = np.where(inside, buf[np.clip(idx, 0, len(buf) - 1)], 32).astype(np.int32)
+        digit = (chars >= 48) & (chars <= 57)
+        # spaces then digits: once a digit is seen every later byte is a digit; at least one digit
+        monotone = np.all(digit[:, 1:] >= digit[:, :-1], axis=1) & digit[:, -1]
+        spaces_only = np.all(digit | (chars == 32), axis=1)
+        value = (np.where(digit, chars - 48, 0) * powers).sum(axis=1)
+        ok = short & monotone & spaces_only
+        out[lo:lo + CHUNK] = np.where(ok, value, -1)
+    return out
+
+
+def _eof_index(data: bytes, codes: NDArray[np.int32], start: NDArray[np.int64], end: NDArray[np.int64]) -> int:
+    """Index of the first (0, "EOF") tag: ezdxf reads nothing after it."""
+    for i in np.flatnonzero(codes == 0)[::-1][:1].tolist():
+        if data[start[i]:end[i]] == b"EOF":
+            # the last code-0 tag is EOF; make sure there is no earlier one
+            zero = np.flatnonzero(codes[:i] == 0)
+            width = end[zero] - start[zero]
+            for j in zero[width == 3].tolist():
+                if data[start[j]:end[j]] == b"EOF":
+                    raise NotPlain("more than one EOF")
+            if i != len(codes) - 1:
+                raise NotPlain("tags after EOF")
+            return i
+    raise NotPlain("no EOF tag")
+
+
+def _numbers(buf: NDArray[np.uint8], data: bytes, codes: NDArray[np.int32], start: NDArray[np.int64],
+             end: NDArray[np.int64]) -> NDArray[np.float64]:
+    """Values of the numeric codes as floats (NaN for other tags), parsed as Python's float() does."""
+    number = np.full(len(codes), np.nan)
+    numeric = np.flatnonzero(NUMERIC_CODES[np.minimum(codes, len(NUMERIC_CODES) - 1)])
+    offsets = np.arange(NUMBER_WIDTH)
+    for lo in range(0, len(numeric), CHUNK):
+        rows = numeric[lo:lo + CHUNK]
+        s, e = start[rows], end[rows]
+        wide = e - s > NUMBER_WIDTH
+        idx = s[:, None] + offsets
+        inside = idx < e[:, None]
+        chars = np.where(inside, buf[np.clip(idx, 0, len(buf) - 1)], 0).astype(np.uint8)
+        if not np.all(_NUMBER_BYTES[chars] | ~inside):
+            raise NotPlain("a number with characters other than digits, sign, point and exponent")
+        try:
+            values = chars.view(f"S{NUMBER_WIDTH}").ravel().astype(np.float64)
+            for k in np.flatnonzero(wide).tolist():
+                values[k] = float(data[s[k]:e[k]])
+        except ValueError:
+            raise NotPlain("a number that cannot be read") from None
+        number[rows] = values
+    return number

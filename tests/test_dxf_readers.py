@@ -1,0 +1,189 @@
+"""The bulk DXF reader against ezdxf's document model: the same drawing from the same file.
+
+Reference: ezdxf (a general-purpose DXF library) read through pathlen's ezdxf reader, which the rest
+of the suite checks against closed forms.  Files come from three places: every DXF the rest of the
+suite read (recorded by tests/conftest.py), random drawings written by ezdxf (hypothesis), and
+damaged copies of those, where both paths must take the same decision.
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import ezdxf
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from pathlen.errors import InputError
+from pathlen.importers.dxf import read_bulk, read_dxf
+from pathlen.importers.dxf_ezdxf import read_dxf as read_with_ezdxf
+from tests.conftest import DXF_RECORD
+from tests.dxf_compare import assert_same_drawing, compare_readers
+
+FIXTURES = Path(__file__).parent.parent / "fixtures"
+
+coord = st.floats(-500, 500, allow_nan=False, allow_infinity=False)
+point = st.tuples(coord, coord)
+extrusion = st.sampled_from([(0, 0, 1), (0, 0, -1), (0.3, -0.2, 0.9), (0.001, 0.002, 1.0), (1, 0, 0)])
+
+
+@st.composite
+def drawings(draw) -> tuple[str, int]:
+    """A random R2010 or R12 drawing of every kind pathlen measures, with blocks, layers and paper space."""
+    version = draw(st.sampled_from(["R2010", "R2000", "R12"]))
+    doc = ezdxf.new(version)
+    units = draw(st.sampled_from([0, 1, 4, 6]))
+    if version != "R12":
+        doc.header["$INSUNITS"] = units
+    for name, off, frozen in (("CUT", False, False), ("ETCH", True, False), ("NOTES", False, True)):
+        layer = doc.layers.add(name)
+        if off:
+            layer.off()
+        if frozen:
+            layer.freeze()
+    block = doc.blocks.new(name=draw(st.sampled_from(["HOLE", "Slot 6", "tab"])), base_point=(*draw(point), 0))
+    _add_entities(draw, block, version, depth=0)
+    nested = doc.blocks.new(name="ASSEMBLY")
+    nested.add_blockref(block.name, draw(point), dxfattribs={"layer": "0"})
+    nested.add_line((0, 0), (10, 0), dxfattribs={"layer": "0"})
+    msp = doc.modelspace()
+    _add_entities(draw, msp, version, depth=1)
+    for _ in range(draw(st.integers(0, 3))):
+        ref = msp.add_blockref(draw(st.sampled_from([block.name, block.name.upper(), "ASSEMBLY"])), draw(point),
+                               dxfattribs={"layer": draw(st.sampled_from(["0", "CUT", "ETCH"])),
+                                           "rotation": draw(st.floats(-400, 400)),
+                                           "xscale": draw(st.sampled_from([1, 2, -1, 0.5])),
+                                           "yscale": draw(st.sampled_from([1, 3, -1])),
+                                           "extrusion": draw(extrusion)})
+        if version != "R12" and draw(st.booleans()):
+            ref.dxf.row_count, ref.dxf.column_count = draw(st.integers(1, 3)), draw(st.integers(1, 3))
+            ref.dxf.row_spacing, ref.dxf.column_spacing = draw(st.sampled_from([0, 7.5])), 12.0
+    doc.layout("Layout1").add_line((0, 0), (99, 99))  # paper space: not measured
+    return doc, version
+
+
+def _add_entities(draw, space, version: str, depth: int) -> None:
+    layer = st.sampled_from(["0", "CUT", "ETCH", "NOTES"])
+    for kind in draw(st.lists(st.sampled_from(["line", "circle", "arc", "ellipse", "lw", "poly2d", "poly3d",
+                                               "spline", "fit", "text", "point"]), min_size=1, max_size=9)):
+        attribs = {"layer": draw(layer)}
+        if kind == "line":
+            space.add_line(draw(point), draw(point), dxfattribs=attribs)
+        elif kind == "circle":
+            space.add_circle(draw(point), draw(st.floats(0.01, 100)),
+                             dxfattribs={**attribs, "extrusion": draw(extrusion)})
+        elif kind == "arc":
+            angles = st.floats(-720, 720)
+            space.add_arc(draw(point), draw(st.floats(0.01, 100)), draw(angles), draw(angles),
+                          dxfattribs={**attribs, "extrusion": draw(extrusion)})
+        elif kind == "ellipse" and version != "R12":
+            start = draw(st.floats(0, 2 * math.pi))
+            end = draw(st.one_of(st.just(start + 2 * math.pi), st.floats(-7, 7)))
+            space.add_ellipse(draw(point), major_axis=(draw(st.floats(1, 50)), draw(coord), 0),
+                              ratio=draw(st.floats(0.05, 1)), start_param=start, end_param=end, dxfattribs=attribs)
+        elif kind == "lw" and version != "R12":
+            pts = draw(st.lists(st.tuples(coord, coord, st.sampled_from([0, 0, 0.5, -1, 2.5])), min_size=2, max_size=6))
+            space.add_lwpolyline(pts, format="xyb", close=draw(st.booleans()),
+                                 dxfattribs={**attribs, "elevation": draw(coord), "extrusion": draw(extrusion)})
+        elif kind == "poly2d":
+            pts = draw(st.lists(point, min_size=2, max_size=5))
+            pl = space.add_polyline2d(pts, close=draw(st.booleans()),
+                                      dxfattribs={**attribs, "extrusion": draw(extrusion)})
+            for v in pl.vertices:
+                v.dxf.bulge = draw(st.sampled_from([0, 0.3, -0.7]))
+        elif kind == "poly3d":
+            pts = draw(st.lists(st.tuples(coord, coord, coord), min_size=2, max_size=5))
+            space.add_polyline3d(pts, close=draw(st.booleans()), dxfattribs=attribs)
+        elif kind == "spline" and version != "R12":
+            count = draw(st.integers(4, 9))
+            pts = [(*draw(point), 0) for _ in range(count)]
+            if draw(st.booleans()):
+                space.add_rational_spline(pts, [draw(st.floats(0.2, 5)) for _ in pts], degree=3, dxfattribs=attribs)
+            else:
+                space.add_open_spline(pts, degree=draw(st.integers(1, 3)), dxfattribs=attribs)
+        elif kind == "fit" and version != "R12":
+            xs = draw(st.lists(st.integers(-50, 50), min_size=3, max_size=6, unique=True))
+            # distinct fit points: a curve ezdxf can fit
+            pts = [(10.0 * x, draw(st.integers(-50, 50)) * 7.0, 0) for x in sorted(xs)]
+            spline = space.add_spline(pts, dxfattribs=attribs)
+            if draw(st.booleans()):
+                spline.dxf.start_tangent, spline.dxf.end_tangent = (1, 0, 0), (0, 1, 0)
+        elif kind == "text":
+            space.add_text("KL-330 <panel>", dxfattribs=attribs)
+        elif kind == "point":
+            space.add_point(draw(point), dxfattribs=attribs)
+
+
+@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(drawing=drawings(), hidden=st.booleans())
+def test_random_drawings_read_the_same(tmp_path: Path, drawing, hidden: bool) -> None:
+    doc, _version = drawing
+    path = tmp_path / "random.dxf"
+    doc.saveas(path)
+    assert compare_readers(path, hidden_layers=hidden, require_bulk=True)
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(drawing=drawings(), cut=st.floats(0.05, 0.999), mutation=st.sampled_from(["truncate", "swap", "code", "junk"]),
+       seed=st.integers(0, 10**6))
+def test_damaged_files_take_the_same_decision(tmp_path: Path, drawing, cut: float, mutation: str, seed: int) -> None:
+    """Whatever the bulk path decides (read, decline, refuse), the result is the ezdxf path's."""
+    doc, _version = drawing
+    path = tmp_path / "damaged.dxf"
+    doc.saveas(path)
+    lines = path.read_text().splitlines()
+    k = int(cut * (len(lines) - 2))
+    if mutation == "truncate":
+        lines = lines[:k]
+    elif mutation == "swap":
+        lines[k], lines[k + 1] = lines[k + 1], lines[k]
+    elif mutation == "code":
+        lines[k - k % 2] = str(seed % 1100)
+    else:
+        lines.insert(k, "§junk")
+    path.write_text("\n".join(lines) + "\n")
+    auto, reference = _outcome(read_dxf, path), _outcome(read_with_ezdxf, path)
+    if isinstance(reference, str) or isinstance(auto, str):
+        assert auto == reference
+    else:
+        assert_same_drawing(auto, reference, mutation)
+
+
+def _outcome(reader, path: Path):
+    try:
+        return reader(path)
+    except InputError as exc:
+        return str(exc)
+
+
+def test_shipped_drawings_are_read_by_the_bulk_reader() -> None:
+    """Every demo DXF goes the fast way and gives ezdxf's drawing."""
+    shipped = sorted(FIXTURES.rglob("*.dxf"))
+    assert shipped
+    for path in shipped:
+        assert compare_readers(path, require_bulk=True)
+
+
+def test_binary_and_unknown_kinds_go_to_ezdxf(tmp_path: Path) -> None:
+    doc = ezdxf.new("R2010", units=4)
+    doc.modelspace().add_line((0, 0), (3, 4))
+    binary = tmp_path / "binary.dxf"
+    doc.saveas(binary, fmt="bin")
+    assert read_bulk(binary) is None
+    assert math.isclose(read_dxf(binary).lines.p1[0][1], 4.0)
+    doc.modelspace().add_mline([(0, 0), (10, 0)])
+    text = tmp_path / "mline.dxf"
+    doc.saveas(text)
+    assert read_bulk(text) is None  # MLINE: not a kind the bulk reader knows
+    assert read_dxf(text).skipped["MLINE"] == 1
+
+
+def test_every_dxf_the_suite_read() -> None:
+    """Runs last (tests/conftest.py): every DXF file any other test read, through both readers."""
+    recorded = sorted(DXF_RECORD.glob("*.dxf"))
+    if len(recorded) < 20:
+        pytest.skip("run with the whole suite: only the other tests' files are checked here")
+    taken = sum(compare_readers(path) for path in recorded)
+    assert taken >= len(recorded) // 2, f"the bulk reader took only {taken} of {len(recorded)} files"
