@@ -12,7 +12,7 @@ from pathlib import Path
 
 from pathlen.geometry import Drawing
 from pathlen.importers.dxf_bulk import read_plain
-from pathlen.importers.dxf_tags import NotPlain
+from pathlen.importers.dxf_tags import NotPlain, read_padded
 from pathlen.importers.dxf_units import in_millimetres, unit_of_code
 
 
@@ -36,6 +36,6 @@ def read_dxf(path: Path, drawing_units: str | None = None, recover: bool = False
 def read_bulk(path: Path, hidden_layers: bool = False):
     """The bulk reader's result, or None when the file needs ezdxf (or cannot be read here)."""
     try:
-        return read_plain(path.read_bytes(), hidden_layers)
+        return read_plain(read_padded(path), hidden_layers)
     except (NotPlain, OSError):
         return None

@@ -52,7 +52,7 @@ class PlainDxf:
     insunits: int
 
 
-def read_plain(data: bytes, hidden_layers: bool = False) -> PlainDxf:
+def read_plain(data: bytes | bytearray, hidden_layers: bool = False) -> PlainDxf:
     """Read a text DXF file's model space from its bytes; raises NotPlain (read it with ezdxf)."""
     tags = parse_tags(data)
     lay = layout(tags)

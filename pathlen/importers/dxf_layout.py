@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.typing import NDArray
 
-from pathlen.importers.dxf_tags import NotPlain, TagTable
+from pathlen.importers.dxf_tags import NotPlain, TagTable, windows
 
 #: Entity kinds pathlen measures (the same set as the ezdxf reader's handlers) and INSERT.
 MEASURED = frozenset({"LINE", "CIRCLE", "ARC", "ELLIPSE", "LWPOLYLINE", "POLYLINE", "SPLINE"})
@@ -82,6 +82,7 @@ def layout(tags: TagTable) -> Layout:
             raise NotPlain(f"an entity {kinds[body[0]][:20]!r} in the {name} section")
         if name == "HEADER":
             out.header = i
+            _check_header(tags, int(first[i]) + 2, int(first[i + 1]) if i + 1 < n else len(tags))
         elif name == "TABLES":
             _tables(tags, first, kinds, body, out)
         elif name == "BLOCKS":
@@ -93,6 +94,22 @@ def layout(tags: TagTable) -> Layout:
         raise NotPlain("no HEADER section")
     _check_handles(tags, owner, kinds)
     return out
+
+
+def _check_header(tags: TagTable, start: int, stop: int) -> None:
+    """Header variables as ezdxf takes them: ``9 $NAME`` then one value, or a point's x, y (and z)."""
+    codes = tags.codes[start:stop]
+    nine = np.flatnonzero(codes == 9)
+    if len(codes) and (len(nine) == 0 or nine[0] != 0):
+        raise NotPlain("a header value without its variable name")
+    size = np.diff(np.append(nine, len(codes)))
+    if np.any((size < 2) | (size > 4)):
+        raise NotPlain("a header variable without one value")
+    for k in np.flatnonzero(size > 2).tolist():
+        x = int(codes[nine[k] + 1])
+        parts = codes[nine[k] + 1:nine[k] + size[k]].tolist()
+        if parts != [x, x + 10, x + 20][:len(parts)]:
+            raise NotPlain("a header variable with more than one value")
 
 
 def _section_name(tags: TagTable, first: NDArray[np.int64], i: int) -> str:
@@ -201,11 +218,8 @@ def _check_handles(tags: TagTable, owner_of: NDArray[np.int32], kinds: list[str]
     width = tags.end[handles] - tags.start[handles]
     if len(handles) and (width.max() > 16 or width.min() < 1):
         raise NotPlain("a handle of unusual width")
-    buf = np.frombuffer(tags.data, dtype=np.uint8)
-    idx = tags.start[handles][:, None] + np.arange(16)
-    inside = idx < tags.end[handles][:, None]
-    chars = np.where(inside, buf[np.clip(idx, 0, len(buf) - 1)], 0).astype(np.uint8)
-    if not np.all(HEX[chars] | ~inside):
+    chars = windows(tags.data, tags.start[handles], 16, width)
+    if not np.all(HEX[chars] | (chars == 0)):
         raise NotPlain("a handle that is not hexadecimal")
     if len(np.unique(chars.view("S16").ravel())) != len(handles):
         raise NotPlain("a handle used twice")

@@ -12,8 +12,10 @@ caller reads such a file with ezdxf instead, which knows every odd form and its 
 
 from __future__ import annotations
 
+import os
 import re
 from dataclasses import dataclass
+from pathlib import Path
 
 import numpy as np
 from numpy.typing import NDArray
@@ -35,6 +37,9 @@ _HEX_LINE = re.compile(rb"(?:[0-9A-Fa-f]{2})*")
 #: Longest group-code line (spaces and digits) and numeric value read in bulk; longer ones are parsed one by one.
 CODE_WIDTH = 6
 NUMBER_WIDTH = 32
+TEXT_WIDTH = 256
+#: Zero bytes after the file's bytes, for the widest window.
+PADDING = TEXT_WIDTH
 #: Tags handled per numpy pass (bounds the temporary arrays: CHUNK x NUMBER_WIDTH bytes).
 CHUNK = 1 << 18
 
@@ -51,7 +56,7 @@ class NotPlain(Exception):
 class TagTable:
     """Tags ``0 .. len-1`` of a DXF file up to (not including) its EOF tag."""
 
-    data: bytes
+    data: bytearray  # the file's bytes, then PADDING zero bytes
     codes: NDArray[np.int32]
     start: NDArray[np.int64]
     end: NDArray[np.int64]
@@ -68,45 +73,76 @@ class TagTable:
         return raw.decode("ascii")
 
     def texts(self, index: NDArray[np.int64]) -> list[str]:
-        """Values of the tags ``index`` as text, decoded once per distinct value."""
-        data, start, end = self.data, self.start, self.end
-        seen: dict[bytes, str] = {}
-        out = []
-        for s, e in zip(start[index].tolist(), end[index].tolist(), strict=True):
-            raw = data[s:e]
-            value = seen.get(raw)
-            if value is None:
-                if not raw.isascii():
-                    raise NotPlain("text that is not ASCII")
-                value = seen[raw] = raw.decode("ascii")
-            out.append(value)
-        return out
+        """Values of the tags ``index`` as text (ASCII; anything else raises :class:`NotPlain`)."""
+        index = np.asarray(index, dtype=np.int64)
+        if len(index) == 0:
+            return []
+        start, length = self.start[index], self.end[index] - self.start[index]
+        width = int(length.max())
+        if width > TEXT_WIDTH:
+            return [self.text(i) for i in index.tolist()]
+        chars = windows(self.data, start, max(width, 1), length)
+        if chars.max(initial=0) >= 128:
+            raise NotPlain("text that is not ASCII")
+        return chars.view(f"S{max(width, 1)}").ravel().astype(f"U{max(width, 1)}").tolist()
 
 
-def parse_tags(data: bytes) -> TagTable:
-    """The tag table of a text DXF file's bytes; :class:`NotPlain` for any other form."""
+def windows(data: bytearray, start: NDArray[np.int64], width: int, length: NDArray[np.int64] | None = None
+            ) -> NDArray[np.uint8]:
+    """``[n, width]`` bytes of ``data`` (padded: see :func:`read_padded`) from each ``start``; bytes at or
+    past ``length`` (per row) are 0."""
+    rows = np.lib.stride_tricks.sliding_window_view(np.frombuffer(data, dtype=np.uint8), width)[start]
+    if length is not None:
+        rows[np.arange(width) >= length[:, None]] = 0
+    return rows
+
+
+def read_padded(path: Path) -> bytearray:
+    """A file's bytes followed by :data:`PADDING` zero bytes (room for fixed-width windows at the end)."""
+    with path.open("rb") as fh:
+        size = os.fstat(fh.fileno()).st_size
+        data = bytearray(size + PADDING)
+        got = fh.readinto(memoryview(data)[:size])
+    if got != size:
+        raise OSError("file changed while reading")
+    return data
+
+
+def parse_tags(data: bytes | bytearray) -> TagTable:
+    """The tag table of a text DXF file's bytes; :class:`NotPlain` for any other form.  ``data`` from
+    :func:`read_padded` is used as it is; plain ``bytes`` are copied once with the padding."""
+    if isinstance(data, bytes):
+        data = bytearray(data + bytes(PADDING))
+    size = len(data) - PADDING
     if data.startswith(b"AutoCAD Binary DXF"):
         raise NotPlain("binary DXF")
     if data.startswith(b"\xef\xbb\xbf"):
         raise NotPlain("byte-order mark")
-    buf = np.frombuffer(data, dtype=np.uint8)
-    newline = np.flatnonzero(buf == 10)
+    buf = np.frombuffer(data, dtype=np.uint8, count=size)
+    position = np.int32 if size < 2**31 - PADDING else np.int64  # halves the position arrays of most files
+    newline = np.flatnonzero(buf == 10).astype(position)
     returns = int(np.count_nonzero(buf == 13))
-    line_end = newline.copy()
+    if newline.size == 0 or newline[-1] != size - 1:  # last line without a newline
+        newline = np.append(newline, position(size))
+    line_end = newline  # position of each line's end (its newline, or its carriage return)
     if returns:
         crlf = buf[np.maximum(newline - 1, 0)] == 13
         if int(np.count_nonzero(crlf)) != returns:
             raise NotPlain("a carriage return that does not end a line")
         line_end -= crlf
-    line_start = np.concatenate(([0], newline + 1))
-    if line_start[-1] < len(buf):  # last line without a newline
-        line_end = np.concatenate((line_end, [len(buf)]))
-    else:
-        line_start = line_start[:-1]
-    pairs = len(line_start) // 2
-    code_start, code_end = line_start[0:2 * pairs:2], line_end[0:2 * pairs:2]
-    value_start, value_end = line_start[1:2 * pairs:2], line_end[1:2 * pairs:2]
-    codes = _group_codes(buf, code_start, code_end)
+        del crlf
+    pairs = len(line_end) // 2
+    code_end, value_end = line_end[0:2 * pairs:2].copy(), line_end[1:2 * pairs:2].copy()
+    value_start = newline[0:2 * pairs:2] + 1  # a value line starts after its code line's newline
+    if returns:
+        value_start += buf[code_end] == 13
+    code_start = np.empty_like(value_start)
+    code_start[0] = 0
+    code_start[1:] = newline[1:2 * pairs - 1:2] + 1
+    if returns:
+        code_start[1:] += buf[value_end[:-1]] == 13
+    del newline, line_end
+    codes = _group_codes(data, code_start, code_end)
     eof = _eof_index(data, codes, value_start, value_end)
     codes, value_start, value_end = codes[:eof], value_start[:eof], value_end[:eof]
     if np.any(codes < 0):
@@ -126,24 +162,25 @@ def _check_points_and_binary(data: bytes, codes: NDArray[np.int32], start: NDArr
             raise NotPlain("binary data that is not hexadecimal")
 
 
-def _group_codes(buf: NDArray[np.uint8], start: NDArray[np.int64], end: NDArray[np.int64]) -> NDArray[np.int32]:
+def _group_codes(data: bytearray, start: NDArray[np.int64], end: NDArray[np.int64]) -> NDArray[np.int32]:
     """Integer group codes; -1 where the line is not optional spaces followed by digits."""
     out = np.full(len(start), -1, dtype=np.int32)
-    offsets = np.arange(CODE_WIDTH)
     powers = 10 ** np.arange(CODE_WIDTH - 1, -1, -1, dtype=np.int32)
     for lo in range(0, len(start), CHUNK):
         s, e = start[lo:lo + CHUNK], end[lo:lo + CHUNK]
-        short = (e - s <= CODE_WIDTH) & (e > s)
-        idx = e[:, None] - CODE_WIDTH + offsets
-        inside = idx >= s[:, None]
-        chars = np.where(inside, buf[np.clip(idx, 0, len(buf) - 1)], 32).astype(np.int32)
+        length = e - s
+        chars = windows(data, np.maximum(e - CODE_WIDTH, 0), CODE_WIDTH)  # the bytes before each line end
+        chars[np.arange(CODE_WIDTH - 1, -1, -1) >= length[:, None]] = 32
         digit = (chars >= 48) & (chars <= 57)
         # spaces then digits: once a digit is seen every later byte is a digit; at least one digit
         monotone = np.all(digit[:, 1:] >= digit[:, :-1], axis=1) & digit[:, -1]
         spaces_only = np.all(digit | (chars == 32), axis=1)
-        value = (np.where(digit, chars - 48, 0) * powers).sum(axis=1)
-        ok = short & monotone & spaces_only
+        value = ((chars.astype(np.int32) - 48) * digit * powers).sum(axis=1)
+        ok = (length <= CODE_WIDTH) & (length > 0) & monotone & spaces_only
         out[lo:lo + CHUNK] = np.where(ok, value, -1)
+        for k in np.flatnonzero(e < CODE_WIDTH).tolist():  # a line near the start of the file
+            text = bytes(data[s[k]:e[k]])
+            out[lo + k] = int(text) if text.lstrip(b" ").isdigit() else -1
     return out
 
 
@@ -168,15 +205,12 @@ def _numbers(buf: NDArray[np.uint8], data: bytes, codes: NDArray[np.int32], star
     """Values of the numeric codes as floats (NaN for other tags), parsed as Python's float() does."""
     number = np.full(len(codes), np.nan)
     numeric = np.flatnonzero(NUMERIC_CODES[np.minimum(codes, len(NUMERIC_CODES) - 1)])
-    offsets = np.arange(NUMBER_WIDTH)
     for lo in range(0, len(numeric), CHUNK):
         rows = numeric[lo:lo + CHUNK]
         s, e = start[rows], end[rows]
         wide = e - s > NUMBER_WIDTH
-        idx = s[:, None] + offsets
-        inside = idx < e[:, None]
-        chars = np.where(inside, buf[np.clip(idx, 0, len(buf) - 1)], 0).astype(np.uint8)
-        if not np.all(_NUMBER_BYTES[chars] | ~inside):
+        chars = windows(data, s, NUMBER_WIDTH, e - s)
+        if not np.all(_NUMBER_BYTES[chars] | (chars == 0)):
             raise NotPlain("a number with characters other than digits, sign, point and exponent")
         try:
             values = chars.view(f"S{NUMBER_WIDTH}").ravel().astype(np.float64)
