@@ -51,6 +51,7 @@ class Reading:
     limits: Limits
     strict: bool
     report: str | None = None
+    scheduler: str | None = None  # Dask scheduler address: run the batch on that cluster
 
     def files(self) -> list[str]:
         """The drawing files named or found in folders; a usage error when there are none."""
@@ -82,7 +83,7 @@ def reading_options(paths_required: bool = True, units: tuple[str, ...] = OUTPUT
 
 _READING_KEYS = ("paths", "fmt", "output", "units", "rtol", "drawing_units", "svg_dpi", "join_tol", "jobs",
                  "max_segments", "timeout", "max_memory", "strict", "recover", "hidden_layers", "svg_language",
-                 "report")
+                 "report", "scheduler")
 
 
 Decorator = Callable[[Callable[..., Any]], Callable[..., Any]]
@@ -124,6 +125,9 @@ def _reading_options(paths_required: bool, units: tuple[str, ...]) -> list[Decor
                           "de-CH; default from the environment, named in the report when used)."),
         click.option("--report", type=click.Path(dir_okay=False), default=None, metavar="FILE.html",
                      help="Also write a one-file HTML report (totals, tables, pictures, cautions)."),
+        click.option("--scheduler", metavar="tcp://HOST:8786", default=None,
+                     help="Run the batch on a Dask cluster (pip install 'pathlen[cluster]'); its workers read the "
+                          "files from a folder shared at the same path."),
         click.option("--hidden-layers", is_flag=True,
                      help="Measure DXF layers that are switched off or frozen too (left out by default)."),
     ]
@@ -131,7 +135,8 @@ def _reading_options(paths_required: bool, units: tuple[str, ...]) -> list[Decor
 
 def _reading(paths: tuple[str, ...], fmt: str, output: str | None, units: str, rtol: float, drawing_units: str | None,
              svg_dpi: float | None, join_tol: float, jobs: int, max_segments: int, timeout: float, max_memory: int,
-             strict: bool, recover: bool, hidden_layers: bool, svg_language: str | None, report: str | None) -> Reading:
+             strict: bool, recover: bool, hidden_layers: bool, svg_language: str | None, report: str | None,
+             scheduler: str | None) -> Reading:
     if not 0 < rtol < 1:
         raise click.BadParameter("must lie between 0 and 1", param_hint="--rtol")
     if not join_tol >= 0:
@@ -141,7 +146,7 @@ def _reading(paths: tuple[str, ...], fmt: str, output: str | None, units: str, r
             raise click.BadParameter(f"folder {str(Path(target).parent)!r} does not exist", param_hint=name)
     return Reading(paths, fmt, output, units, rtol, join_tol, jobs,
                    ImportOptions(drawing_units, svg_dpi, recover, hidden_layers, svg_language), max_segments,
-                   Limits(timeout, max_memory), strict, report)
+                   Limits(timeout, max_memory), strict, report, scheduler)
 
 
 def drawing_files(paths: tuple[str, ...]) -> list[str]:
@@ -191,23 +196,45 @@ def collect(files: list[str], settings: Any, reading: Reading, work: Callable[[s
     with ``--strict`` a file with warnings fails, its first warning as the reason."""
     results: list[Any] = [None] * len(files)
     console = Console(stderr=True)
-    batch = run_batch(files, settings, reading.jobs, work, failed, reading.limits)
+    client = None
+    if reading.scheduler:
+        from pathlen.cluster import ClusterError, connect, run_on_cluster
+
+        try:
+            client = connect(reading.scheduler)
+        except ClusterError as exc:
+            raise click.UsageError(str(exc)) from None
+        batch = run_on_cluster(client, files, settings, work, failed, reading.limits)
+    else:
+        batch = run_batch(files, settings, reading.jobs, work, failed, reading.limits)
     if console.is_terminal and len(files) > 1:
-        columns = (TextColumn(verb), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn())
+        columns = (TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn())
         with Progress(*columns, console=console, transient=True) as bar:
             task = bar.add_task(verb, total=len(files))
             for i, r in batch:
                 results[i] = r
-                bar.advance(task)
+                bar.update(task, advance=1, description=_doing(verb, client))
     else:
         for i, r in batch:
             results[i] = r
+    if client is not None:
+        client.close()
     done = [r for r in results if r is not None]
     if reading.strict:
         for r in done:
             if r.ok and r.warnings:
                 r.ok, r.error = False, f"warning taken as an error (--strict): {r.warnings[0]}"
     return done
+
+
+def _doing(verb: str, client: Any) -> str:
+    """The progress line's words: on a cluster, how many of its workers are busy."""
+    if client is None:
+        return verb
+    from pathlen.cluster import busy_workers
+
+    busy, workers = busy_workers(client)
+    return f"{verb} ({busy} of {workers} workers busy)"
 
 
 def write_atomic(path: str, text: str) -> None:

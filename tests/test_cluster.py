@@ -1,0 +1,93 @@
+"""Batches on a Dask cluster: a real scheduler and two worker processes on the loopback interface.
+
+Reference: the local batch (pathlen's own worker processes), which the rest of the suite checks
+against closed forms; a cluster run must give the same JSON document, file for file.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import shutil
+import signal
+from pathlib import Path
+
+import pytest
+from distributed import Client, LocalCluster
+
+from pathlen.batch import FileResult, Limits, MeasureSettings, measure_file
+from pathlen.cli import main
+from pathlen.cluster import run_on_cluster
+
+FIXTURES = Path(__file__).parent.parent / "fixtures"
+
+
+@pytest.fixture(scope="module")
+def cluster():
+    with LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
+                      dashboard_address=None) as local:
+        yield local
+
+
+@pytest.fixture
+def batch(tmp_path: Path) -> Path:
+    """The demo drawings, twice over, with a damaged DXF, a text file posing as SVG and an empty DXF."""
+    for k in range(2):
+        for f in FIXTURES.glob("*.*"):
+            if f.suffix in (".dxf", ".svg"):
+                shutil.copy(f, tmp_path / f"{k}_{f.name}")
+    (tmp_path / "broken.dxf").write_text("  0\nSECTION\n  2\nENTITIES\n  0\nLINE\n 10\n")
+    (tmp_path / "notes.svg").write_text("these are not the drawings you are looking for")
+    (tmp_path / "empty.dxf").write_bytes(b"")
+    return tmp_path
+
+
+def _document(runner, args: list[str]) -> tuple[int, dict]:
+    res = runner.invoke(main, args)
+    return res.exit_code, json.loads(res.stdout)
+
+
+def test_cluster_batch_gives_the_local_json(runner, cluster, batch: Path) -> None:
+    files = sorted(str(p) for p in batch.iterdir())
+    local_code, local = _document(runner, ["measure", "--format", "json", *files])
+    remote_code, remote = _document(runner, ["measure", "--format", "json", "--scheduler", cluster.scheduler_address,
+                                             *files])
+    assert local_code == remote_code == 1  # the bad files fail, the others are measured
+    assert remote == local
+    failed = [f["path"] for f in remote["files"] if not f["ok"]]
+    assert sorted(Path(p).name for p in failed) == ["broken.dxf", "empty.dxf", "notes.svg"]
+
+
+def test_cut_on_the_cluster_matches_local(runner, cluster, batch: Path) -> None:
+    files = sorted(str(p) for p in batch.glob("*kl101*"))
+    args = ["cut", "--profile", "steel-3mm-laser", "--format", "json"]
+    local = _document(runner, [*args, *files])
+    remote = _document(runner, [*args, "--scheduler", cluster.scheduler_address, *files])
+    assert local[0] == 0
+    assert remote == local
+
+
+def test_killed_worker_every_file_answered_once(cluster, batch: Path) -> None:
+    files = sorted(str(p) for p in batch.iterdir()) * 3
+    settings = MeasureSettings()
+    expected = {i: measure_file(p, settings) for i, p in enumerate(files)}
+    with Client(cluster.scheduler_address, set_as_default=False) as client:
+        results = {}
+        killed = False
+        for i, result in run_on_cluster(client, files, settings, measure_file, FileResult, Limits()):
+            assert i not in results  # answered once
+            results[i] = result
+            if not killed:
+                pids = client.run(os.getpid)
+                os.kill(next(iter(pids.values())), signal.SIGKILL)  # one worker dies mid-batch
+                killed = True
+    assert killed and sorted(results) == list(range(len(files)))
+    for i, result in results.items():
+        assert (result.ok, result.error, result.length_mm) == (expected[i].ok, expected[i].error,
+                                                                expected[i].length_mm), files[i]
+
+
+def test_unreachable_scheduler_is_a_usage_error(runner) -> None:
+    res = runner.invoke(main, ["measure", "--scheduler", "tcp://127.0.0.1:9", str(FIXTURES / "kl101_bracket.dxf")])
+    assert res.exit_code == 2
+    assert "cannot reach the Dask scheduler" in res.output
