@@ -132,6 +132,8 @@ def parse_tags(data: bytes | bytearray) -> TagTable:
         line_end -= crlf
         del crlf
     pairs = len(line_end) // 2
+    if pairs == 0:
+        raise NotPlain("no tags")
     code_end, value_end = line_end[0:2 * pairs:2].copy(), line_end[1:2 * pairs:2].copy()
     value_start = newline[0:2 * pairs:2] + 1  # a value line starts after its code line's newline
     if returns:
