@@ -65,5 +65,11 @@ def compare_readers(path: Path, hidden_layers: bool = False, require_bulk: bool 
                 raise AssertionError(f"{path}: the bulk reader declined it: {why}") from None
         return False
     bulk = in_millimetres(plain.drawing, *unit_of_code(plain.insunits))
-    assert_same_drawing(bulk, read_with_ezdxf(path, None, False, hidden_layers), str(path))
+    try:
+        reference = read_with_ezdxf(path, None, False, hidden_layers)
+    except InputError:
+        if require_bulk:
+            raise
+        return False  # known gap: some damaged files ezdxf refuses are read by the bulk reader (opt-in for now)
+    assert_same_drawing(bulk, reference, str(path))
     return True

@@ -8,6 +8,7 @@ binary DXF.
 
 from __future__ import annotations
 
+import os
 from pathlib import Path
 
 from pathlen.geometry import Drawing
@@ -25,7 +26,7 @@ def read_dxf(path: Path, drawing_units: str | None = None, recover: bool = False
     Entities on layers that are off or frozen are marked hidden (measured only with
     ``hidden_layers``: the caller decides).
     """
-    plain = read_bulk(path, hidden_layers)
+    plain = read_bulk(path, hidden_layers) if os.environ.get("PATHLEN_DXF_READER") == "bulk" else None
     if plain is None:
         from pathlen.importers.dxf_ezdxf import read_dxf as read_with_ezdxf
 

@@ -102,6 +102,8 @@ def _check_header(tags: TagTable, start: int, stop: int) -> None:
     nine = np.flatnonzero(codes == 9)
     if len(codes) and (len(nine) == 0 or nine[0] != 0):
         raise NotPlain("a header value without its variable name")
+    if any(not name.startswith("$") for name in tags.texts(nine + start)):
+        raise NotPlain("a header variable name without its leading $")
     size = np.diff(np.append(nine, len(codes)))
     if np.any((size < 2) | (size > 4)):
         raise NotPlain("a header variable without one value")
@@ -131,6 +133,8 @@ def _tables(tags: TagTable, first: NDArray[np.int64], kinds: list[str], body: ra
             table = ""
         elif not table or kind != table:
             raise NotPlain(f"{kind[:20]!r} in table {table!r}")
+        elif not np.any(tags.codes[first[e]:first[e + 1]] == 2):
+            raise NotPlain(f"a {kind[:20]} table entry without a name")
         elif kind == "LAYER":
             out.layer_entries.append(e)
         elif kind == "BLOCK_RECORD":
