@@ -211,9 +211,10 @@ def collect(files: list[str], settings: Any, reading: Reading, work: Callable[[s
         columns = (TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn())
         with Progress(*columns, console=console, transient=True) as bar:
             task = bar.add_task(verb, total=len(files))
+            doing = _Doing(verb, client)
             for i, r in batch:
                 results[i] = r
-                bar.update(task, advance=1, description=_doing(verb, client))
+                bar.update(task, advance=1, description=doing())
     else:
         for i, r in batch:
             results[i] = r
@@ -227,14 +228,23 @@ def collect(files: list[str], settings: Any, reading: Reading, work: Callable[[s
     return done
 
 
-def _doing(verb: str, client: Any) -> str:
-    """The progress line's words: on a cluster, how many of its workers are busy."""
-    if client is None:
-        return verb
-    from pathlen.cluster import busy_workers
+class _Doing:
+    """The progress line's words: on a cluster, how many of its workers are busy (asked of the scheduler
+    at most every ``every_s`` seconds, not once per file)."""
 
-    busy, workers = busy_workers(client)
-    return f"{verb} ({busy} of {workers} workers busy)"
+    def __init__(self, verb: str, client: Any, every_s: float = 1.0) -> None:
+        self.verb, self.client, self.every_s = verb, client, every_s
+        self.text, self.asked = verb, -math.inf
+
+    def __call__(self) -> str:
+        import time
+
+        if self.client is not None and time.monotonic() - self.asked >= self.every_s:
+            from pathlen.cluster import busy_workers
+
+            busy, workers = busy_workers(self.client)
+            self.text, self.asked = f"{self.verb} ({busy} of {workers} workers busy)", time.monotonic()
+        return self.text
 
 
 def write_atomic(path: str, text: str) -> None:

@@ -20,7 +20,6 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from pathlen.errors import InputError
 from pathlen.geometry import (
     Beziers,
     Drawing,
@@ -32,6 +31,7 @@ from pathlen.geometry import (
     SegmentCollector,
     take_rows,
 )
+from pathlen.importers.dxf_blocks import BlockCache, place_insert
 from pathlen.importers.dxf_fields import Fields
 from pathlen.importers.dxf_layout import MEASURED, Layout, layout
 from pathlen.importers.dxf_tags import NotPlain, TagTable, parse_tags
@@ -91,9 +91,8 @@ class _Reader:
         self.hidden = frozenset() if hidden_layers else self._hidden_layers()
         self.insunits = self._insunits()
         self.spaces = self._spaces()
-        self.blocks_by_key = {b.name.lower(): b for b in lay.blocks}
-        self.block_drawings: dict[str, Drawing] = {}
-        self.open_blocks: list[str] = []
+        self.block_index = {b.name.lower(): k for k, b in enumerate(lay.blocks)}
+        self.blocks = BlockCache(self._build_block)
         self.skipped_rows: dict[int, str] = {}
         self.fit_splines: set[int] = set()
         self.loops: set[int] = set()
@@ -170,6 +169,7 @@ class _Reader:
         self._polylines(seg)
         self._splines(seg)
         self.segments = seg
+        self._inserts()
         measured = np.concatenate([v for k, v in self.by_kind.items() if k != "INSERT"])
         rows = np.setdiff1d(measured, np.array(sorted(self.skipped_rows), dtype=np.int64))
         self.row_entities = rows  # entities that get an entity row, file order
@@ -396,63 +396,54 @@ class _Reader:
         return drawing
 
     def _insert(self, e: int, coll: SegmentCollector) -> None:
-        one = np.array([e], dtype=np.int64)
-        name = self.f.text(2, one)[0]
-        block = self._block(name, coll)
+        k = self.insert_row[e]
+        name = self.insert_name[k]
+        block = self.blocks.get(name, coll)
         if block is None:
             return
-        layer = self.f.text(8, one, "0")[0]
-        matrix, grid = self._insert_matrix(e, self.blocks_by_key[name.lower()].head)
-        if not np.all(np.isfinite(matrix)):
-            handle = self.f.text(5, one)[0]
-            coll.warn(f"INSERT #{handle} of block {name!r} skipped: non-finite insertion point, scale or rotation")
-            return
-        coll.add_placement(block, matrix, (name, layer), lambda lay: layer if lay == "0" else lay, f"{name}/", grid)
+        rows, cols = int(self.insert_grid[k, 0]), int(self.insert_grid[k, 1])
+        grid = None if rows * cols == 1 else (rows, cols, self.insert_steps[k, 0], self.insert_steps[k, 1])
+        place_insert(coll, block, self.insert_matrix[k], name, self.insert_layer[k], self.insert_handle[k], grid)
 
-    def _block(self, name: str, coll: SegmentCollector) -> Drawing | None:
-        if name in self.block_drawings:
-            return self.block_drawings[name]
-        if name in self.open_blocks:
-            chain = [*self.open_blocks[self.open_blocks.index(name):], name]
-            steps = ", ".join(f"{a!r} inserts {b!r}" for a, b in itertools.pairwise(chain))
-            raise InputError(f"block cycle: {steps}; a block cannot contain itself")
-        block = self.blocks_by_key.get(name.lower())
-        if block is None:
-            coll.warn(f"block {name!r} is not defined: INSERT skipped")
-            return None
-        self.open_blocks.append(name)
-        drawing = self._space_drawing(self.lay.blocks.index(block))
-        self.open_blocks.pop()
-        self.block_drawings[name] = drawing
-        return drawing
+    def _build_block(self, name: str) -> Drawing | None:
+        k = self.block_index.get(name.lower())
+        return None if k is None else self._space_drawing(k)
 
-    def _insert_matrix(self, e: int, block_head: int) -> tuple[FloatArray, tuple | None]:
-        """The INSERT's 4x4 map (column convention) as ezdxf's ``Insert.matrix44`` builds it, and its grid."""
-        f, one = self.f, np.array([e], dtype=np.int64)
-        scale = [float(f.number(c, one, 1.0)[0]) for c in (41, 42, 43)]
-        angle = math.radians(float(f.number(50, one, 0.0)[0]))
-        ocs = self._ocs_to_wcs(one)
-        ax, ay, az = ocs.axes()
-        c, s = math.cos(angle), math.sin(angle)
-        linear = np.empty((3, 3))
-        # ezdxf: ucs(ux*sx, uy*sy, uz*sz) then a rotation about uz: columns are the images of x, y, z
-        linear[:, 0] = (ax * c + ay * s) * scale[0]
-        linear[:, 1] = (ay * c - ax * s) * scale[1]
-        linear[:, 2] = az * scale[2]
-        insert = ocs.points(f.point(10, one, (0.0, 0.0, 0.0)))[0]
-        base = f.point(10, np.array([block_head], dtype=np.int64), (0.0, 0.0, 0.0))[0]
-        matrix = np.eye(4)
-        matrix[:3, :3] = linear
-        matrix[:3, 3] = insert - linear @ base
-        cols, rows = int(f.integer(70, one, 1)[0]), int(f.integer(71, one, 1)[0])
-        dx, dy = float(f.number(44, one, 0.0)[0]), float(f.number(45, one, 0.0)[0])
-        rows, cols = (max(rows, 0) if dy else min(rows, 1)), (max(cols, 0) if dx else min(cols, 1))
-        grid = None
-        if rows * cols != 1:
-            row_step = ocs.points(np.array([[-s * dy, c * dy, 0.0]]))[0]
-            col_step = ocs.points(np.array([[c * dx, s * dx, 0.0]]))[0]
-            grid = (rows, cols, row_step, col_step)
-        return matrix, grid
+    def _inserts(self) -> None:
+        """Every INSERT's fields, 4x4 map (column convention, as ezdxf's ``Insert.matrix44`` builds it:
+        OCS axes scaled, then rotated about the extrusion, block base point subtracted) and MINSERT grid
+        (rows, columns; row and column steps along the rotated OCS axes, not scaled)."""
+        f, e = self.f, self.by_kind["INSERT"]
+        self.insert_row = {m: k for k, m in enumerate(e.tolist())}
+        self.insert_name = f.text(2, e)
+        self.insert_layer = f.text(8, e, "0")
+        self.insert_handle = f.text(5, e)
+        scale = np.stack([f.number(c, e, 1.0) for c in (41, 42, 43)], axis=1)
+        angle = np.radians(f.number(50, e, 0.0))
+        c, s = np.cos(angle)[:, None], np.sin(angle)[:, None]
+        ocs = self._ocs_to_wcs(e)
+        ax, ay, az = ocs.unit_axes()
+        linear = np.stack([(ax * c + ay * s) * scale[:, 0:1], (ay * c - ax * s) * scale[:, 1:2], az * scale[:, 2:3]],
+                          axis=2)  # columns: the images of x, y, z
+        heads = np.array([self.lay.blocks[self.block_index[n.lower()]].head if n.lower() in self.block_index else -1
+                          for n in self.insert_name], dtype=np.int64)
+        base = np.zeros((len(e), 3))
+        defined = heads >= 0
+        base[defined] = f.point(10, heads[defined], (0.0, 0.0, 0.0))
+        self.insert_matrix = np.zeros((len(e), 4, 4))
+        self.insert_matrix[:, :3, :3] = linear
+        self.insert_matrix[:, :3, 3] = ocs.points(f.point(10, e, (0.0, 0.0, 0.0))) - np.einsum("nij,nj->ni", linear,
+                                                                                               base)
+        self.insert_matrix[:, 3, 3] = 1.0
+        cols, rows = f.integer(70, e, 1), f.integer(71, e, 1)
+        dx, dy = f.number(44, e, 0.0), f.number(45, e, 0.0)
+        rows = np.where(dy != 0, np.maximum(rows, 0), np.minimum(rows, 1))
+        cols = np.where(dx != 0, np.maximum(cols, 0), np.minimum(cols, 1))
+        self.insert_grid = np.stack([rows, cols], axis=1)
+        zero = np.zeros(len(e))
+        c, s = c[:, 0], s[:, 0]
+        self.insert_steps = np.stack([ocs.points(np.stack([-s * dy, c * dy, zero], axis=1)),
+                                      ocs.points(np.stack([c * dx, s * dx, zero], axis=1))], axis=1)
 
 
 class _Ocs:
@@ -477,18 +468,20 @@ class _Ocs:
         ay = ay * (1.0 / _magnitude(ay))[:, None]
         self.ax, self.ay, self.az = ax, ay, az
 
-    def points(self, p: FloatArray) -> FloatArray:
-        """OCS coordinates ``p[n, 3]`` (one per entity) in WCS."""
+    def points(self, p: FloatArray, rows: IntArray | None = None) -> FloatArray:
+        """OCS coordinates ``p[n, 3]`` in WCS; point ``k`` in the OCS of entity ``rows[k]`` (default: ``k``)."""
         if self.all_plain:
             return p
-        wcs = p[:, 0:1] * self.ax + p[:, 1:2] * self.ay + p[:, 2:3] * self.az
-        return np.where(self.plain[:, None], p, wcs)
+        g = slice(None) if rows is None else rows
+        wcs = p[:, 0:1] * self.ax[g] + p[:, 1:2] * self.ay[g] + p[:, 2:3] * self.az[g]
+        return np.where(self.plain[g][:, None], p, wcs)
 
-    def axes(self) -> tuple[FloatArray, FloatArray, FloatArray]:
-        """The axes of the first entity's OCS (x, y, z unit vectors in WCS)."""
-        if self.plain[0]:
-            return np.array([1.0, 0.0, 0.0]), np.array([0.0, 1.0, 0.0]), np.array(Z_AXIS)
-        return self.ax[0], self.ay[0], self.az[0]
+    def unit_axes(self) -> tuple[FloatArray, FloatArray, FloatArray]:
+        """Each entity's OCS axes (x, y, z unit vectors in WCS), ``[n, 3]`` each."""
+        eye = np.eye(3)
+        axes = (np.zeros((len(self.plain), 3)),) * 3 if self.all_plain else (self.ax, self.ay, self.az)
+        x, y, z = (np.where(self.plain[:, None], eye[k], axis) for k, axis in enumerate(axes))
+        return x, y, z
 
 
 def _magnitude(v: FloatArray) -> FloatArray:
@@ -506,27 +499,19 @@ def _bulge_path(seg: _Segments, x: FloatArray, y: FloatArray, own: IntArray, ent
     if len(ents) == 0:
         return
     group = np.searchsorted(ents, own)
-    counts = np.bincount(group, minlength=len(ents))
-    if np.any(counts < 2):
+    if np.any(np.bincount(group, minlength=len(ents)) < 2):
         raise NotPlain("a polyline with fewer than two vertices")
-    first = _starts(counts)
-    nxt = np.arange(len(x)) + 1
-    last = first + counts - 1
-    nxt[last] = first
-    use = np.ones(len(x), dtype=bool)
-    use[last[~closed]] = False
-    i = np.flatnonzero(use)
-    j = nxt[i]
+    i, j = _vertex_pairs(group, len(ents), closed)
     dx, dy = x[j] - x[i], y[j] - y[i]
     i, j, dx, dy = (a[(dx != 0.0) | (dy != 0.0)] for a in (i, j, dx, dy))
     b = bulge[i]
     z = elevation[group[i]]
-    per = _RowOcs(ocs, group[i])
+    rows = group[i]
     straight = b == 0.0
     li, lj = i[straight], j[straight]
     lz = z[straight]
-    p0 = per.points(np.stack([x[li], y[li], lz], axis=1), straight)
-    p1 = per.points(np.stack([x[lj], y[lj], lz], axis=1), straight)
+    p0 = ocs.points(np.stack([x[li], y[li], lz], axis=1), rows[straight])
+    p1 = ocs.points(np.stack([x[lj], y[lj], lz], axis=1), rows[straight])
     seg.lines.append((p0, p1, own[li]))
     ai, aj, ab, az_ = i[~straight], j[~straight], b[~straight], z[~straight]
     x0, y0, x1, y1 = x[ai], y[ai], x[aj], y[aj]
@@ -538,25 +523,10 @@ def _bulge_path(seg: _Segments, x: FloatArray, y: FloatArray, own: IntArray, ent
     theta = 4.0 * np.arctan(np.abs(ab))
     zero = np.zeros_like(ux)
     arc = ~straight
-    center = per.points(np.stack([cx, cy, az_], axis=1), arc)
-    u = per.points(np.stack([ux, uy, zero], axis=1), arc)
-    v = per.points(np.stack([vx, vy, zero], axis=1), arc)
+    center = ocs.points(np.stack([cx, cy, az_], axis=1), rows[arc])
+    u = ocs.points(np.stack([ux, uy, zero], axis=1), rows[arc])
+    v = ocs.points(np.stack([vx, vy, zero], axis=1), rows[arc])
     seg.arcs.append((center, u, v, zero.copy(), theta, own[ai]))
-
-
-class _RowOcs:
-    """The OCS of each segment's entity (``group[k]`` indexes the entities of ``ocs``)."""
-
-    def __init__(self, ocs: _Ocs, group: IntArray) -> None:
-        self.ocs, self.group = ocs, group
-
-    def points(self, p: FloatArray, which: NDArray[np.bool_]) -> FloatArray:
-        if self.ocs.all_plain:
-            return p
-        g = self.group[which]
-        o = self.ocs
-        wcs = p[:, 0:1] * o.ax[g] + p[:, 1:2] * o.ay[g] + p[:, 2:3] * o.az[g]
-        return np.where(o.plain[g][:, None], p, wcs)
 
 
 def _polyline_3d(seg: _Segments, location: FloatArray, own: IntArray, ents: IntArray, closed: NDArray[np.bool_]
@@ -564,16 +534,22 @@ def _polyline_3d(seg: _Segments, location: FloatArray, own: IntArray, ents: IntA
     """Straight pieces between consecutive vertices of 3-D polylines (closing piece when closed)."""
     pick = np.isin(own, ents)
     pts, o = location[pick], own[pick]
-    group = np.searchsorted(ents, o)
-    counts = np.bincount(group, minlength=len(ents))
+    i, j = _vertex_pairs(np.searchsorted(ents, o), len(ents), closed)
+    seg.lines.append((pts[i], pts[j], o[i]))
+
+
+def _vertex_pairs(group: IntArray, count: int, closed: NDArray[np.bool_]) -> tuple[IntArray, IntArray]:
+    """Consecutive vertex pairs ``(i, j)`` of polylines whose vertices are grouped by polyline
+    (``group[v]``, ``count`` polylines, in order); a closed polyline's last vertex pairs with its first."""
+    counts = np.bincount(group, minlength=count)
     first = _starts(counts)
-    nxt = np.arange(len(pts)) + 1
     last = first + counts - 1
-    nxt[last] = first
-    use = np.ones(len(pts), dtype=bool)
+    following = np.arange(len(group)) + 1
+    following[last] = first
+    use = np.ones(len(group), dtype=bool)
     use[last[~closed]] = False
     i = np.flatnonzero(use)
-    seg.lines.append((pts[i], pts[nxt[i]], o[i]))
+    return i, following[i]
 
 
 def _add_pieces(seg: _Segments, ctrl: FloatArray, weights: FloatArray, ents: IntArray, degree: int) -> None:

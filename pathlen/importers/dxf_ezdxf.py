@@ -8,7 +8,6 @@ Entities on layer "0" inside a block take the layer of the INSERT placing it.
 from __future__ import annotations
 
 import io
-import itertools
 import logging
 import math
 import re
@@ -25,6 +24,7 @@ from ezdxf.lldxf.const import DXFError
 
 from pathlen.errors import InputError
 from pathlen.geometry import Drawing, SegmentCollector
+from pathlen.importers.dxf_blocks import BlockCache, place_insert
 from pathlen.importers.dxf_units import in_millimetres, unit_of_code
 from pathlen.importers.nurbs import SplineError, bezier_pieces
 
@@ -213,8 +213,7 @@ class _DxfImporter:
     def __init__(self, doc: ezdxf.document.Drawing, hidden: frozenset[str] = frozenset()) -> None:
         self.doc = doc
         self.hidden = hidden
-        self.blocks: dict[str, Drawing] = {}
-        self.open_blocks: list[str] = []
+        self.blocks = BlockCache(self._build_block)
 
     def add(self, entity: DXFGraphic, coll: SegmentCollector) -> None:
         """One entity into ``coll``; an entity whose data cannot be used is skipped with a warning."""
@@ -236,36 +235,20 @@ class _DxfImporter:
         """Place the block once per INSERT (a MINSERT as one placement with a grid); its geometry is
         read once per block name, never copied."""
         name = insert.dxf.name
-        block = self.block(name, coll)
+        block = self.blocks.get(name, coll)
         if block is None:
             return
-        layer = insert.dxf.layer
         rows = np.array(list(insert.matrix44().rows()), dtype=float)
-        if not np.all(np.isfinite(rows)):
-            coll.warn(f"INSERT #{insert.dxf.handle} of block {name!r} skipped: non-finite insertion point, "
-                      "scale or rotation")
-            return
-        coll.add_placement(block, rows.T, (name, layer), lambda lay: layer if lay == "0" else lay,
-                           f"{name}/", _minsert_grid(insert))
+        place_insert(coll, block, rows.T, name, insert.dxf.layer, insert.dxf.handle, _minsert_grid(insert))
 
-    def block(self, name: str, coll: SegmentCollector) -> Drawing | None:
-        if name in self.blocks:
-            return self.blocks[name]
-        if name in self.open_blocks:
-            chain = [*self.open_blocks[self.open_blocks.index(name):], name]
-            steps = ", ".join(f"{a!r} inserts {b!r}" for a, b in itertools.pairwise(chain))
-            raise InputError(f"block cycle: {steps}; a block cannot contain itself")
+    def _build_block(self, name: str) -> Drawing | None:
         layout = self.doc.blocks.get(name)
         if layout is None:
-            coll.warn(f"block {name!r} is not defined: INSERT skipped")
             return None
-        self.open_blocks.append(name)
         sub = SegmentCollector(self.hidden)
         for entity in layout:
             self.add(entity, sub)
-        self.open_blocks.pop()
-        self.blocks[name] = sub.drawing()
-        return self.blocks[name]
+        return sub.drawing()
 
 
 def _minsert_grid(insert: Insert) -> tuple[int, int, np.ndarray, np.ndarray] | None:

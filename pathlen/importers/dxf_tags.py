@@ -150,7 +150,7 @@ def parse_tags(data: bytes | bytearray) -> TagTable:
     if np.any(codes < 0):
         raise NotPlain("a group code that is not a plain integer")
     _check_points_and_binary(data, codes, value_start, value_end)
-    return TagTable(data, codes, value_start, value_end, _numbers(buf, data, codes, value_start, value_end))
+    return TagTable(data, codes, value_start, value_end, _numbers(data, codes, value_start, value_end))
 
 
 def _check_points_and_binary(data: bytes, codes: NDArray[np.int32], start: NDArray[np.int64],
@@ -186,23 +186,20 @@ def _group_codes(data: bytearray, start: NDArray[np.int64], end: NDArray[np.int6
     return out
 
 
-def _eof_index(data: bytes, codes: NDArray[np.int32], start: NDArray[np.int64], end: NDArray[np.int64]) -> int:
-    """Index of the first (0, "EOF") tag: ezdxf reads nothing after it."""
-    for i in np.flatnonzero(codes == 0)[::-1][:1].tolist():
-        if data[start[i]:end[i]] == b"EOF":
-            # the last code-0 tag is EOF; make sure there is no earlier one
-            zero = np.flatnonzero(codes[:i] == 0)
-            width = end[zero] - start[zero]
-            for j in zero[width == 3].tolist():
-                if data[start[j]:end[j]] == b"EOF":
-                    raise NotPlain("more than one EOF")
-            if i != len(codes) - 1:
-                raise NotPlain("tags after EOF")
-            return i
-    raise NotPlain("no EOF tag")
+def _eof_index(data: bytearray, codes: NDArray[np.int32], start: NDArray[np.int64], end: NDArray[np.int64]) -> int:
+    """Index of the (0, "EOF") tag, which must be the file's last tag and its only EOF."""
+    zero = np.flatnonzero(codes == 0)
+    eof = [int(i) for i in zero[end[zero] - start[zero] == 3].tolist() if data[start[i]:end[i]] == b"EOF"]
+    if not eof:
+        raise NotPlain("no EOF tag")
+    if len(eof) > 1:
+        raise NotPlain("more than one EOF")
+    if eof[0] != len(codes) - 1:
+        raise NotPlain("tags after EOF")
+    return eof[0]
 
 
-def _numbers(buf: NDArray[np.uint8], data: bytes, codes: NDArray[np.int32], start: NDArray[np.int64],
+def _numbers(data: bytearray, codes: NDArray[np.int32], start: NDArray[np.int64],
              end: NDArray[np.int64]) -> NDArray[np.float64]:
     """Values of the numeric codes as floats (NaN for other tags), parsed as Python's float() does."""
     number = np.full(len(codes), np.nan)
