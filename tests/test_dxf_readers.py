@@ -125,8 +125,11 @@ def test_random_drawings_read_the_same(tmp_path: Path, drawing, hidden: bool) ->
     assert compare_readers(path, hidden_layers=hidden, require_bulk=True)
 
 
-@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
-@given(drawing=drawings(), cut=st.floats(0.05, 0.999), mutation=st.sampled_from(["truncate", "swap", "code", "junk"]),
+MUTATIONS = ["truncate", "swap", "code", "junk", "value", "drop", "twice"]
+
+
+@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(drawing=drawings(), cut=st.floats(0.05, 0.999), mutation=st.sampled_from(MUTATIONS),
        seed=st.integers(0, 10**6))
 def test_damaged_files_take_the_same_decision(tmp_path: Path, drawing, cut: float, mutation: str, seed: int) -> None:
     """Whatever the bulk path decides (read, decline, refuse), the result is the ezdxf path's."""

@@ -1,5 +1,9 @@
 """DXF importer: the bulk reader for plain text files, ezdxf's document model for everything else.
 
+The bulk reader checks the entities it reads itself; the rest of the file (header, tables, blocks,
+objects: small beside the entities of a big drawing) is loaded by ezdxf as well, so that a file ezdxf
+would refuse, repair or warn about is read by ezdxf after all, with its words.
+
 Both readers give the same drawing (tests/test_dxf_readers.py runs them side by side); the bulk reader
 (:mod:`pathlen.importers.dxf_bulk`) is several times faster and lighter on large files and does not
 load ezdxf at all, ezdxf (:mod:`pathlen.importers.dxf_ezdxf`) knows every odd form, damaged files and
@@ -24,12 +28,14 @@ def read_dxf(path: Path, drawing_units: str | None = None, recover: bool = False
     ``drawing_units`` (a key of ``MM_PER_UNIT``) overrides ``$INSUNITS``; without either the
     drawing is taken as millimetres, with a warning.  A damaged file is refused unless ``recover``.
     Entities on layers that are off or frozen are marked hidden (measured only with
-    ``hidden_layers``: the caller decides).
+    ``hidden_layers``: the caller decides).  ``PATHLEN_DXF_READER=ezdxf`` in the environment reads every
+    file through ezdxf (to compare, or to rule the bulk reader out when a file reads strangely).
     """
-    plain = read_bulk(path, hidden_layers) if os.environ.get("PATHLEN_DXF_READER") == "bulk" else None
-    if plain is None:
-        from pathlen.importers.dxf_ezdxf import read_dxf as read_with_ezdxf
+    from pathlen.importers.dxf_ezdxf import loads_silently
+    from pathlen.importers.dxf_ezdxf import read_dxf as read_with_ezdxf
 
+    plain = None if os.environ.get("PATHLEN_DXF_READER") == "ezdxf" else read_bulk(path, hidden_layers)
+    if plain is None or not loads_silently(plain.rest):
         return read_with_ezdxf(path, drawing_units, recover, hidden_layers)
     return in_millimetres(plain.drawing, *unit_of_code(plain.insunits, drawing_units))
 

@@ -34,7 +34,7 @@ from pathlen.geometry import (
 from pathlen.importers.dxf_blocks import BlockCache, place_insert
 from pathlen.importers.dxf_fields import Fields
 from pathlen.importers.dxf_layout import MEASURED, Layout, layout
-from pathlen.importers.dxf_tags import NotPlain, TagTable, parse_tags
+from pathlen.importers.dxf_tags import PADDING, NotPlain, TagTable, parse_tags
 from pathlen.importers.nurbs import bezier_pieces, window_beziers
 
 TWO_PI = 2.0 * math.pi
@@ -44,19 +44,44 @@ FIT_POINTS_WARNING = ("SPLINE given by fit points only: curve reconstructed by e
                       "interpolation, which may differ from the drawing program's")
 
 
+#: Subclass markers of each kind read here, as written since DXF R2000 (DXF reference, the entities'
+#: group code tables): AcDbEntity, then the kind's own (ARC: AcDbCircle, AcDbArc; VERTEX: AcDbVertex and
+#: its 2-D or 3-D one).
+SUBCLASS_MARKERS = {"LINE": 2, "CIRCLE": 2, "ARC": 3, "ELLIPSE": 2, "LWPOLYLINE": 2, "POLYLINE": 2, "SPLINE": 2,
+                    "INSERT": 2, "VERTEX": 3}
+#: Group codes of the fields read here from the kinds' own subclasses.
+FIELD_CODES = np.array([2, 10, 11, 12, 13, 38, 40, 41, 42, 43, 44, 45, 50, 51, 66, 70, 71, 72, 73, 74, 210])
+
+
 @dataclass
 class PlainDxf:
-    """What the bulk reader found: the model space drawing (in drawing units) and ``$INSUNITS``."""
+    """What the bulk reader found: the model space drawing (in drawing units), ``$INSUNITS``, and the
+    file without the body of its ENTITIES section (everything this reader checked entity by entity)."""
 
     drawing: Drawing
     insunits: int
+    rest: bytes
 
 
 def read_plain(data: bytes | bytearray, hidden_layers: bool = False) -> PlainDxf:
     """Read a text DXF file's model space from its bytes; raises NotPlain (read it with ezdxf)."""
     tags = parse_tags(data)
     lay = layout(tags)
-    return _Reader(tags, lay, hidden_layers).model()
+    drawing = _Reader(tags, lay, hidden_layers).model()
+    return PlainDxf(drawing.drawing, drawing.insunits, _without_entities(tags, lay))
+
+
+def _without_entities(tags: TagTable, lay: Layout) -> bytes:
+    """The file's bytes with the ENTITIES section emptied (its SECTION and ENDSEC kept)."""
+    data, size = tags.data, len(tags.data) - PADDING
+    if lay.entities_body is None:
+        return bytes(data[:size])
+    first, endsec = (int(lay.first_tag[k]) for k in lay.entities_body)
+
+    def line_start(t: int) -> int:  # where tag t's group-code line begins
+        return data.index(b"\n", int(tags.end[t - 1])) + 1
+
+    return bytes(data[:line_start(first)] + data[line_start(endsec):size])
 
 
 class _Segments:
@@ -161,6 +186,7 @@ class _Reader:
                 if kinds[e] in by_kind:
                     by_kind[kinds[e]].append(e)
         self.by_kind = {k: np.array(sorted(v), dtype=np.int64) for k, v in by_kind.items()}
+        self._check_subclasses()
         seg = _Segments()
         self._lines(seg)
         self._circles(seg)
@@ -178,6 +204,30 @@ class _Reader:
         self.entity_info = {int(e): (layer, handle) for e, layer, handle in zip(rows.tolist(), layers, handles,
                                                                                  strict=True)}
         self._batches()
+
+    def _check_subclasses(self) -> None:
+        """Subclass markers (group code 100) as ezdxf loads them: none (R12), or the kind's own count with
+        every field read here after the second marker (in the kind's own subclass).  ezdxf reads fields
+        by subclass, so a missing, extra or moved marker changes what it reads: such files go to ezdxf."""
+        kinds, f = self.kinds, self.f
+        vertices = [v for run in self.lay.vertices.values() for v in run]
+        ents = np.sort(np.concatenate([*self.by_kind.values(), np.array(vertices, dtype=np.int64)]))
+        expected = np.array([SUBCLASS_MARKERS[kinds[e]] for e in ents.tolist()], dtype=np.int64)
+        markers = f.tags_of(100)
+        own = self.lay.owner[markers].astype(np.int64)
+        found = np.bincount(own, minlength=len(kinds))[ents]
+        if np.any((found != 0) & (found != expected)):
+            raise NotPlain("an entity whose subclass markers are not its kind's")
+        rank = np.arange(len(own)) - np.searchsorted(own, own)
+        second = np.full(len(kinds), -1, dtype=np.int64)
+        second[own[rank == 1]] = markers[rank == 1]
+        wanted = np.zeros(len(kinds), dtype=bool)
+        wanted[ents] = True
+        fields = np.flatnonzero(np.isin(self.tags.codes, FIELD_CODES))
+        owner = self.lay.owner[fields]
+        check = wanted[owner] & (second[owner] >= 0)
+        if np.any(fields[check] < second[owner[check]]):
+            raise NotPlain("a field before its subclass marker")
 
     def _ocs_to_wcs(self, ents: IntArray) -> _Ocs:
         return _Ocs(self.f.point(210, ents, Z_AXIS))
@@ -367,7 +417,7 @@ class _Reader:
             self.beziers[d] = Beziers(take_rows(b.ctrl, order), take_rows(b.weights, order), b.entity[order])
 
     def model(self) -> PlainDxf:
-        return PlainDxf(self._space_drawing(-1), self.insunits)
+        return PlainDxf(self._space_drawing(-1), self.insunits, b"")
 
     def _space_drawing(self, space: int) -> Drawing:
         """One space as the ezdxf reader's SegmentCollector would leave it."""

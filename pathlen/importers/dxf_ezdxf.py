@@ -81,6 +81,22 @@ def dxf_drawing(loaded: LoadedDxf, drawing_units: str | None = None, hidden_laye
     return in_millimetres(drawing, *drawing_unit(doc, drawing_units))
 
 
+def loads_silently(data: bytes) -> bool:
+    """Does ezdxf load a DXF file of these bytes as this reader would, with no damage, repair or log
+    line?  (Used on the parts of a file the bulk reader does not check itself.)"""
+    import tempfile
+
+    with tempfile.NamedTemporaryFile(suffix=".dxf") as tmp:
+        tmp.write(data)
+        tmp.flush()
+        try:
+            with _LogCapture() as log:
+                _doc, notes, _recovered = _load(Path(tmp.name), False)
+        except InputError:
+            return False
+    return not notes and not log.messages
+
+
 class _LogCapture(logging.Handler):
     """ezdxf's log records of WARNING and above, as one-line warnings of this file (not printed)."""
 

@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.typing import NDArray
 
-from pathlen.importers.dxf_tags import NotPlain, TagTable, windows
+from pathlen.importers.dxf_tags import POINT_CODES, NotPlain, TagTable, windows
 
 #: Entity kinds pathlen measures (the same set as the ezdxf reader's handlers) and INSERT.
 MEASURED = frozenset({"LINE", "CIRCLE", "ARC", "ELLIPSE", "LWPOLYLINE", "POLYLINE", "SPLINE"})
@@ -49,6 +49,8 @@ class Layout:
     block_records: list[int]
     vertices: dict[int, list[int]]
     attributed: set[int]
+    #: entity numbers of the ENTITIES section's first entity and its ENDSEC (equal when it is empty)
+    entities_body: tuple[int, int] | None = None
 
 
 
@@ -89,6 +91,7 @@ def layout(tags: TagTable) -> Layout:
             _blocks(tags, first, kinds, body, follows, out)
         elif name == "ENTITIES":
             out.entities = _graphics(kinds, body, follows, out)
+            out.entities_body = (i + 1, end)
         i = end + 1
     if out.header < 0:
         raise NotPlain("no HEADER section")
@@ -110,7 +113,7 @@ def _check_header(tags: TagTable, start: int, stop: int) -> None:
     for k in np.flatnonzero(size > 2).tolist():
         x = int(codes[nine[k] + 1])
         parts = codes[nine[k] + 1:nine[k] + size[k]].tolist()
-        if parts != [x, x + 10, x + 20][:len(parts)]:
+        if x not in POINT_CODES or parts != [x, x + 10, x + 20][:len(parts)]:
             raise NotPlain("a header variable with more than one value")
 
 
@@ -128,17 +131,30 @@ def _tables(tags: TagTable, first: NDArray[np.int64], kinds: list[str], body: ra
         kind = kinds[e]
         if kind == "TABLE":
             head = first[e]
-            table = tags.text(head + 1) if tags.codes[head + 1] == 2 else ""
+            if table or tags.codes[head + 1] != 2:
+                raise NotPlain("a TABLE without its name or inside another")
+            table = tags.text(head + 1)
         elif kind == "ENDTAB":
+            if not table:
+                raise NotPlain("ENDTAB outside a table")
             table = ""
         elif not table or kind != table:
             raise NotPlain(f"{kind[:20]!r} in table {table!r}")
-        elif not np.any(tags.codes[first[e]:first[e + 1]] == 2):
-            raise NotPlain(f"a {kind[:20]} table entry without a name")
-        elif kind == "LAYER":
-            out.layer_entries.append(e)
-        elif kind == "BLOCK_RECORD":
-            out.block_records.append(e)
+        else:
+            _check_entry(tags.codes[first[e]:first[e + 1]], kind)
+            if kind == "LAYER":
+                out.layer_entries.append(e)
+            elif kind == "BLOCK_RECORD":
+                out.block_records.append(e)
+
+
+def _check_entry(codes: NDArray[np.int32], kind: str) -> None:
+    """A table entry as ezdxf loads it: a name, and either no subclass markers (R12) or two
+    (AcDbSymbolTableRecord and the table's own) with the name after the second."""
+    names = np.flatnonzero(codes == 2)
+    markers = np.flatnonzero(codes == 100)
+    if len(names) == 0 or len(markers) not in (0, 2) or (len(markers) == 2 and names[0] < markers[1]):
+        raise NotPlain(f"a {kind[:20]} table entry without its name or subclass markers")
 
 
 def _blocks(tags: TagTable, first: NDArray[np.int64], kinds: list[str], body: range, follows: dict[int, bool],

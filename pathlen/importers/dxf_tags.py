@@ -22,10 +22,13 @@ from numpy.typing import NDArray
 
 #: Group codes with numeric values (DXF reference, "Group Code Value Types"; the ranges ezdxf converts):
 #: every one must be a number, as ezdxf refuses the file otherwise.
-NUMERIC_CODES = np.zeros(1072, dtype=bool)
-for _lo, _hi in ((10, 59), (110, 149), (210, 239), (460, 469), (1010, 1059),  # floats
-                 (60, 79), (90, 99), (160, 179), (270, 299), (370, 389), (400, 409), (420, 429), (440, 459),
-                 (1060, 1071)):  # integers
+#: Of those, the integer codes: ezdxf refuses a value that is not a finite number there.
+INTEGER_CODES = np.zeros(1072, dtype=bool)
+for _lo, _hi in ((60, 79), (90, 99), (160, 179), (270, 299), (370, 389), (400, 409), (420, 429), (440, 459),
+                 (1060, 1071)):
+    INTEGER_CODES[_lo:_hi + 1] = True
+NUMERIC_CODES = INTEGER_CODES.copy()
+for _lo, _hi in ((10, 59), (110, 149), (210, 239), (460, 469), (1010, 1059)):  # floats
     NUMERIC_CODES[_lo:_hi + 1] = True
 #: Codes of a point's x; its y (code + 10) must follow.
 POINT_CODES = np.array([10, 11, 12, 13, 14, 15, 16, 17, 18, 110, 111, 112, 210, 211, 212, 213,
@@ -218,4 +221,6 @@ def _numbers(data: bytearray, codes: NDArray[np.int32], start: NDArray[np.int64]
         except ValueError:
             raise NotPlain("a number that cannot be read") from None
         number[rows] = values
+    if not np.all(np.isfinite(number[numeric][INTEGER_CODES[np.minimum(codes[numeric], len(INTEGER_CODES) - 1)]])):
+        raise NotPlain("an integer code whose value is not a finite number")
     return number
