@@ -8,7 +8,6 @@ of ``length`` from floating-point rounding, in the input's length unit.
 from __future__ import annotations
 
 import numpy as np
-from scipy.special import ellipeinc, ellipkinc
 
 from pathlen.geometry import FloatArray
 
@@ -60,14 +59,12 @@ def elliptic_arc_lengths(u: FloatArray, v: FloatArray, t0: FloatArray, t1: Float
     a, m, tau = ellipse_frame(u, v)
     phi0 = t0 - tau
     phi1 = t1 - tau
-    e0 = ellipeinc(phi0, m)
-    e1 = ellipeinc(phi1, m)
+    e0, f0 = _incomplete_integrals(phi0, m)
+    e1, f1 = _incomplete_integrals(phi1, m)
     length = a * (e1 - e0)
     # d E / d m = (E - F) / (2 m); m is rounded once for both ends, so the
     # difference of the two derivatives bounds its effect.
     with np.errstate(divide="ignore", invalid="ignore"):
-        f0 = ellipkinc(phi0, m)
-        f1 = ellipkinc(phi1, m)
         dm = np.where(m > 0, np.abs((f1 - e1) - (f0 - e0)) / (2 * m), np.abs(phi1) + np.abs(phi0))
     dm = np.nan_to_num(dm, nan=np.inf, posinf=np.inf)
     bound = a * EPS * (
@@ -76,6 +73,20 @@ def elliptic_arc_lengths(u: FloatArray, v: FloatArray, t0: FloatArray, t1: Float
         + 16 * dm
     )
     return length, bound
+
+
+def _incomplete_integrals(phi: FloatArray, m: FloatArray) -> tuple[FloatArray, FloatArray]:
+    """``E(phi | m)`` and ``F(phi | m)`` (scipy's ``ellipeinc``, ``ellipkinc``).  Both are ``phi`` itself
+    where ``m = 0`` (circles, exactly as scipy returns them), so scipy.special (a sixth of a second to
+    import) is loaded only for drawings with true ellipses."""
+    e, f = phi.copy(), phi.copy()
+    oval = np.flatnonzero(m != 0)
+    if len(oval):
+        from scipy.special import ellipeinc, ellipkinc
+
+        with np.errstate(divide="ignore", invalid="ignore"):
+            e[oval], f[oval] = ellipeinc(phi[oval], m[oval]), ellipkinc(phi[oval], m[oval])
+    return e, f
 
 
 def quadratic_bezier_lengths(ctrl: FloatArray) -> tuple[FloatArray, FloatArray]:
