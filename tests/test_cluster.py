@@ -91,3 +91,34 @@ def test_unreachable_scheduler_is_a_usage_error(runner) -> None:
     res = runner.invoke(main, ["measure", "--scheduler", "tcp://127.0.0.1:9", str(FIXTURES / "kl101_bracket.dxf")])
     assert res.exit_code == 2
     assert "cannot reach the Dask scheduler" in res.output
+
+
+def test_watch_hands_its_jobs_to_the_cluster(cluster, tmp_path: Path) -> None:
+    """The watch service with --scheduler: every drawing answered once, the same result files as a local run."""
+    import subprocess
+    import sys
+
+    runs = {}
+    for name, extra in (("local", []), ("cluster", ["--scheduler", cluster.scheduler_address])):
+        inbox, outbox = tmp_path / name / "in", tmp_path / name / "out"
+        inbox.mkdir(parents=True)
+        for f in FIXTURES.glob("*.*"):
+            if f.suffix in (".dxf", ".svg"):
+                shutil.copy(f, inbox / f.name)
+        (inbox / "broken.dxf").write_bytes(b"\x00not a drawing\xff")
+        done = subprocess.run([sys.executable, "-m", "pathlen", "watch", str(inbox), "--out", str(outbox), "--once",
+                               "--settle", "0.2", "--poll", "0.05", "--no-events", *extra],
+                              capture_output=True, text=True, timeout=120, check=False)
+        assert done.returncode == 0, done.stderr
+        runs[name] = {p.relative_to(outbox).as_posix(): json.loads(p.read_text())["files"][0]
+                      for p in (outbox / "results").rglob("*.json")}
+        runs[name + " files"] = sorted(p.relative_to(outbox).as_posix() for p in outbox.rglob("*")
+                                       if ".pathlen" not in p.parts and p.is_file() and p.suffix != ".csv")
+    assert runs["cluster files"] == runs["local files"]  # results, error notes, originals moved alike
+    assert any("broken.dxf" in f for f in runs["cluster files"])
+    assert sorted(runs["cluster"]) == sorted(runs["local"])
+    assert len(runs["cluster"]) == len([f for f in FIXTURES.iterdir() if f.suffix in (".dxf", ".svg")])
+    for key, local in runs["local"].items():
+        remote = runs["cluster"][key]
+        assert (remote["ok"], remote["error"], remote.get("length")) == (local["ok"], local["error"],
+                                                                         local.get("length")), key

@@ -36,12 +36,15 @@ from pathlen.errors import PathlenError
               help="A TOML service file: [folder.\"NAME\"] tables giving the task (and profile or bead) for the "
                    "inbox's sub-folder NAME.")
 @click.option("--csv", "write_csv", is_flag=True, help="Write each result as CSV too.")
+@click.option("--scheduler", metavar="tcp://HOST:8786", default=None,
+              help="Hand the jobs to a Dask cluster (pip install 'pathlen[cluster]'); its workers must see the "
+                   "inbox at the same path.")
 @click.option("--status", "status_of", type=click.Path(file_okay=False, path_type=Path), metavar="OUTBOX",
               help="Print the ledger's counts and last failures for OUTBOX, then exit.")
 def watch(inbox: Path | None, outbox: Path | None, task: str, profile: str | None, profile_files: tuple[str, ...],
           bead_spec: str | None, poll: float, settle: float, jobs: int, timeout: float, max_memory: int,
           state: Path | None, keep: bool, once: bool, no_events: bool, log_json: bool, service_file: str | None,
-          write_csv: bool, status_of: Path | None) -> None:
+          write_csv: bool, status_of: Path | None, scheduler: str | None) -> None:
     """Measure or estimate every drawing dropped into INBOX, results into OUTBOX, never losing or repeating a job."""
     from pathlen.watch.service import Service, WatchConfig, status
     from pathlen.watch.tasks import build_task, load_service_file
@@ -60,10 +63,10 @@ def watch(inbox: Path | None, outbox: Path | None, task: str, profile: str | Non
     if _network_fs(state_dir.parent if not state_dir.exists() else state_dir):
         click.echo("warning: the ledger folder is on a network file system; SQLite wants a local disk", err=True)
     cfg = WatchConfig(inbox, outbox, state_dir, tasks, poll, settle, jobs, Limits(timeout, max_memory), keep, once,
-                      not no_events, log_json, write_csv)
+                      not no_events, log_json, write_csv, scheduler)
     try:
         service = Service(cfg)
-    except ValueError as exc:
+    except (ValueError, PathlenError) as exc:
         raise click.UsageError(str(exc)) from None
     raise SystemExit(service.run())
 

@@ -41,6 +41,8 @@ class WatchConfig:
     events: bool = True
     log_json: bool = False
     csv: bool = False
+    #: a Dask scheduler's address: jobs run on that cluster (its workers read the inbox at the same path)
+    scheduler: str | None = None
 
 
 def check_folders(inbox: Path, outbox: Path) -> None:
@@ -62,6 +64,11 @@ class Service:
         self.stop = threading.Event()
         self.wake = threading.Event()
         self.retries: dict[str, int] = {}
+        self.client = None
+        if cfg.scheduler:
+            from pathlen.cluster import connect
+
+            self.client = connect(cfg.scheduler)  # ClusterError when it cannot be reached
 
     # -- logging --------------------------------------------------------------------------
     def log(self, event: str, **fields: object) -> None:
@@ -99,6 +106,8 @@ class Service:
                 observer.stop()
                 observer.join(5)
             self.ledger.close()
+            if self.client is not None:
+                self.client.close()
         self.log("stopped")
         return 0
 
@@ -164,7 +173,13 @@ class Service:
     def _run(self, to_run: list[tuple[Candidate, str]], task: Task) -> None:
         """Run the jobs in worker processes and deliver each result as it finishes."""
         paths = [str(c.path) for c, _ in to_run]
-        for i, result in run_batch(paths, task.settings, self.cfg.jobs, task.work, task.failed, self.cfg.limits):
+        if self.client is not None:
+            from pathlen.cluster import run_on_cluster
+
+            batch = run_on_cluster(self.client, paths, task.settings, task.work, task.failed, self.cfg.limits)
+        else:
+            batch = run_batch(paths, task.settings, self.cfg.jobs, task.work, task.failed, self.cfg.limits)
+        for i, result in batch:
             c, key = to_run[i]
             if not result.ok and self._retry_later(c):
                 self.ledger.finish(key, False, None, None)
