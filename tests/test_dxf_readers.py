@@ -190,3 +190,19 @@ def test_every_dxf_the_suite_read() -> None:
         pytest.skip("run with the whole suite: only the other tests' files are checked here")
     taken = sum(compare_readers(path) for path in recorded)
     assert taken > 0, "the bulk reader took none of the files"  # many recorded files are damaged on purpose
+
+
+def test_environment_can_rule_the_bulk_reader_out(monkeypatch) -> None:
+    """README: PATHLEN_DXF_READER=ezdxf reads every file through ezdxf."""
+    import pathlen.importers.dxf as dxf_module
+
+    def refuse(*_args, **_kwargs):
+        raise AssertionError("the bulk reader was used")
+
+    monkeypatch.setattr(dxf_module, "read_bulk", refuse)
+    monkeypatch.setenv("PATHLEN_DXF_READER", "ezdxf")
+    drawing = read_dxf(FIXTURES / "kl101_bracket.dxf")
+    assert len(drawing.entities) > 0
+    monkeypatch.delenv("PATHLEN_DXF_READER")
+    with pytest.raises(AssertionError, match="bulk reader was used"):
+        read_dxf(FIXTURES / "kl101_bracket.dxf")
