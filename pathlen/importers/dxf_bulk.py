@@ -66,9 +66,13 @@ class PlainDxf:
 def read_plain(data: bytes | bytearray, hidden_layers: bool = False) -> PlainDxf:
     """Read a text DXF file's model space from its bytes; raises NotPlain (read it with ezdxf)."""
     tags = parse_tags(data)
+    del data  # the tag table keeps the bytes as long as it needs them
     lay = layout(tags)
-    drawing = _Reader(tags, lay, hidden_layers).model()
-    return PlainDxf(drawing.drawing, drawing.insunits, _without_entities(tags, lay))
+    rest = _without_entities(tags, lay)
+    reader = _Reader(tags, lay, hidden_layers)
+    del tags
+    lay.owner = np.zeros(0, dtype=np.int32)  # per tag: no longer needed
+    return PlainDxf(reader.model(), reader.insunits, rest)
 
 
 def _without_entities(tags: TagTable, lay: Layout) -> bytes:
@@ -120,8 +124,9 @@ class _Reader:
         self.blocks = BlockCache(self._build_block)
         self.skipped_rows: dict[int, str] = {}
         self.fit_splines: set[int] = set()
-        self.loops: set[int] = set()
+        self.loops = np.zeros(len(lay.kinds), dtype=bool)  # closed in the file (per entity number)
         self._measure_all()
+        del self.tags, self.f  # the tag table is not needed to assemble the drawing: free it first
 
     # ----- tables and header -------------------------------------------------------------------
     def _hidden_layers(self) -> frozenset[str]:
@@ -199,10 +204,8 @@ class _Reader:
         measured = np.concatenate([v for k, v in self.by_kind.items() if k != "INSERT"])
         rows = np.setdiff1d(measured, np.array(sorted(self.skipped_rows), dtype=np.int64))
         self.row_entities = rows  # entities that get an entity row, file order
-        layers = self.f.text(8, rows, "0")
-        handles = self.f.text(5, rows)
-        self.entity_info = {int(e): (layer, handle) for e, layer, handle in zip(rows.tolist(), layers, handles,
-                                                                                 strict=True)}
+        self.row_layers = self.f.text(8, rows, "0")
+        self.row_handles = self.f.text(5, rows)
         self._batches()
 
     def _check_subclasses(self) -> None:
@@ -285,7 +288,7 @@ class _Reader:
         flags = self.f.integer(70, e, 0)
         elevation = self.f.number(38, e, 0.0)
         closed = (flags & 1).astype(bool)
-        self.loops.update(e[closed].tolist())
+        self.loops[e[closed]] = True
         _bulge_path(seg, xyz[:, 0], xyz[:, 1], own, e, elevation, closed, self._ocs_to_wcs(e), bulge)
 
     def _polylines(self, seg: _Segments) -> None:
@@ -304,7 +307,7 @@ class _Reader:
         if len(e) and np.any(np.bincount(np.searchsorted(e, own), minlength=len(e)) < 2):
             raise NotPlain("a POLYLINE with fewer than two vertices")
         location = self.f.point(10, verts)
-        self.loops.update(e[closed].tolist())
+        self.loops[e[closed]] = True
         three_d = (flags & 8) != 0
         if np.any(three_d):
             _polyline_3d(seg, location, own, e[three_d], closed[three_d])
@@ -416,8 +419,9 @@ class _Reader:
             order = np.argsort(b.entity, kind="stable")
             self.beziers[d] = Beziers(take_rows(b.ctrl, order), take_rows(b.weights, order), b.entity[order])
 
-    def model(self) -> PlainDxf:
-        return PlainDxf(self._space_drawing(-1), self.insunits, b"")
+    def model(self) -> Drawing:
+        """Model space, with the blocks it places."""
+        return self._space_drawing(-1)
 
     def _space_drawing(self, space: int) -> Drawing:
         """One space as the ezdxf reader's SegmentCollector would leave it."""
@@ -425,11 +429,13 @@ class _Reader:
         coll = SegmentCollector(self.hidden)
         kinds = self.kinds
         rows: list[int] = []
-        for e in ents:
+        position = np.searchsorted(self.row_entities, ents).tolist()  # where measured entities sit among rows
+        loops = self.loops[ents].tolist() if ents else []
+        for e, k, loop in zip(ents, position, loops, strict=True):
             kind = kinds[e]
             if kind in MEASURED and e not in self.skipped_rows:
-                layer, handle = self.entity_info[e]
-                coll.entities.append(Entity(layer, handle, kind, hidden=layer in self.hidden, loop=e in self.loops))
+                layer = self.row_layers[k]
+                coll.entities.append(Entity(layer, self.row_handles[k], kind, hidden=layer in self.hidden, loop=loop))
                 rows.append(e)
                 if e in self.fit_splines:
                     coll.warn(FIT_POINTS_WARNING)

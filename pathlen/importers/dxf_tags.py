@@ -43,6 +43,8 @@ NUMBER_WIDTH = 32
 TEXT_WIDTH = 256
 #: Zero bytes after the file's bytes, for the widest window.
 PADDING = TEXT_WIDTH
+#: Bytes scanned for line ends per numpy pass.
+NEWLINE_CHUNK = 1 << 22
 #: Tags handled per numpy pass (bounds the temporary arrays: CHUNK x NUMBER_WIDTH bytes).
 CHUNK = 1 << 18
 
@@ -123,8 +125,7 @@ def parse_tags(data: bytes | bytearray) -> TagTable:
         raise NotPlain("byte-order mark")
     buf = np.frombuffer(data, dtype=np.uint8, count=size)
     position = np.int32 if size < 2**31 - PADDING else np.int64  # halves the position arrays of most files
-    newline = np.flatnonzero(buf == 10).astype(position)
-    returns = int(np.count_nonzero(buf == 13))
+    newline, returns = _newlines(buf, position)
     if newline.size == 0 or newline[-1] != size - 1:  # last line without a newline
         newline = np.append(newline, position(size))
     line_end = newline  # position of each line's end (its newline, or its carriage return)
@@ -154,6 +155,17 @@ def parse_tags(data: bytes | bytearray) -> TagTable:
         raise NotPlain("a group code that is not a plain integer")
     _check_points_and_binary(data, codes, value_start, value_end)
     return TagTable(data, codes, value_start, value_end, _numbers(data, codes, value_start, value_end))
+
+
+def _newlines(buf: NDArray[np.uint8], position: type) -> tuple[NDArray[np.integer], int]:
+    """Positions of the line feeds and the count of carriage returns, a few megabytes at a time (no
+    temporary as large as the file)."""
+    parts, returns = [], 0
+    for lo in range(0, len(buf), NEWLINE_CHUNK):
+        chunk = buf[lo:lo + NEWLINE_CHUNK]
+        parts.append((np.flatnonzero(chunk == 10) + lo).astype(position))
+        returns += int(np.count_nonzero(chunk == 13))
+    return (np.concatenate(parts) if parts else np.zeros(0, dtype=position)), returns
 
 
 def _check_points_and_binary(data: bytes, codes: NDArray[np.int32], start: NDArray[np.int64],
