@@ -301,8 +301,28 @@ def run_batch(paths: list[str], settings: Any, jobs: int = 1,
     return _drive(paths, slots, spawn, failed, limits)
 
 
+class KeptWorker:
+    """One worker process under ``limits`` kept for file after file, for a long-lived host (a Dask
+    worker): the process is forked once, not per file, and replaced when a file kills it or times out."""
+
+    def __init__(self, work: Callable[[str, Any], Any], settings: Any, failed: Callable[..., Any],
+                 limits: Limits) -> None:
+        import multiprocessing
+
+        ctx = multiprocessing.get_context("fork")
+        self.spawn = lambda: _Slot(ctx, work, settings, limits, own_threads=True)
+        self.slots = [self.spawn()]
+        self.failed, self.limits = failed, limits
+
+    def run(self, path: str) -> Any:
+        """``work(path, settings)`` in the kept process (or ``failed(...)`` naming the limit it broke)."""
+        return next(_drive([path], self.slots, self.spawn, self.failed, self.limits, keep=True))[1]
+
+
 def _drive(paths: list[str], slots: list[_Slot], spawn: Callable[[], _Slot], failed: Callable[..., Any],
-           limits: Limits) -> Iterator[tuple[int, Any]]:
+           limits: Limits, keep: bool = False) -> Iterator[tuple[int, Any]]:
+    """Hand ``paths`` to the worker ``slots`` and yield results as they come; ``keep``: leave idle workers
+    running at the end (a worker still busy, say when the caller stops early, is killed and replaced)."""
     import time
     from multiprocessing.connection import wait
 
@@ -344,5 +364,8 @@ def _drive(paths: list[str], slots: list[_Slot], spawn: Callable[[], _Slot], fai
                                     error=f"stopped after {limits.timeout_s:g} s: the time limit per file (--timeout)")
                     slots[k] = spawn()
     finally:
-        for slot in slots:
-            slot.stop(kill=slot.index is not None)
+        for k, slot in enumerate(slots):
+            if not keep or slot.index is not None:
+                slot.stop(kill=slot.index is not None)
+                if keep:
+                    slots[k] = spawn()

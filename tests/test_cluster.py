@@ -122,3 +122,22 @@ def test_watch_hands_its_jobs_to_the_cluster(cluster, tmp_path: Path) -> None:
         remote = runs["cluster"][key]
         assert (remote["ok"], remote["error"], remote.get("length")) == (local["ok"], local["error"],
                                                                          local.get("length")), key
+
+
+def test_limits_per_file_hold_on_the_cluster(cluster, tmp_path: Path) -> None:
+    """A stalled file, a dying one and a memory hog fail alone on the cluster as they do locally
+    (tests/test_batch_limits.py), and the workers' kept child processes carry on."""
+    from tests.drawings import line_dxf
+    from tests.test_batch_limits import flaky_work
+
+    good = str(line_dxf(tmp_path / "good.dxf"))
+    paths = [good, "stall.dxf", good, "die.dxf", good, "hog.dxf", good, good]
+    with Client(cluster.scheduler_address, set_as_default=False) as client:
+        results = dict(run_on_cluster(client, paths, MeasureSettings(), flaky_work, FileResult,
+                                      Limits(timeout_s=2.0, max_memory_mb=512)))
+    assert sorted(results) == list(range(len(paths)))
+    for i in (0, 2, 4, 6, 7):
+        assert results[i].ok and results[i].length_mm == 10.0
+    assert results[1].error == "stopped after 2 s: the time limit per file (--timeout)"
+    assert "died with signal SIGKILL" in results[3].error
+    assert results[5].error == "needed more than the memory limit of 512 MB per file (--max-memory)"
