@@ -66,7 +66,9 @@ def dxf_part(tmp: Path) -> None:
 
 
 def cluster_part(tmp: Path) -> None:
-    from distributed import Client, LocalCluster
+    import operator
+
+    from distributed import Client, LocalCluster, as_completed
 
     from pathlen.batch import FileResult, Limits, MeasureSettings, measure_file, run_batch
     from pathlen.cluster import run_on_cluster
@@ -82,6 +84,7 @@ def cluster_part(tmp: Path) -> None:
     print(f"\n{len(files)} demo DXF files; files per minute")
     print(f"  local batch, 1 worker process   {len(files) / local1 * 60:8.0f}")
     per_file = local1 / len(files)
+    extra = {}
     for workers in (1, 2):
         with LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, host="127.0.0.1",
                           dashboard_address=None) as cluster, Client(cluster.scheduler_address) as client:
@@ -89,21 +92,28 @@ def cluster_part(tmp: Path) -> None:
             t = time.perf_counter()
             list(run_on_cluster(client, files, settings, measure_file, FileResult, Limits()))
             wall = time.perf_counter() - t
+            extra[workers] = wall * workers / len(files) - per_file
+            if workers == 2:  # the scheduler's own cost per task: tasks that do nothing
+                tasks = 2000
+                t = time.perf_counter()
+                for _ in as_completed(client.map(operator.neg, range(tasks), pure=False)):
+                    pass
+                per_task = (time.perf_counter() - t) / tasks
         print(f"  Dask, {workers} worker process{'es' if workers > 1 else ''}       {len(files) / wall * 60:8.0f}")
-        if workers == 1:
-            overhead = max(wall / len(files) - per_file, 0.0)
-    # the extra cost per file is mostly on the worker (a limited child process per file), so it scales with
-    # workers; the scheduler's own cost per task is taken as 1 ms (# from memory: Dask's stated order of
-    # magnitude), which caps the rate at 60,000 files per minute
-    print(f"  per file: {per_file * 1000:.0f} ms of work, {overhead * 1000:.0f} ms more on the cluster")
+    cost = max(extra[1], 0.0)
+    print(f"  per file: {per_file * 1000:.1f} ms of work; on the cluster {cost * 1000:.1f} ms more per file and "
+          f"worker; the scheduler {per_task * 1000:.2f} ms per task (2,000 empty tasks)")
+    # simulation from those measurements: W workers each take per_file + cost per file; the scheduler
+    # hands out one task per per_task seconds at most
     for workers in (4, 8, 16):
-        rate = min(workers / (per_file + overhead), 1.0 / 1e-3) * 60
+        rate = min(workers / (per_file + cost), 1.0 / per_task) * 60
         print(f"  simulated {workers:2d} workers             {rate:8.0f}")
 
 
 def main() -> None:
     with tempfile.TemporaryDirectory() as tmp:
-        dxf_part(Path(tmp))
+        if "--cluster-only" not in sys.argv:
+            dxf_part(Path(tmp))
         cluster_part(Path(tmp))
 
 
