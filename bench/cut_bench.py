@@ -29,7 +29,7 @@ from pathlen.contours import chain_contours
 from pathlen.estimates.tour import plan_tour, tour_length
 from pathlen.geometry import Beziers, Drawing, EllipticArcs, Entity, Lines
 from pathlen.measure import measure
-from pathlen.nesting import nesting_depth
+from pathlen.containment import nesting_depth
 from pathlen.segments import segment_layers, segment_table
 
 

@@ -256,6 +256,27 @@ def keep_entities(drawing: Drawing, keep: NDArray[np.bool_]) -> Drawing:
     )
 
 
+def keep_rows(drawing: Drawing, keep: NDArray[np.bool_]) -> Drawing:
+    """The drawing's own segments where ``keep`` holds, ``keep`` given in segment-table row order
+    (lines, arcs, Béziers by increasing degree); placements dropped (expand first), entities kept."""
+    n_lines, n_arcs = len(drawing.lines), len(drawing.arcs)
+    lines, arcs = drawing.lines, drawing.arcs
+    kl, ka = keep[:n_lines], keep[n_lines:n_lines + n_arcs]
+    first = n_lines + n_arcs
+    beziers = {}
+    for d in sorted(drawing.beziers):
+        b = drawing.beziers[d]
+        kb = keep[first:first + len(b)]
+        first += len(b)
+        if kb.any():
+            beziers[d] = Beziers(b.ctrl[kb], b.weights[kb], b.entity[kb])
+    return Drawing(
+        Lines(lines.p0[kl], lines.p1[kl], lines.entity[kl]),
+        EllipticArcs(arcs.center[ka], arcs.u[ka], arcs.v[ka], arcs.t0[ka], arcs.t1[ka], arcs.entity[ka]),
+        beziers, drawing.entities, [], Counter(), recovered=drawing.recovered,
+    )
+
+
 class SegmentCollector:
     """Accumulates segments from an importer and freezes them into a :class:`Drawing`.
 

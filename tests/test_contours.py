@@ -11,7 +11,7 @@ import shapely
 from pathlen.contours import chain_contours, count_contours, duplicate_segments, gap_warnings
 from pathlen.geometry import SegmentCollector
 from pathlen.measure import measure
-from pathlen.nesting import kerf_length_change, nesting_depth
+from pathlen.containment import kerf_length_change, nesting_depth
 from pathlen.segments import segment_layers, segment_table
 
 
@@ -206,7 +206,7 @@ def test_overlapping_collinear_lines():
 def test_points_in_boxes_against_brute_force():
     # Reference: the direct test of every point against every box (numpy broadcasting), including a box as
     # large as the whole field, degenerate boxes and points on box edges.
-    from pathlen.nesting import points_in_boxes
+    from pathlen.containment import points_in_boxes
 
     rng = np.random.default_rng(4)
     pts = rng.uniform(0, 1000, (3000, 2))

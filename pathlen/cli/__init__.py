@@ -8,6 +8,7 @@ import click
 from pathlen.cli.bead import bead
 from pathlen.cli.cut import cut
 from pathlen.cli.measure import measure
+from pathlen.cli.nest import nest
 from pathlen.cli.preview import preview
 from pathlen.cli.profiles import profiles
 from pathlen.cli.seam import seam
@@ -20,7 +21,7 @@ def main() -> None:
     """pathlen: exact path lengths from drawings, with error bounds."""
 
 
-for _command in (measure, cut, seam, bead, preview, profiles, watch):
+for _command in (measure, cut, seam, bead, nest, preview, profiles, watch):
     main.add_command(_command)
 
 __all__ = ["main"]

@@ -158,13 +158,15 @@ def drawing_files(paths: tuple[str, ...]) -> list[str]:
 
 def emit(results: list[Any], fmt: str, output: str | None, table: Callable[[Console], None],
          text: Callable[[], str], cautions: list[str] | None = None, report: str | None = None,
-         document: Callable[[], dict[str, Any]] | None = None) -> None:
+         document: Callable[[], dict[str, Any]] | None = None, figures: list[tuple[str, str]] | None = None,
+         failed: bool = False) -> None:
     """Report a batch (errors and warnings on standard error), the HTML ``report`` of ``document()`` if
-    asked for, and exit 0, or 1 if a file failed."""
+    asked for (with ``figures``, titled SVG pictures, after the files), and exit 0, or 1 if a file
+    failed or ``failed`` (something else the command could not do, said in the report)."""
     if report and document is not None:
         from pathlen.export.report import drawing_pictures, render_report
 
-        write_atomic(report, render_report(document(), drawing_pictures([r.path for r in results if r.ok])))
+        write_atomic(report, render_report(document(), drawing_pictures([r.path for r in results if r.ok]), figures))
     err = Console(stderr=True, highlight=False, soft_wrap=True)
     for r in results:
         if not r.ok:
@@ -187,7 +189,7 @@ def emit(results: list[Any], fmt: str, output: str | None, table: Callable[[Cons
                 err.print(f"warning {plain(r.path)}: {plain(w)}")
         for c in cautions or []:
             err.print(f"caution: {plain(c)}")
-    sys.exit(1 if any(not r.ok for r in results) else 0)
+    sys.exit(1 if failed or any(not r.ok for r in results) else 0)
 
 
 def collect(files: list[str], settings: Any, reading: Reading, work: Callable[[str, Any], Any] = measure_file,

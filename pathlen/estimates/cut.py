@@ -18,6 +18,7 @@ from pathlib import Path
 import numpy as np
 
 from pathlen.batch import FileOutcome, hidden_note, one_line_failure
+from pathlen.containment import contour_polygon, kerf_length_change, nesting_depth, offset_length_change
 from pathlen.contours import (
     DEFAULT_GAP_REPORT_MM,
     DEFAULT_JOIN_TOL_MM,
@@ -34,7 +35,6 @@ from pathlen.estimates.waterjet import WaterjetInputs, waterjet_feed_mm_min
 from pathlen.importers import ImportOptions, read_drawing
 from pathlen.instances import DEFAULT_MAX_SEGMENTS, expand
 from pathlen.measure import DEFAULT_RTOL, measure
-from pathlen.nesting import contour_polygon, kerf_length_change, nesting_depth, offset_length_change
 from pathlen.profiles import Profile
 from pathlen.segments import SegmentTable, segment_layers, segment_table
 

@@ -22,9 +22,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from pathlen.containment import segment_turning
 from pathlen.contours import Contour
 from pathlen.errors import InputError
-from pathlen.nesting import segment_turning
 from pathlen.segments import SegmentTable
 
 #: A vertex whose direction changes by more than this (degrees) ends an edge.

@@ -12,6 +12,7 @@ from pathlib import Path
 
 import numpy as np
 
+from pathlen.containment import nesting_depth
 from pathlen.contours import ContourSet, chain_contours
 from pathlen.errors import InputError
 from pathlen.estimates.seam import sew_line
@@ -21,7 +22,6 @@ from pathlen.geometry import Drawing
 from pathlen.importers.pattern import CUT_LAYERS, NOTCH_LAYERS, SEW_LAYERS, PatternPiece, read_pattern
 from pathlen.instances import expand
 from pathlen.measure import measure
-from pathlen.nesting import nesting_depth
 from pathlen.segments import SegmentTable, segment_layers, segment_table
 
 DEFAULT_ALLOWANCE_MM = 10.0  # common practice: 10-15 mm, 6 mm on tight curves

@@ -79,8 +79,8 @@ def build_scene(drawing: Drawing, title: str, y_down: bool, join_tol: float = DE
                   [(float(m[0]), float(m[1]), float(w)) for m, w in zip(middle, width, strict=True)], box, y_down,
                   list(drawing.warnings), title)
     if cut_order and len(contours):
+        from pathlen.containment import nesting_depth
         from pathlen.estimates.tour import plan_tour
-        from pathlen.nesting import nesting_depth
 
         _, parent = nesting_depth(table, contours)
         tour = plan_tour(contours.start[:, :2], contours.end[:, :2], contours.closed, parent, home)

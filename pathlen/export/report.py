@@ -37,6 +37,7 @@ td.n, th.n { text-align: right; font-variant-numeric: tabular-nums; }
 details.pic { margin: .5rem 0; } details.pic summary { list-style: none; cursor: zoom-in; }
 details.pic summary svg { width: 14rem; height: auto; border: 1px solid var(--line); }
 details.pic[open] summary svg { width: 100%; }
+.figure svg { width: 100%; height: auto; border: 1px solid var(--line); }
 @media print { @page { size: A4; margin: 14mm; } body { max-width: none; padding: 0; }
   details.pic summary svg { width: 9rem; } th { cursor: default; } h2 { break-after: avoid; } }
 """
@@ -142,11 +143,29 @@ def _bead(doc: dict[str, Any]) -> tuple[str, list[tuple[str, str]], list[tuple[s
     return "Sealant beads", totals, cols, rows
 
 
-KINDS = {"pathlen-measure": _measure, "pathlen-cut": _cut, "pathlen-seam": _seam, "pathlen-bead": _bead}
+def _nest(doc: dict[str, Any]) -> tuple[str, list[tuple[str, str]], list[tuple[str, int | None]],
+                                      Callable[[dict[str, Any]], list[list[Any]]]]:
+    u, t = doc["units"], doc["total"]
+    totals = [("copies placed", str(t["copies"])), ("not placed", str(t["unplaced"])),
+              ("sheets" if doc.get("material", {}).get("kind") != "roll" else "roll", str(t["sheets"])),
+              ("used length", f"{_num(t['used_length'], 1)} {u}"),
+              ("utilisation", f"{100 * doc['utilisation']:.1f} %"), ("failed files", str(t["failed"]))]
+    cols = [("part", 0), ("quantity", 0), ("placed", 0), (f"area ({u}²)", 2), (f"cut length ({u})", 2)]
+
+    def rows(f: dict[str, Any]) -> list[list[Any]]:
+        return [[p["part"] + 1, p["quantity"], p["placed"], p["area"], p["cut_length"]] for p in f["parts"]]
+
+    return "Nesting", totals, cols, rows
 
 
-def render_report(doc: dict[str, Any], pictures: dict[str, str] | None = None) -> str:
-    """The HTML page for a command's JSON document; ``pictures`` maps a file path to an SVG picture."""
+KINDS = {"pathlen-nest": _nest, "pathlen-measure": _measure, "pathlen-cut": _cut, "pathlen-seam": _seam,
+         "pathlen-bead": _bead}
+
+
+def render_report(doc: dict[str, Any], pictures: dict[str, str] | None = None,
+                  figures: list[tuple[str, str]] | None = None) -> str:
+    """The HTML page for a command's JSON document; ``pictures`` maps a file path to an SVG picture,
+    ``figures`` are titled SVG pictures shown after the files (a nest's sheets)."""
     title, totals, cols, rows = KINDS[doc["format"]](doc)
     pictures = pictures or {}
     parts = ["<!DOCTYPE html>", '<html lang="en"><head><meta charset="utf-8">',
@@ -168,6 +187,12 @@ def render_report(doc: dict[str, Any], pictures: dict[str, str] | None = None) -
         parts.append(f'<div class="wrap"><table class="sortable"><thead><tr>{head}</tr></thead>'
                      f"<tbody>{body}</tbody></table></div>")
         parts += [f'<p class="warn">warning: {escape(w)}</p>' for w in f.get("warnings", [])]
+    for title, svg in figures or []:
+        parts.append(f"<h2>{escape(title)}</h2>")
+        parts.append(f'<div class="figure">{svg[svg.index("<svg"):]}</div>')
+    for u in doc.get("unplaced", []):
+        parts.append(f'<p class="failed">not placed: {escape(str(u["file"]))} part {u["part"] + 1}, {u["count"]} '
+                     f'copies: {escape(u["reason"])}</p>')
     for c in doc.get("cautions", []):
         parts.append(f'<p class="caution">{escape(c)}</p>')
     parts.append(f"<script>{SORTER}</script></body></html>")
