@@ -66,7 +66,8 @@ def pack_strip(items: list[StripItem], height: float, time_s: float, seed: int |
 
     The engine runs in a thread of its own; this thread collects its progress reports.  On Ctrl-C
     the best feasible layout reported so far is returned (``interrupted``), or the interrupt goes on
-    when there is none yet.  ``seed`` makes the answer repeatable for a given time budget.
+    when there is none yet.  With a ``seed`` the engine runs on one thread, so that the same order,
+    seed and time give the same layout on the same machine.
     """
     import spyrrow
 
@@ -84,8 +85,10 @@ def pack_strip(items: list[StripItem], height: float, time_s: float, seed: int |
     except ValueError as exc:
         raise UsageError(f"the nesting engine refused the parts: {exc}") from None
     total = max(1, math.ceil(time_s))
+    # with a seed the engine runs on one thread: threads racing each other would change the answer
+    workers = 1 if seed is not None else len(os.sched_getaffinity(0))
     config = spyrrow.StripPackingConfig(early_termination=True, total_computation_time=total,
-                                        num_workers=len(os.sched_getaffinity(0)), seed=seed)
+                                        num_workers=workers, seed=seed)
     queue = spyrrow.ProgressQueue()
     box: dict[str, object] = {}
 

@@ -66,20 +66,22 @@ def fill_holes(variants: list[Variant], demand: list[int]) -> tuple[dict[tuple[i
     fills: dict[tuple[int, int], list[Guest]] = {}
     hosts = [v for v, var in enumerate(variants) if var.holes and not var.mirrored and left[v] > 0]
     hosts.sort(key=lambda v: -max(shapely.Polygon(h).area for h in variants[v].holes))
-    # a host is never a guest: its copies all go to the engine, each carrying its own guests
-    by_size = sorted((g for g in range(len(variants)) if g not in hosts), key=lambda g: -variants[g].area)
+    by_size = sorted(range(len(variants)), key=lambda g: -variants[g].area)
+    filled: set[int] = set()  # hosts holding guests: they go to the engine, never into another hole
     for v in hosts:
         pattern: list[Guest] | None = None
-        for copy in range(demand[v]):
+        for copy in range(left[v]):  # the copies of v still going to the engine (not themselves in a hole)
             counts = _counts(pattern) if pattern is not None else {}
             if pattern is None or any(left[g] < n for g, n in counts.items()):
-                pattern = _fill_one(variants, v, [g for g in by_size if left[g] > 0], left)
+                pattern = _fill_one(variants, v, [g for g in by_size if g != v and g not in filled and left[g] > 0],
+                                    left)
                 counts = _counts(pattern)
             if not pattern:
                 break
             for g, n in counts.items():
                 left[g] -= n
             fills[(v, copy)] = pattern
+            filled.add(v)
     return fills, left
 
 
