@@ -43,6 +43,9 @@ class FileOutcome:
     path: str
     ok: bool
     error: str | None = None
+    #: the failure came from the surroundings (a limit, a dead worker, a file gone, a lost cluster), not
+    #: from the file's content: worth trying again, never to be remembered as the content's answer
+    environment: bool = False
 
 
 @dataclass
@@ -93,7 +96,7 @@ def one_line_failure(path: str, work: Callable[[], Any], failed: Callable[..., A
     except PathlenError as exc:
         return failed(path, ok=False, error=str(exc))
     except MemoryError:
-        return failed(path, ok=False, error=f"needed more than {_limit_phrase()}")
+        return failed(path, ok=False, error=f"needed more than {_limit_phrase()}", environment=True)
     except RecursionError:
         return failed(path, ok=False, error="structure nested too deeply")
     except Exception as exc:  # noqa: BLE001 - one bad file must not stop the batch
@@ -210,12 +213,53 @@ def _limit_memory(mb: int) -> None:
     _memory_limit_mb = mb
 
 
-def _worker(conn: Any, work: Callable[[str, Any], Any], settings: Any, limits: Limits, own_threads: bool) -> None:
-    """A worker process: measure the files it is sent, one at a time, under the memory limit."""
+#: Seconds a worker lets pass beyond the per-file limit before its own alarm ends it (the parent
+#: normally ends it first; the alarm holds when the parent is gone or stuck).
+WORKER_GRACE_S = 5.0
+
+
+def tie_to_parent() -> None:
+    """Ask the kernel to kill this process when its parent dies (Linux ``PR_SET_PDEATHSIG``), and exit
+    at once if the parent is already gone: a worker never outlives the command that started it.
+
+    The signal follows the thread that forked the child: forks happen from the thread that runs the
+    batch, which lives as long as the batch.  Elsewhere (no prctl) :func:`parent_gone` is checked before
+    each file instead.
+    """
+    import ctypes
     import signal
 
+    try:
+        libc = ctypes.CDLL(None, use_errno=True)
+        libc.prctl(1, int(signal.SIGKILL), 0, 0, 0)  # PR_SET_PDEATHSIG = 1
+    except (OSError, AttributeError):
+        pass
+    if parent_gone():
+        os._exit(0)
+
+
+_PARENT = os.getpid()
+
+
+def parent_gone() -> bool:
+    """Whether the process that forked this worker has ended (the worker was handed to init)."""
+    return os.getppid() != _PARENT
+
+
+def _worker(conn: Any, work: Callable[[str, Any], Any], settings: Any, limits: Limits, own_threads: bool,
+            parent: int) -> None:
+    """A worker process: measure the files it is sent, one at a time, under the memory limit and under
+    an alarm of its own (the time limit plus a grace), tied to its parent's life."""
+    import signal
+
+    global _PARENT
+    _PARENT = parent
+    tie_to_parent()
     signal.signal(signal.SIGINT, signal.SIG_IGN)  # Ctrl-C is the parent's to handle
-    signal.signal(signal.SIGTERM, signal.SIG_DFL)  # not the parent's handler (the watch service sets one)
+    # SIGTERM to the process group (a service manager stopping the service) is the parent's to handle:
+    # it requeues the file in hand and ends this worker; the worker ends anyway when the parent exits
+    signal.signal(signal.SIGTERM, signal.SIG_IGN)
+    signal.signal(signal.SIGALRM, signal.SIG_DFL)  # the alarm below ends the process, GIL or not
     if not own_threads:
         from pathlen.measure import planar_cubic
 
@@ -228,12 +272,15 @@ def _worker(conn: Any, work: Callable[[str, Any], Any], settings: Any, limits: L
     while True:
         try:
             job = conn.recv()
-        except EOFError:
+        except (EOFError, OSError):
             return
-        if job is None:
+        if job is None or parent_gone():
             return
         index, path = job
-        conn.send((index, work(path, settings)))
+        signal.setitimer(signal.ITIMER_REAL, limits.timeout_s * 1.1 + WORKER_GRACE_S)
+        result = work(path, settings)
+        signal.setitimer(signal.ITIMER_REAL, 0)
+        conn.send((index, result))
 
 
 class _Slot:
@@ -242,7 +289,8 @@ class _Slot:
     def __init__(self, ctx: Any, work: Callable[[str, Any], Any], settings: Any, limits: Limits,
                  own_threads: bool) -> None:
         self.conn, child = ctx.Pipe()
-        self.process = ctx.Process(target=_worker, args=(child, work, settings, limits, own_threads), daemon=True)
+        self.process = ctx.Process(target=_worker, args=(child, work, settings, limits, own_threads, os.getpid()),
+                                   daemon=True)
         self.process.start()
         child.close()
         self.index: int | None = None
@@ -282,7 +330,8 @@ def _death(process: Any) -> str:
 
 def run_batch(paths: list[str], settings: Any, jobs: int = 1,
               work: Callable[[str, Any], Any] = measure_file,
-              failed: Callable[..., Any] = FileResult, limits: Limits = Limits()) -> Iterator[tuple[int, Any]]:
+              failed: Callable[..., Any] = FileResult, limits: Limits = Limits(),
+              started: Callable[[int], None] | None = None, stop: Any = None) -> Iterator[tuple[int, Any]]:
     """Yield ``(index, work(path, settings))`` for every path as results finish.
 
     Every file is measured in a worker process (``jobs`` of them; 0: one per core) under
@@ -298,7 +347,7 @@ def run_batch(paths: list[str], settings: Any, jobs: int = 1,
     ctx = multiprocessing.get_context("fork")
     spawn = lambda: _Slot(ctx, work, settings, limits, own_threads=workers == 1)  # noqa: E731
     slots = [spawn() for _ in range(workers)]
-    return _drive(paths, slots, spawn, failed, limits)
+    return _drive(paths, slots, spawn, failed, limits, started=started, stop=stop)
 
 
 class KeptWorker:
@@ -320,9 +369,12 @@ class KeptWorker:
 
 
 def _drive(paths: list[str], slots: list[_Slot], spawn: Callable[[], _Slot], failed: Callable[..., Any],
-           limits: Limits, keep: bool = False) -> Iterator[tuple[int, Any]]:
+           limits: Limits, keep: bool = False, started: Callable[[int], None] | None = None,
+           stop: Any = None) -> Iterator[tuple[int, Any]]:
     """Hand ``paths`` to the worker ``slots`` and yield results as they come; ``keep``: leave idle workers
-    running at the end (a worker still busy, say when the caller stops early, is killed and replaced)."""
+    running at the end (a worker still busy, say when the caller stops early, is killed and replaced).
+    ``started(i)`` is told when file i goes to a worker; once ``stop`` (an Event) is set, no file is
+    handed out, the busy workers are ended and the generator returns (their files are not answered)."""
     import time
     from multiprocessing.connection import wait
 
@@ -331,15 +383,18 @@ def _drive(paths: list[str], slots: list[_Slot], spawn: Callable[[], _Slot], fai
     try:
         while True:
             for slot in slots:
-                if slot.index is None and queue:
+                if slot.index is None and queue and not (stop is not None and stop.is_set()):
                     i = queue.pop()
+                    if started is not None:
+                        started(i)
                     slot.give(i, paths[i])
             busy = [s for s in slots if s.index is not None]
-            if not busy:
+            if not busy or (stop is not None and stop.is_set()):
                 return
             now = time.monotonic()
             soonest = min(s.started + limits.timeout_s for s in busy)
-            ready = wait([s.conn for s in busy] + [s.process.sentinel for s in busy], max(0.0, soonest - now))
+            pause = max(0.0, soonest - now) if stop is None else min(max(0.0, soonest - now), 0.25)
+            ready = wait([s.conn for s in busy] + [s.process.sentinel for s in busy], pause)
             for k, slot in enumerate(slots):
                 if slot.index is None:
                     continue
@@ -355,12 +410,12 @@ def _drive(paths: list[str], slots: list[_Slot], spawn: Callable[[], _Slot], fai
                         continue
                 if slot.process.sentinel in ready or slot.conn in ready:
                     slot.process.join(5)  # the pipe can close a moment before the exit status is known
-                    yield i, failed(paths[i], ok=False, error=_death(slot.process))
+                    yield i, failed(paths[i], ok=False, error=_death(slot.process), environment=True)
                     slot.stop(kill=True)
                     slots[k] = spawn()
                 elif time.monotonic() - slot.started >= limits.timeout_s:
                     slot.stop(kill=True)
-                    yield i, failed(paths[i], ok=False,
+                    yield i, failed(paths[i], ok=False, environment=True,
                                     error=f"stopped after {limits.timeout_s:g} s: the time limit per file (--timeout)")
                     slots[k] = spawn()
     finally:

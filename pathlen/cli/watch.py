@@ -18,6 +18,13 @@ from pathlen.errors import PathlenError
 @click.option("--profiles", "profile_files", multiple=True, type=click.Path(dir_okay=False),
               help="A TOML file of your own profiles (--task cut).")
 @click.option("--bead", "bead_spec", metavar="SPEC", help="Bead section (--task bead), e.g. rect:12x6.")
+@click.option("--plan", "plan_file", type=click.Path(dir_okay=False), help="A seam or bead plan (--task seam, bead).")
+@click.option("--quantity", "-q", type=click.IntRange(min=1), help="Parts (cut) or garments (seam) per drawing.")
+@click.option("--layers", help="Layers to cut (--task cut), comma-separated.")
+@click.option("--engrave", help="Layers engraved (--task cut), comma-separated.")
+@click.option("--ignore", help="Layers left out (--task cut), comma-separated.")
+@click.option("--dedupe", is_flag=True, default=None, help="Cut segments drawn twice once (--task cut).")
+@click.option("--recover", is_flag=True, default=None, help="Measure what can be read of damaged DXF files.")
 @click.option("--poll", type=click.FloatRange(min=0.05), default=2.0, show_default=True, metavar="S",
               help="Seconds between scans of the inbox (the safety net under change events).")
 @click.option("--settle", type=click.FloatRange(min=0), default=2.0, show_default=True, metavar="S",
@@ -41,21 +48,30 @@ from pathlen.errors import PathlenError
                    "inbox at the same path.")
 @click.option("--status", "status_of", type=click.Path(file_okay=False, path_type=Path), metavar="OUTBOX",
               help="Print the ledger's counts and last failures for OUTBOX, then exit.")
+@click.option("--json", "status_json", is_flag=True, help="With --status: as a JSON object.")
 def watch(inbox: Path | None, outbox: Path | None, task: str, profile: str | None, profile_files: tuple[str, ...],
-          bead_spec: str | None, poll: float, settle: float, jobs: int, timeout: float, max_memory: int,
+          bead_spec: str | None, plan_file: str | None, quantity: int | None, layers: str | None,
+          engrave: str | None, ignore: str | None, dedupe: bool | None, recover: bool | None, poll: float,
+          settle: float, jobs: int, timeout: float, max_memory: int,
           state: Path | None, keep: bool, once: bool, no_events: bool, log_json: bool, service_file: str | None,
-          write_csv: bool, status_of: Path | None, scheduler: str | None) -> None:
+          write_csv: bool, status_of: Path | None, status_json: bool, scheduler: str | None) -> None:
     """Measure or estimate every drawing dropped into INBOX, results into OUTBOX, never losing or repeating a job."""
     from pathlen.watch.service import Service, WatchConfig, status
     from pathlen.watch.tasks import build_task, load_service_file
 
     if status_of is not None:
-        click.echo(status(status_of, state))
+        try:
+            click.echo(status(status_of, state, status_json))
+        except PathlenError as exc:
+            raise click.UsageError(str(exc)) from None
         return
     if inbox is None or outbox is None:
         raise click.UsageError("give INBOX and --out OUTBOX (or --status OUTBOX)")
+    options = {"profile": profile, "bead": bead_spec, "plan": str(Path(plan_file).resolve()) if plan_file else None,
+               "quantity": quantity, "layers": layers, "engrave": engrave, "ignore": ignore, "dedupe": dedupe,
+               "recover": recover}
     try:
-        chosen = build_task(task, profile, profile_files, bead_spec)
+        chosen = build_task(task, options, profile_files, f"watch --task {task}")
         tasks = load_service_file(Path(service_file), chosen, profile_files) if service_file else {"": chosen}
     except PathlenError as exc:
         raise click.UsageError(str(exc)) from None

@@ -13,6 +13,7 @@ import re
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from pathlen.batch import FileOutcome
 from pathlen.errors import UsageError
 from pathlen.tomlfile import read_toml
 
@@ -172,12 +173,9 @@ class BeadSettings:
 
 
 @dataclass
-class BeadEstimate:
+class BeadEstimate(FileOutcome):
     """One file's bead estimate, or its one-line error."""
 
-    path: str
-    ok: bool
-    error: str | None = None
     lines: list[BeadLine] = field(default_factory=list)
     length_mm: float = 0.0
     volume_ml: float = 0.0

@@ -12,6 +12,7 @@ from pathlib import Path
 
 import numpy as np
 
+from pathlen.batch import FileOutcome
 from pathlen.containment import nesting_depth
 from pathlen.contours import ContourSet, chain_contours
 from pathlen.errors import InputError
@@ -85,10 +86,7 @@ class Match:
 
 
 @dataclass
-class SeamEstimate:
-    path: str
-    ok: bool
-    error: str | None = None
+class SeamEstimate(FileOutcome):
     pieces: list[PieceSeams] = field(default_factory=list)
     matches: list[Match] = field(default_factory=list)
     quantity: int = 1

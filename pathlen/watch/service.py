@@ -1,10 +1,19 @@
 """The watch loop: find settled drawings, answer known ones from the ledger, run the rest in worker
-processes under the per-file limits, write results atomically, move originals, log.
+processes under the per-file limits, deliver results, move originals, log.
 
-Order per job, so that a crash at any point loses nothing and writes nothing twice: the ledger
-records the job as running; the worker measures; the ledger records the result; the result file is
-written (skipped if an identical one is there); the original is moved.  On start, jobs a crash left
-running are queued again; their files are still in the inbox, or their result is in the ledger.
+Order of effects, so that a crash at any point loses nothing and writes nothing twice:
+
+1. the ledger records the job as queued; a worker taking it marks it running (an attempt);
+2. the ledger records the answer: done or failed (the content's own answer, remembered), or error (a
+   limit, a dead worker, a vanished file, a lost cluster: reported, never remembered);
+3. the ledger records the delivery's intent: the result or note file and the original's new place;
+4. the result (or error note) is written atomically, then the summary line (once per delivery);
+5. the original is moved (or, with ``--keep``, remembered as seen); the delivery is closed.
+
+On start the service sweeps temporary files, queues jobs a crash left running and finishes every
+delivery the ledger holds open.  One service per inbox and per ledger (locks the kernel drops when
+the process dies).  SIGTERM or Ctrl-C: the file in hand goes back to the queue, not charged, and
+the service stops.
 """
 
 from __future__ import annotations
@@ -12,6 +21,7 @@ from __future__ import annotations
 import hashlib
 import json
 import signal
+import sqlite3
 import sys
 import threading
 import time
@@ -19,10 +29,23 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from pathlen.batch import Limits, run_batch
-from pathlen.watch.ledger import MAX_ATTEMPTS, Ledger
-from pathlen.watch.outputs import append_summary, inside, move_unique, safe_relative, same_content, write_atomic
+from pathlen.watch.ledger import MAX_ATTEMPTS, Delivery, Ledger, LedgerError, db_text, lock_inbox
+from pathlen.watch.outputs import (
+    append_summary,
+    inside,
+    log_value,
+    move_unique,
+    safe_relative,
+    same_content,
+    sweep_temporaries,
+    unique,
+    write_atomic,
+)
 from pathlen.watch.scan import Candidate, Settling, scan
-from pathlen.watch.tasks import Task
+from pathlen.watch.tasks import Task, headline
+
+#: Longest pause (s) after an operational fault (a full disk, a read-only folder) before trying again.
+MAX_BACKOFF_S = 30.0
 
 
 @dataclass(frozen=True)
@@ -54,16 +77,27 @@ def check_folders(inbox: Path, outbox: Path) -> None:
         raise ValueError("the inbox and the outbox must not overlap")
 
 
+def content_hash(path: Path) -> str:
+    """SHA-256 of a file, read in blocks (memory does not grow with the file)."""
+    with path.open("rb") as fh:
+        return hashlib.file_digest(fh, "sha256").hexdigest()
+
+
 class Service:
     def __init__(self, cfg: WatchConfig) -> None:
         check_folders(cfg.inbox, cfg.outbox)
         self.cfg = cfg
-        cfg.outbox.mkdir(parents=True, exist_ok=True)
+        try:
+            cfg.outbox.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            raise LedgerError(f"cannot create the outbox {cfg.outbox}: {exc.strerror or exc}") from None
+        self._inbox_lock = lock_inbox(cfg.inbox)
         self.ledger = Ledger(cfg.state / "ledger.sqlite")
         self.settling = Settling(cfg.settle_s)
         self.stop = threading.Event()
         self.wake = threading.Event()
         self.retries: dict[str, int] = {}
+        self.backoff = 0.0
         self.client = None
         if cfg.scheduler:
             from pathlen.cluster import connect
@@ -73,15 +107,18 @@ class Service:
     # -- logging --------------------------------------------------------------------------
     def log(self, event: str, **fields: object) -> None:
         if self.cfg.log_json:
-            line = json.dumps({"time": time.strftime("%Y-%m-%dT%H:%M:%S"), "event": event, **fields})
+            line = json.dumps({"time": time.strftime("%Y-%m-%dT%H:%M:%S"), "event": event,
+                               **{k: str(v) for k, v in fields.items()}})
         else:
-            line = " ".join([time.strftime("%H:%M:%S"), event, *(f"{k}={v}" for k, v in fields.items())])
+            line = " ".join([time.strftime("%H:%M:%S"), event, *(f"{k}={log_value(v)}" for k, v in fields.items())])
         print(line, file=sys.stderr, flush=True)
 
     # -- the loop -------------------------------------------------------------------------
     def run(self) -> int:
-        for job in self.ledger.recover():
-            self.log("requeued", path=job.path, attempts=job.attempts)
+        try:
+            self.recover()
+        except (OSError, sqlite3.Error) as exc:
+            self._fault(exc, "finishing what the last run left")
         observer = self._observer() if self.cfg.events and not self.cfg.once else None
         for sig in (signal.SIGTERM, signal.SIGINT):
             signal.signal(sig, lambda *_: (self.stop.set(), self.wake.set()))
@@ -89,13 +126,16 @@ class Service:
                  tasks=",".join(f"{k or '*'}:{t.name}" for k, t in self.cfg.tasks.items()))
         try:
             while not self.stop.is_set():
-                ready, waiting = self.settling.ready([c for c in scan(self.cfg.inbox) if not self._seen(c)])
-                if ready:
-                    groups: dict[str, list[Candidate]] = {}
-                    for c in ready:
-                        groups.setdefault(self.folder_of(c), []).append(c)
-                    for folder, members in groups.items():
-                        self.process(members, self.cfg.tasks[folder])
+                try:
+                    busy, waiting = self._round()
+                    self.backoff = 0.0
+                except (OSError, sqlite3.Error) as exc:
+                    self._fault(exc, "delivering results")
+                    if self.cfg.once:
+                        return 1
+                    self.stop.wait(self.backoff)
+                    continue
+                if busy:
                     continue
                 if self.cfg.once and waiting == 0:
                     break
@@ -110,6 +150,26 @@ class Service:
                 self.client.close()
         self.log("stopped")
         return 0
+
+    def _fault(self, exc: BaseException, doing: str) -> None:
+        """One line for an operational fault; the files stay in the inbox and are tried again later."""
+        self.backoff = min(MAX_BACKOFF_S, max(self.cfg.poll_s, 2 * self.backoff))
+        where = getattr(exc, "filename", None) or (self.ledger.path if isinstance(exc, sqlite3.Error) else "")
+        reason = getattr(exc, "strerror", None) or str(exc) or type(exc).__name__
+        self.log("fault", doing=doing, where=str(where), reason=reason,
+                 action=f"files stay in the inbox; trying again in {self.backoff:g} s (check the folder's "
+                        "permissions and free space)")
+
+    def _round(self) -> tuple[bool, int]:
+        ready, waiting = self.settling.ready([c for c in scan(self.cfg.inbox) if not self._seen(c)])
+        if not ready:
+            return False, waiting
+        groups: dict[str, list[Candidate]] = {}
+        for c in ready:
+            groups.setdefault(self.folder_of(c), []).append(c)
+        for folder, members in groups.items():
+            self.process(members, self.cfg.tasks[folder])
+        return True, waiting
 
     def _observer(self) -> object | None:
         """Change events wake the loop early (where the file system delivers them); polling stays the net."""
@@ -137,66 +197,118 @@ class Service:
     def _seen(self, c: Candidate) -> bool:
         return self.cfg.keep and self.ledger.seen(c.rel, c.size, c.mtime_ns)
 
+    def _key(self, digest: str, task: Task) -> str:
+        lim = self.cfg.limits
+        return f"{digest}|{task.name}|{task.options_key}|timeout={lim.timeout_s:g}|memory={lim.max_memory_mb}"
+
+    # -- start-up: finish what a crash left ------------------------------------------------
+    def recover(self) -> None:
+        swept = sweep_temporaries(self.cfg.outbox)
+        if swept:
+            self.log("swept", temporaries=swept)
+        for job in self.ledger.recover():
+            self.log("requeued", path=job.path, attempts=job.attempts)
+        present = {db_text(c.rel): c for c in scan(self.cfg.inbox)}
+        for d in self.ledger.unfinished():
+            job = self.ledger.job(d.key)
+            c = present.get(d.path)
+            if c is not None and (c.size, c.mtime_ns) != (d.size, d.mtime_ns):
+                c = None  # a new file under the old name: it is taken as new
+            src = c.path if c is not None else None
+            self._complete(d, src, job.result if job else None, job.error if job else "failed",
+                           None, job.task if job else "", d.path, d.key.split("|", 1)[0])
+            self.log("finished", path=d.path, delivery=d.id)
+
     # -- one round ------------------------------------------------------------------------
     def process(self, ready: list[Candidate], task: Task) -> None:
-        to_run: list[tuple[Candidate, str]] = []
+        to_run: list[tuple[Candidate, str, str]] = []
         running: set[str] = set()
-        twins: list[tuple[Candidate, str]] = []  # same content as a file run in this round: answered after it
+        twins: list[tuple[Candidate, str, str]] = []  # same content as a file run in this round: answered after
         for c in ready:
             if self.stop.is_set():
                 return
             try:
-                digest = hashlib.sha256(c.path.read_bytes()).hexdigest()
+                digest = content_hash(c.path)
             except OSError as exc:
                 self.log("unreadable", path=c.rel, error=exc.strerror or str(exc))
                 self.settling.forget(c.rel)
                 continue
-            key = f"{digest}|{task.name}|{task.options_key}"
+            key = self._key(digest, task)
             job = self.ledger.job(key)
             if key in running:
-                twins.append((c, key))
+                twins.append((c, key, digest))
             elif job is not None and job.state in ("done", "failed"):
-                self.deliver(c, key, job.state == "done", job.result, job.error, True, task)
+                self.deliver(c, key, digest, job.state == "done", job.result, job.error, True, task)
             else:
-                self.ledger.start(key, c.rel, task.name)
-                to_run.append((c, key))
+                self.ledger.queue(key, c.rel, task.name)
+                to_run.append((c, key, digest))
                 running.add(key)
         if to_run:
             self._run(to_run, task)
-        for c, key in twins:
+        for c, key, digest in twins:
             job = self.ledger.job(key)
             if job is not None and job.state in ("done", "failed") and not self.stop.is_set():
-                self.deliver(c, key, job.state == "done", job.result, job.error, True, task)
+                self.deliver(c, key, digest, job.state == "done", job.result, job.error, True, task)
             else:
                 self.settling.forget(c.rel)  # taken again in the next round
 
-    def _run(self, to_run: list[tuple[Candidate, str]], task: Task) -> None:
-        """Run the jobs in worker processes and deliver each result as it finishes."""
-        paths = [str(c.path) for c, _ in to_run]
+    def _batch(self, paths: list[str], task: Task, started: object) -> object:
         if self.client is not None:
             from pathlen.cluster import run_on_cluster
 
-            batch = run_on_cluster(self.client, paths, task.settings, task.work, task.failed, self.cfg.limits)
-        else:
-            batch = run_batch(paths, task.settings, self.cfg.jobs, task.work, task.failed, self.cfg.limits)
-        for i, result in batch:
-            c, key = to_run[i]
-            if not result.ok and self._retry_later(c):
-                self.ledger.finish(key, False, None, None)
-                self.ledger.db.execute("UPDATE jobs SET state = 'queued' WHERE key = ?", (key,))
-                self.log("retry", path=c.rel, error=result.error)
-                self.settling.forget(c.rel)
-                continue
-            text = json.dumps(task.document(result), indent=2) + "\n"
-            self.ledger.finish(key, result.ok, text if result.ok else None, result.error)
-            table = task.csv(result) if self.cfg.csv and task.csv and result.ok else None
-            self.deliver(c, key, result.ok, text if result.ok else None, result.error, False, task, table)
-            if self.stop.is_set():  # the rest stay queued in the ledger and their files in the inbox
-                for _, other in to_run:
-                    self.ledger.db.execute("UPDATE jobs SET state = 'queued' WHERE key = ? AND state = 'running'",
-                                           (other,))
-                self.log("stopping", requeued="the jobs not finished")
-                break
+            return run_on_cluster(self.client, paths, task.settings, task.work, task.failed, self.cfg.limits)
+        return run_batch(paths, task.settings, self.cfg.jobs, task.work, task.failed, self.cfg.limits,
+                         started=started, stop=self.stop)  # type: ignore[arg-type]
+
+    def _run(self, to_run: list[tuple[Candidate, str, str]], task: Task) -> None:
+        """Run the jobs in worker processes and deliver each result as it finishes."""
+        paths = [str(c.path) for c, _, _ in to_run]
+        answered: set[int] = set()
+        on_cluster = self.client is not None
+        if on_cluster:  # the cluster does not say when a task starts: charged as it is sent
+            for _, key, _ in to_run:
+                self.ledger.start(key)
+        try:
+            for i, result in self._batch(paths, task, lambda i: self.ledger.start(to_run[i][1])):  # type: ignore
+                answered.add(i)
+                self._answer(to_run[i], result, task)
+                if self.stop.is_set():
+                    break
+        except (OSError, sqlite3.Error):
+            raise
+        except Exception as exc:  # a cluster that went away: carry on locally
+            if not on_cluster:
+                raise
+            self.log("cluster-lost", scheduler=str(self.cfg.scheduler), error=str(exc).splitlines()[0][:200]
+                     if str(exc) else type(exc).__name__, action="running on local workers from now on")
+            self.client = None
+        finally:
+            for i, (c, key, _) in enumerate(to_run):
+                if i not in answered:
+                    self.ledger.release(key)  # back in the queue, the attempt not charged
+                    self.settling.forget(c.rel)
+            if self.stop.is_set() and len(answered) < len(to_run):
+                self.log("stopping", requeued=len(to_run) - len(answered))
+
+    def _answer(self, item: tuple[Candidate, str, str], result: object, task: Task) -> None:
+        c, key, digest = item
+        ok = bool(getattr(result, "ok", False))
+        error = getattr(result, "error", None)
+        environment = bool(getattr(result, "environment", False))
+        if not ok and not c.path.exists():  # renamed or removed while queued: nothing to answer
+            self.ledger.finish(key, "error", None, error)
+            self.settling.forget(c.rel)
+            self.log("vanished", path=c.rel, error=error)
+            return
+        if not ok and not environment and self._retry_later(c):
+            self.ledger.finish(key, "error", None, error)
+            self.log("retry", path=c.rel, error=error)
+            self.settling.forget(c.rel)
+            return
+        text = json.dumps(task.document(result), indent=2) + "\n" if ok else None
+        self.ledger.finish(key, "done" if ok else ("error" if environment else "failed"), text, error)
+        table = task.csv(result) if self.cfg.csv and task.csv and ok else None
+        self.deliver(c, key, digest, ok, text, error, False, task, table)
 
     def _retry_later(self, c: Candidate) -> bool:
         """A file that failed while it was written to recently gets another settle period (bounded)."""
@@ -210,50 +322,79 @@ class Service:
             return True
         return False
 
-    def deliver(self, c: Candidate, key: str, ok: bool, text: str | None, error: str | None, answered: bool,
-                task_of: Task, table: str | None = None) -> None:
-        """Result (or error note) into the outbox, the original moved (or kept), the summary line."""
+    # -- delivery -------------------------------------------------------------------------
+    def deliver(self, c: Candidate, key: str, digest: str, ok: bool, text: str | None, error: str | None,
+                answered: bool, task: Task, table: str | None = None) -> None:
+        """Intent in the ledger, then result (or note) and summary line, then the original moved."""
         out = self.cfg.outbox
-        rel = safe_relative(c.rel)
-        task = task_of.name
-        result_path = None
-        if ok and text is not None:
-            result_path = inside(out, out / "results" / rel.parent / f"{rel.name}.{task}.json")
-            if not same_content(result_path, text):
-                write_atomic(result_path, text)
-            if table is not None:
-                write_atomic(result_path.with_suffix(".csv"), table)
-            destination = out / "done" / rel
-        else:
-            destination = out / "failed" / rel
-        if self.cfg.keep:
-            self.ledger.mark_seen(c.rel, c.size, c.mtime_ns, key)
-        elif c.path.exists():
-            moved = move_unique(c.path, inside(out, destination))
-            if not ok:
-                write_atomic(moved.with_name(moved.name + ".error.txt"), (error or "failed") + "\n")
-        elif not ok:
-            note = inside(out, destination.with_name(destination.name + ".error.txt"))
-            write_atomic(note, (error or "failed") + "\n")
+        d = self.ledger.open_delivery(c.rel, c.size, c.mtime_ns)
+        if d is None:
+            rel = safe_relative(c.rel)
+            destination = None if self.cfg.keep else unique(inside(out, out / ("done" if ok else "failed") / rel))
+            if ok:
+                result = unique(inside(out, out / "results" / rel.parent / f"{rel.name}.{task.name}.json"))
+            elif destination is not None:
+                result = destination.with_name(destination.name + ".error.txt")
+            else:
+                result = unique(inside(out, out / "failed" / rel.parent / f"{rel.name}.error.txt"))
+            d = self.ledger.intend(c.rel, c.size, c.mtime_ns, key, ok, str(result.relative_to(out)),
+                                   str(destination.relative_to(out)) if destination else None)
+        self._complete(d, c.path, text, error, table, task.name, c.rel, digest)
         self.settling.forget(c.rel)
-        append_summary(out, {"time": time.strftime("%Y-%m-%dT%H:%M:%S"), "path": c.rel, "task": task,
-                             "ok": str(ok).lower(), "error": error or "",
-                             "result": str(result_path.relative_to(out)) if result_path else ""})
         self.log("answered" if answered else ("done" if ok else "failed"), path=c.rel,
                  **({"error": error} if not ok else {}))
 
+    def _complete(self, d: Delivery, src: Path | None, text: str | None, error: str | None, table: str | None,
+                  task: str, rel: str, digest: str) -> None:
+        """Steps 4 and 5 of a delivery; each is done again safely after a crash."""
+        out = self.cfg.outbox
+        result = out / d.result if d.result else None
+        head = ""
+        if d.ok and text is not None and result is not None:
+            doc = json.loads(text)
+            doc["source"] = {"inbox_path": db_text(rel), "sha256": digest,
+                             "moved_to": d.destination, "kept": d.destination is None}
+            head = headline(doc)
+            full = json.dumps(doc, indent=2) + "\n"
+            if not same_content(result, full):
+                write_atomic(result, full)
+            if table is not None:
+                write_atomic(result.with_suffix(".csv"), table)
+        elif result is not None:
+            note = (error or "failed") + "\n"
+            if not same_content(result, note):
+                write_atomic(result, note)
+        self.ledger.advance(d, "written")
+        append_summary(out, {"time": time.strftime("%Y-%m-%dT%H:%M:%S"), "path": db_text(rel), "task": task,
+                             "ok": str(d.ok).lower(), "error": "" if d.ok else (error or "failed"),
+                             "result": d.result or "", "original": d.destination or "(kept in the inbox)",
+                             "headline": head, "delivery": str(d.id)})
+        if self.cfg.keep:
+            if src is not None and src.exists():
+                st = src.stat()
+                self.ledger.mark_seen(rel, st.st_size, st.st_mtime_ns, d.key)
+        elif src is not None and src.exists() and d.destination:
+            target = out / d.destination
+            move_unique(src, target, exact=not target.exists())
+        self.ledger.advance(d, "moved")
 
-def status(outbox: Path, state: Path | None = None) -> str:
-    """Counts by state and the last failures, from the ledger."""
+
+def status(outbox: Path, state: Path | None = None, as_json: bool = False) -> str:
+    """Counts by state, open deliveries and the last failures, from the ledger (read without locking)."""
     path = (state or outbox / ".pathlen") / "ledger.sqlite"
     if not path.exists():
-        return f"no ledger at {path}"
-    ledger = Ledger(path)
+        return json.dumps({"ledger": str(path), "exists": False}) if as_json else f"no ledger at {path}"
+    ledger = Ledger(path, lock=False)
     try:
         counts = ledger.counts()
-        lines = [f"jobs: {', '.join(f'{k} {v}' for k, v in sorted(counts.items())) or 'none'}"]
-        for p, e in ledger.last_failures():
-            lines.append(f"failed {p}: {e}")
-        return "\n".join(lines)
+        open_deliveries = len(ledger.unfinished())
+        failures = ledger.last_failures()
     finally:
         ledger.close()
+    if as_json:
+        return json.dumps({"ledger": str(path), "exists": True, "jobs": counts, "open_deliveries": open_deliveries,
+                           "last_failures": [{"path": p, "error": e} for p, e in failures]}, indent=2)
+    lines = [f"jobs: {', '.join(f'{k} {v}' for k, v in sorted(counts.items())) or 'none'}",
+             f"deliveries left open by a crash: {open_deliveries}"]
+    lines += [f"failed {p}: {e}" for p, e in failures]
+    return "\n".join(lines)
