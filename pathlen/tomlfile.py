@@ -20,3 +20,5 @@ def read_toml(path: Path, what: str) -> dict[str, Any]:
         raise UsageError(f"{path}: cannot read the {what} ({exc.strerror or exc})") from None
     except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
         raise UsageError(f"{path}: not valid TOML ({str(exc).splitlines()[0]})") from None
+    except RecursionError:
+        raise UsageError(f"{path}: nested too deeply to be a {what}") from None

@@ -122,8 +122,11 @@ def load_plan(path: Path) -> list[Joint]:
     unknown = set(data) - {"joint"}
     if unknown:
         raise UsageError(f"{path}: unknown table {sorted(unknown)[0]!r}; joints go in [[joint]] tables")
+    entries = data.get("joint", [])
+    if not isinstance(entries, list):
+        raise UsageError(f"{path}: joint must be [[joint]] tables, not {entries!r}")
     joints = []
-    for k, entry in enumerate(data.get("joint", []), start=1):
+    for k, entry in enumerate(entries, start=1):
         where = f"{path} joint {k}"
         if not isinstance(entry, dict):
             raise UsageError(f"{where}: must be a table")

@@ -16,6 +16,7 @@ Every problem is one line naming the plan, the entry and the reason (a usage err
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -55,8 +56,11 @@ def load_seam_plan(path: Path) -> SeamPlan:
     tolerance = data.get("tolerance_pct", DEFAULT_TOLERANCE_PCT)
     if isinstance(tolerance, bool) or not isinstance(tolerance, int | float) or not tolerance >= 0:
         raise UsageError(f"{path}: tolerance_pct must be a number of percent, at least 0")
+    entries = data.get("seam", [])
+    if not isinstance(entries, list):
+        raise UsageError(f"{path}: seam must be [[seam]] tables, not {entries!r}")
     seams = []
-    for k, entry in enumerate(data.get("seam", []), start=1):
+    for k, entry in enumerate(entries, start=1):
         seams.append(_seam(entry, f"{path} seam {k}"))
     if not seams:
         raise UsageError(f"{path}: no [[seam]] tables")
@@ -81,7 +85,7 @@ def _seam(entry: object, where: str) -> PlannedSeam:
     else:
         raise UsageError(f"{where}: edges must be 'all' or a list of edge numbers from 1")
     stitch = entry.get("stitch", 301)
-    if stitch not in STITCH_RATIO or isinstance(stitch, bool):
+    if not isinstance(stitch, int) or isinstance(stitch, bool) or stitch not in STITCH_RATIO:
         raise UsageError(f"{where}: unknown stitch type {stitch!r}; known: {', '.join(map(str, sorted(STITCH_RATIO)))}")
     density = None
     if "spc" in entry and "spi" in entry:
@@ -89,8 +93,8 @@ def _seam(entry: object, where: str) -> PlannedSeam:
     for key, per_mm in (("spc", 0.1), ("spi", 1.0 / 25.4)):  # SPI = 25.4 / stitch length in mm
         if key in entry:
             value = entry[key]
-            if isinstance(value, bool) or not isinstance(value, int | float) or not value > 0:
-                raise UsageError(f"{where}: {key} must be a positive number")
+            if isinstance(value, bool) or not isinstance(value, int | float) or not 0 < value < math.inf:
+                raise UsageError(f"{where}: {key} must be a positive finite number, not {value!r}")
             density = float(value) * per_mm
     rows = entry.get("rows", 1)
     if isinstance(rows, bool) or not isinstance(rows, int) or rows < 1:

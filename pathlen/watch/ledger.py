@@ -24,7 +24,9 @@ from pathlib import Path
 
 from pathlen.errors import UsageError
 
-MAX_ATTEMPTS = 3
+#: Attempts after which a job that was running at every one of the service's deaths is given up (as an
+#: error of the surroundings, not remembered for the content): the net under a file that kills the service.
+MAX_ATTEMPTS = 10
 
 SCHEMA = """
 CREATE TABLE IF NOT EXISTS jobs (
@@ -152,20 +154,22 @@ class Ledger:
         self.db.execute("UPDATE jobs SET state = ?, finished_at = ?, result = ?, error = ? WHERE key = ?",
                         (state, time.time(), result, error, key))
 
-    def recover(self) -> list[Job]:
-        """Jobs a crash left running: queued again, or failed after :data:`MAX_ATTEMPTS` attempts."""
+    def recover(self) -> tuple[list[Job], list[Job]]:
+        """Jobs a crash left running: (queued again, given up after :data:`MAX_ATTEMPTS` attempts)."""
         rows = self.db.execute("SELECT key, path, task, state, attempts, result, error FROM jobs "
                                "WHERE state = 'running'").fetchall()
-        out = []
+        again, given_up = [], []
         for row in rows:
             job = Job(*row)
             if job.attempts >= MAX_ATTEMPTS:
-                self.finish(job.key, "failed", None, f"stopped {job.attempts} times while it was being measured "
-                            "(the service or its worker was killed each time)")
+                job.error = (f"stopped {job.attempts} times while it was being measured (the service or its worker "
+                             "was killed each time); drop the file again to retry")
+                self.finish(job.key, "error", None, job.error)
+                given_up.append(job)
             else:
                 self.db.execute("UPDATE jobs SET state = 'queued' WHERE key = ?", (job.key,))
-                out.append(job)
-        return out
+                again.append(job)
+        return again, given_up
 
     # -- deliveries -------------------------------------------------------------------------
     def open_delivery(self, path: str, size: int, mtime_ns: int) -> Delivery | None:

@@ -29,7 +29,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from pathlen.batch import Limits, run_batch
-from pathlen.watch.ledger import MAX_ATTEMPTS, Delivery, Ledger, LedgerError, db_text, lock_inbox
+from pathlen.watch.ledger import Delivery, Ledger, LedgerError, db_text, lock_inbox
 from pathlen.watch.outputs import (
     append_summary,
     inside,
@@ -44,6 +44,8 @@ from pathlen.watch.outputs import (
 from pathlen.watch.scan import Candidate, Settling, scan
 from pathlen.watch.tasks import Task, headline
 
+#: Times a file that failed while it was still being written to gets another settle period.
+YOUNG_RETRIES = 2
 #: Longest pause (s) after an operational fault (a full disk, a read-only folder) before trying again.
 MAX_BACKOFF_S = 30.0
 
@@ -206,9 +208,15 @@ class Service:
         swept = sweep_temporaries(self.cfg.outbox)
         if swept:
             self.log("swept", temporaries=swept)
-        for job in self.ledger.recover():
+        again, given_up = self.ledger.recover()
+        for job in again:
             self.log("requeued", path=job.path, attempts=job.attempts)
         present = {db_text(c.rel): c for c in scan(self.cfg.inbox)}
+        for job in given_up:
+            c = present.get(job.path)
+            if c is not None and self.ledger.open_delivery(c.rel, c.size, c.mtime_ns) is None:
+                self.deliver(c, job.key, job.key.split("|", 1)[0], False, None, job.error, False,
+                             self.cfg.tasks[self.folder_of(c)])
         for d in self.ledger.unfinished():
             job = self.ledger.job(d.key)
             c = present.get(d.path)
@@ -317,7 +325,7 @@ class Service:
         except OSError:
             return False
         tries = self.retries.get(c.rel, 0)
-        if age < 3 * self.cfg.settle_s and tries < MAX_ATTEMPTS - 1:
+        if age < 3 * self.cfg.settle_s and tries < YOUNG_RETRIES:
             self.retries[c.rel] = tries + 1
             return True
         return False
