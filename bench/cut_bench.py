@@ -25,11 +25,11 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
+from pathlen.containment import nesting_depth
 from pathlen.contours import chain_contours
 from pathlen.estimates.tour import plan_tour, tour_length
 from pathlen.geometry import Beziers, Drawing, EllipticArcs, Entity, Lines
 from pathlen.measure import measure
-from pathlen.containment import nesting_depth
 from pathlen.segments import segment_layers, segment_table
 
 

@@ -89,7 +89,7 @@ def run_on_cluster(client: Any, paths: list[str], settings: Any, work: Callable[
             try:
                 result = future.result()
             except Exception as exc:  # noqa: BLE001 - any remote failure is this file's one-line error
-                result = failed(paths[i], ok=False, error=_reason(exc))
+                result = failed(paths[i], ok=False, error=_reason(exc), environment=True)
             if dataclasses.is_dataclass(result) and getattr(result, "path", paths[i]) != paths[i]:
                 result = dataclasses.replace(result, path=paths[i])
             yield i, result

@@ -8,10 +8,10 @@ import numpy as np
 import pytest
 import shapely
 
+from pathlen.containment import kerf_length_change, nesting_depth
 from pathlen.contours import chain_contours, count_contours, duplicate_segments, gap_warnings
 from pathlen.geometry import SegmentCollector
 from pathlen.measure import measure
-from pathlen.containment import kerf_length_change, nesting_depth
 from pathlen.segments import segment_layers, segment_table
 
 

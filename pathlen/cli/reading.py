@@ -250,9 +250,9 @@ class _Doing:
 
 
 def write_atomic(path: str, text: str) -> None:
-    """Write ``text`` to ``path`` atomically (:func:`pathlen.watch.outputs.write_atomic`); a file
+    """Write ``text`` to ``path`` atomically (:func:`pathlen.atomic.write_atomic`); a file
     error for click when it cannot."""
-    from pathlen.watch.outputs import write_atomic as write
+    from pathlen.atomic import write_atomic as write
 
     try:
         write(Path(path), text)

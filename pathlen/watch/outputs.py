@@ -15,6 +15,8 @@ import tempfile
 import time
 from pathlib import Path, PurePosixPath
 
+from pathlen.atomic import fsync_dir as _fsync_dir
+
 _UNSAFE = re.compile(r"[^A-Za-z0-9._ ()+=,@-]")
 SUMMARY_FIELDS = ("time", "path", "task", "ok", "error", "result", "original", "headline", "delivery")
 #: Longest name part kept in the outbox (with room for a hash and the task's suffix).
@@ -71,41 +73,6 @@ def inside(base: Path, target: Path) -> Path:
     if resolved != base.resolve() and base.resolve() not in resolved.parents:
         raise ValueError(f"{target} would lie outside {base}")
     return target
-
-
-def write_atomic(path: Path, text: str) -> None:
-    """Write through a temporary file in the same folder, fsync, rename, fsync the folder: a reader
-    sees the old file or the whole new one, never a part.  The file gets the usual permissions
-    (0666 less the umask), not the temporary file's private ones."""
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.chmod(tmp, 0o666 & ~_umask())
-        os.replace(tmp, path)
-    except BaseException:
-        with contextlib.suppress(OSError):
-            os.unlink(tmp)
-        raise
-    _fsync_dir(path.parent)
-
-
-def _fsync_dir(folder: Path) -> None:
-    with contextlib.suppress(OSError):
-        fd = os.open(folder, os.O_RDONLY)
-        try:
-            os.fsync(fd)
-        finally:
-            os.close(fd)
-
-
-def _umask() -> int:
-    mask = os.umask(0)
-    os.umask(mask)
-    return mask
 
 
 def same_content(path: Path, text: str) -> bool:

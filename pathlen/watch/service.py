@@ -28,6 +28,7 @@ import time
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from pathlen.atomic import write_atomic
 from pathlen.batch import Limits, run_batch
 from pathlen.watch.ledger import Delivery, Ledger, LedgerError, db_text, lock_inbox
 from pathlen.watch.outputs import (
@@ -39,7 +40,6 @@ from pathlen.watch.outputs import (
     same_content,
     sweep_temporaries,
     unique,
-    write_atomic,
 )
 from pathlen.watch.scan import Candidate, Settling, scan
 from pathlen.watch.tasks import Task, headline

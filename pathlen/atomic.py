@@ -1,0 +1,44 @@
+"""Writing files so that a reader sees the old file or the whole new one, never a part: the one place every
+command and the watch service write through."""
+
+from __future__ import annotations
+
+import contextlib
+import os
+import tempfile
+from pathlib import Path
+
+
+def write_atomic(path: Path, text: str) -> None:
+    """Write through a temporary file in the same folder, fsync, rename, fsync the folder: a reader
+    sees the old file or the whole new one, never a part.  The file gets the usual permissions
+    (0666 less the umask), not the temporary file's private ones."""
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
+            fh.write(text)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.chmod(tmp, 0o666 & ~umask())
+        os.replace(tmp, path)
+    except BaseException:
+        with contextlib.suppress(OSError):
+            os.unlink(tmp)
+        raise
+    fsync_dir(path.parent)
+
+
+def fsync_dir(folder: Path) -> None:
+    with contextlib.suppress(OSError):
+        fd = os.open(folder, os.O_RDONLY)
+        try:
+            os.fsync(fd)
+        finally:
+            os.close(fd)
+
+
+def umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
