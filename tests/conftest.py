@@ -39,6 +39,8 @@ def record_dxf_files():
 
 
 def pytest_collection_modifyitems(config, items):
-    """The side-by-side check of recorded files runs last, after every other test has read its DXF."""
+    """The side-by-side check of recorded files runs after every other test has read its DXF; the check that
+    no process is left behind runs last of all."""
     last = [i for i in items if i.name == "test_every_dxf_the_suite_read"]
-    items[:] = [i for i in items if i not in last] + last
+    final = [i for i in items if i.name == "test_no_process_is_left_behind"]  # after everything else
+    items[:] = [i for i in items if i not in last and i not in final] + last + final

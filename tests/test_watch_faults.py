@@ -398,7 +398,7 @@ def test_bad_bead_plan_value_is_one_line(tmp_path):
 
 
 def test_no_process_is_left_behind():
-    """Runs after the tests above (file order): nothing this suite started is still running."""
+    """Runs last of the whole suite (conftest orders it): nothing the suite started is still running."""
     import multiprocessing.resource_tracker as rt
 
     tracker = getattr(rt, "_resource_tracker", None)
