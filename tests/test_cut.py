@@ -9,7 +9,7 @@ import ezdxf
 import pytest
 
 from pathlen.cli import main
-from pathlen.estimates.cut import CutSettings, estimate_file
+from pathlen.estimates.cut import CutSettings, estimate_file, run_charges
 from pathlen.profiles import read_profile_file
 
 PROFILE = """
@@ -93,11 +93,39 @@ def test_quantity_setup_and_cost(plate, profile_file):
     p = profile(profile_file, setup_min=12.0, consumables_per_pierce=0.5, minimum_charge=1000.0)
     one = estimate_file(str(plate), CutSettings(p, ignore=("ENGRAVE",)))
     ten = estimate_file(str(plate), CutSettings(p, quantity=10, ignore=("ENGRAVE",)))
-    assert ten.time_s["total"] == pytest.approx(10 * one.part_time_s + 720.0, rel=1e-12)
+    assert ten.time_s["total"] == pytest.approx(10 * one.part_time_s, rel=1e-12)
     assert ten.cost["machine"] == pytest.approx(10 * one.part_time_s * 60.0 / 3600, rel=1e-12)
-    assert ten.cost["setup"] == pytest.approx(12.0, rel=1e-12)  # 12 min at 60 per hour
     assert ten.cost["consumables"] == pytest.approx(10 * 3 * 0.5, rel=1e-12)
-    assert ten.cost["total"] == 1000.0 and ten.cost["minimum_charge_applied"] == 1.0
+    run = run_charges([ten], p)
+    assert run["setup"] == pytest.approx(12.0, rel=1e-12)  # 12 min at 60 per hour, once for the run
+    assert run["time_s"] == pytest.approx(10 * one.part_time_s + 720.0, rel=1e-12)
+    # the minimum charge is the amount that lifts the run to it: its own line, and the lines add up
+    assert run["minimum_charge"] == pytest.approx(1000.0 - ten.cost["machine"] - 15.0 - 12.0, rel=1e-12)
+    assert run["machine"] + run["consumables"] + run["setup"] + run["minimum_charge"] == pytest.approx(1000.0)
+    assert run["total"] == pytest.approx(1000.0)
+
+
+def test_one_setup_per_run_and_a_visible_minimum_charge(runner, plate, profile_file, tmp_path):
+    # three drawings cut together with one profile: one setup; the minimum charge a line in every format
+    p = profile(profile_file, setup_min=12.0, minimum_charge=500.0)
+    copies = []
+    for k in range(3):
+        copies.append(tmp_path / f"copy{k}.dxf")
+        copies[-1].write_bytes(plate.read_bytes())
+    args = ["cut", *map(str, copies), "--profiles", str(profile_file), "--profile", p.name, "--ignore", "ENGRAVE"]
+    doc = json.loads(runner.invoke(main, [*args, "--format", "json"]).stdout)
+    cost = doc["total"]["cost"]
+    assert cost["setup"] == pytest.approx(12.0, rel=1e-12)  # once, not three times
+    assert cost["minimum_charge"] > 0
+    assert cost["machine"] + cost["consumables"] + cost["setup"] + cost["minimum_charge"] == pytest.approx(500.0)
+    assert sum(f["cost"]["total"] for f in doc["files"]) + cost["setup"] + cost["minimum_charge"] == \
+        pytest.approx(cost["total"])
+    rows = list(csv.DictReader(io.StringIO(runner.invoke(main, [*args, "--format", "csv"]).stdout)))
+    assert [r["path"] for r in rows[3:]] == ["(setup, once for the run)", "(minimum charge: amount to reach it)",
+                                              "(total)"]
+    assert sum(float(r["cost_total"]) for r in rows[:-1]) == pytest.approx(float(rows[-1]["cost_total"]))
+    words = " ".join(runner.invoke(main, args).stdout.split())  # the table folds long cells
+    assert "│ Minimum │" in words and "│ Setup, │" in words and "the minimum charge line adds" in words
 
 
 def test_kerf_offset_and_leads(plate, profile_file):
@@ -140,10 +168,10 @@ def test_cli_json_contract_and_cautions(runner, plate, profile_file, tmp_path):
     good, failed = doc["files"]
     assert failed["ok"] is False and failed["error"]
     assert good["contours"] == {"closed": 3, "open": 1} and good["pierces"] == 3 and good["quantity"] == 4
-    assert set(good["time_s"]) == {"total", "cutting", "piercing", "rapids", "motion_losses", "setup"}
-    assert set(good["cost"]) >= {"total", "machine", "consumables", "setup"}
+    assert set(good["time_s"]) == {"total", "cutting", "piercing", "rapids", "motion_losses"}
+    assert set(good["cost"]) == {"total", "machine", "consumables"}
     assert doc["total"]["pierces"] == 12 and doc["total"]["failed"] == 1
-    assert doc["total"]["time_s"]["total"] == pytest.approx(good["time_s"]["total"])
+    assert doc["total"]["time_s"]["total"] == pytest.approx(good["time_s"]["total"] + doc["total"]["time_s"]["setup"])
 
 
 def test_cli_csv_and_table(runner, plate, profile_file):

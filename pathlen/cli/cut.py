@@ -75,7 +75,7 @@ def cut(reading: Reading, profile_name: str | None, profile_files: tuple[str, ..
     notes = cautions(profile)
     emit(results, r.fmt, r.output, lambda console: cut_out.render_table(results, r.units, profile, notes, console),
          lambda: cut_out.render_json(results, r.units, profile, notes) if r.fmt == "json"
-         else cut_out.render_csv(results, r.units), notes,
+         else cut_out.render_csv(results, r.units, profile), notes,
          report=r.report, document=lambda: cut_out.cut_document(results, r.units, profile, notes))
 
 

@@ -4,8 +4,9 @@ Per part: every contour of the cut layers is pierced once (engraved/marked layer
 cut along its measured length (plus lead-in and lead-out, plus the kerf offset when the profile
 asks for it) at the profile's feed (reduced on small holes), with the motion model of
 :mod:`pathlen.estimates.kinematics`; between contours the head travels at rapid speed in the order
-of :mod:`pathlen.estimates.tour`.  Job = quantity x part + setup.  Cost = machine time x rate,
-plus consumables per minute of cutting and per pierce, at least the minimum charge.
+of :mod:`pathlen.estimates.tour`.  A file's job = quantity x part; cost = machine time x rate, plus
+consumables per minute of cutting and per pierce.  Setup and the minimum charge belong to the run
+(every drawing cut together with one profile: one setup), not to a drawing: :func:`run_charges`.
 Units: mm, s, money as in the profile.
 """
 
@@ -205,22 +206,35 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
     losses_s = (motion_s - cutting_s) + (rapid_motion_s - rapids_s)
     part_s = cutting_s + piercing_s + rapids_s + losses_s
     q = s.quantity
-    setup_s = p.setup_min * 60.0
     result.part_time_s = part_s
-    result.time_s = {"total": q * part_s + setup_s, "cutting": q * cutting_s, "piercing": q * piercing_s,
-                     "rapids": q * rapids_s, "motion_losses": q * losses_s, "setup": setup_s}
+    result.time_s = {"total": q * part_s, "cutting": q * cutting_s, "piercing": q * piercing_s,
+                     "rapids": q * rapids_s, "motion_losses": q * losses_s}
     rate = p.rate_per_hour / 3600.0
     machine = q * part_s * rate
     consumables = (p.consumables_per_min * q * motion_s / 60.0  # per minute the beam/jet is cutting
                    + p.consumables_per_pierce * q * result.pierces)
-    setup = setup_s * rate
-    subtotal = machine + consumables + setup
-    result.cost = {"total": max(subtotal, p.minimum_charge), "machine": machine, "consumables": consumables,
-                   "setup": setup, "minimum_charge_applied": float(subtotal < p.minimum_charge)}
+    result.cost = {"total": machine + consumables, "machine": machine, "consumables": consumables}
     numbers = [*result.time_s.values(), *result.cost.values(), result.cut_length_mm, result.rapid_length_mm]
     if not all(math.isfinite(x) for x in numbers):  # a report holds finite numbers or none at all
         raise InputError("the time model gave a non-finite result for this drawing; please report it with the file")
     return result
+
+
+def run_charges(results: list[CutEstimate], profile: Profile) -> dict[str, float]:
+    """The money and time of one run of the machine with ``profile`` over the files ``results`` (those that
+    were read): machine and consumables of every file, one setup, and the minimum charge as the amount
+    that lifts the run to it (0 when the run costs more).  ``total`` is the sum of the four charges;
+    ``time_s`` the machine time with the one setup."""
+    ok = [r for r in results if r.ok]
+    rate = profile.rate_per_hour / 3600.0
+    setup_s = profile.setup_min * 60.0 if ok else 0.0
+    machine = sum(r.cost.get("machine", 0.0) for r in ok)
+    consumables = sum(r.cost.get("consumables", 0.0) for r in ok)
+    setup = setup_s * rate
+    minimum = max(0.0, profile.minimum_charge - (machine + consumables + setup)) if ok else 0.0
+    return {"machine": machine, "consumables": consumables, "setup": setup, "minimum_charge": minimum,
+            "total": machine + consumables + setup + minimum, "setup_s": setup_s,
+            "time_s": sum(r.time_s.get("total", 0.0) for r in ok) + setup_s}
 
 
 def _kerf_change(table: SegmentTable, c: Contour, polygon: object, outward: float) -> tuple[float, str]:

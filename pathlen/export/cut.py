@@ -12,12 +12,14 @@ from typing import Any
 
 from rich.console import Console
 
-from pathlen.estimates.cut import CutEstimate
+from pathlen.estimates.cut import CutEstimate, run_charges
 from pathlen.export import from_mm, plain, print_notes, report_table
 from pathlen.profiles import Profile
 
-TIME_KEYS = ("total", "cutting", "piercing", "rapids", "motion_losses", "setup")
-COST_KEYS = ("total", "machine", "consumables", "setup")
+TIME_KEYS = ("total", "cutting", "piercing", "rapids", "motion_losses")
+COST_KEYS = ("total", "machine", "consumables")
+#: The run's charges, each its own line in every format: they add up to the total.
+CHARGE_KEYS = ("machine", "consumables", "setup", "minimum_charge")
 
 
 def _file_entry(r: CutEstimate, units: str) -> dict[str, Any]:
@@ -34,14 +36,17 @@ def _file_entry(r: CutEstimate, units: str) -> dict[str, Any]:
         "feed_mm_min": r.feed_mm_min,
         "part_time_s": r.part_time_s,
         "time_s": {k: r.time_s.get(k, 0.0) for k in TIME_KEYS},
-        "cost": {**{k: r.cost.get(k, 0.0) for k in COST_KEYS},
-                 "minimum_charge_applied": bool(r.cost.get("minimum_charge_applied", 0.0))},
+        "cost": {k: r.cost.get(k, 0.0) for k in COST_KEYS},
         "warnings": r.warnings,
     }
 
 
-def _total(results: list[CutEstimate], units: str) -> dict[str, Any]:
+def _total(results: list[CutEstimate], units: str, profile: Profile) -> dict[str, Any]:
     ok = [r for r in results if r.ok]
+    run = run_charges(results, profile)
+    times = {k: sum(r.time_s.get(k, 0.0) for r in ok) for k in TIME_KEYS}
+    times["setup"] = run["setup_s"]
+    times["total"] = run["time_s"]
     return {
         "files": len(results), "failed": len(results) - len(ok),
         "quantity": sum(r.quantity for r in ok),
@@ -49,8 +54,8 @@ def _total(results: list[CutEstimate], units: str) -> dict[str, Any]:
         "pierces": sum(r.pierces * r.quantity for r in ok),
         "cut_length": from_mm(sum(r.cut_length_mm * r.quantity for r in ok), units),
         "rapid_length": from_mm(sum(r.rapid_length_mm * r.quantity for r in ok), units),
-        "time_s": {k: sum(r.time_s.get(k, 0.0) for r in ok) for k in TIME_KEYS},
-        "cost": {k: sum(r.cost.get(k, 0.0) for r in ok) for k in COST_KEYS},
+        "time_s": times,
+        "cost": {**{k: run[k] for k in CHARGE_KEYS}, "total": run["total"]},
     }
 
 
@@ -62,7 +67,7 @@ def cut_document(results: list[CutEstimate], units: str, profile: Profile, cauti
                     "thickness_mm": v["thickness_mm"], "currency": v["currency"]},
         "cautions": cautions,
         "files": [_file_entry(r, units) for r in results],
-        "total": _total(results, units),
+        "total": _total(results, units, profile),
     }
 
 
@@ -70,17 +75,29 @@ def render_json(results: list[CutEstimate], units: str, profile: Profile, cautio
     return json.dumps(cut_document(results, units, profile, cautions), indent=2) + "\n"
 
 
-def render_csv(results: list[CutEstimate], units: str) -> str:
-    """One row per file; totals for the whole quantity; failed files have ok=false and their error."""
+def render_csv(results: list[CutEstimate], units: str, profile: Profile | None = None) -> str:
+    """One row per file (its whole quantity; failed files have ok=false and their error), then, with the
+    profile, one row per charge of the run (setup, minimum charge) and the total: the cost_total column
+    adds up to the total row."""
+    head = ["path", "ok", "error", "quantity", "contours_closed", "contours_open", "pierces",
+            f"cut_length_{units}", f"rapid_length_{units}", *(f"time_{k}_s" for k in TIME_KEYS),
+            *(f"cost_{k}" for k in COST_KEYS)]
     buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\n")
-    w.writerow(["path", "ok", "error", "quantity", "contours_closed", "contours_open", "pierces",
-                f"cut_length_{units}", f"rapid_length_{units}", *(f"time_{k}_s" for k in TIME_KEYS),
-                *(f"cost_{k}" for k in COST_KEYS)])
+    w = csv.DictWriter(buf, fieldnames=head, lineterminator="\n", restval="")
+    w.writeheader()
     for r in results:
-        w.writerow([r.path, str(r.ok).lower(), r.error or "", r.quantity, r.closed, r.open, r.pierces,
-                    repr(from_mm(r.cut_length_mm, units)), repr(from_mm(r.rapid_length_mm, units)),
-                    *(repr(r.time_s.get(k, 0.0)) for k in TIME_KEYS), *(repr(r.cost.get(k, 0.0)) for k in COST_KEYS)])
+        w.writerow({"path": r.path, "ok": str(r.ok).lower(), "error": r.error or "", "quantity": r.quantity,
+                    "contours_closed": r.closed, "contours_open": r.open, "pierces": r.pierces,
+                    f"cut_length_{units}": repr(from_mm(r.cut_length_mm, units)),
+                    f"rapid_length_{units}": repr(from_mm(r.rapid_length_mm, units)),
+                    **{f"time_{k}_s": repr(r.time_s.get(k, 0.0)) for k in TIME_KEYS},
+                    **{f"cost_{k}": repr(r.cost.get(k, 0.0)) for k in COST_KEYS}})
+    if profile is not None:
+        run = run_charges(results, profile)
+        w.writerow({"path": "(setup, once for the run)", "time_total_s": repr(run["setup_s"]),
+                    "cost_total": repr(run["setup"])})
+        w.writerow({"path": "(minimum charge: amount to reach it)", "cost_total": repr(run["minimum_charge"])})
+        w.writerow({"path": "(total)", "time_total_s": repr(run["time_s"]), "cost_total": repr(run["total"])})
     return buf.getvalue()
 
 
@@ -107,7 +124,11 @@ def render_table(results: list[CutEstimate], units: str, profile: Profile, cauti
         cut_len, rapid_len = from_mm(r.cut_length_mm, units), from_mm(r.rapid_length_mm, units)
         table.add_row(plain(r.path), str(r.quantity), f"{r.closed}/{r.open}", str(r.pierces), f"{cut_len:,.{digits}f}",
                       f"{rapid_len:,.{digits}f}", _clock(r.time_s["total"]), f"{r.cost['total']:,.2f}")
-    t = _total(results, units)
+    t = _total(results, units, profile)
+    c = t["cost"]
+    table.add_section()
+    table.add_row("Setup, once", "", "", "", "", "", _clock(t["time_s"]["setup"]), f"{c['setup']:,.2f}")
+    table.add_row("Minimum charge", "", "", "", "", "", "", f"{c['minimum_charge']:,.2f}")
     table.add_section()
     table.add_row(f"[b]Total ({t['files']} files, {t['failed']} failed)[/b]", str(t["quantity"]), "",
                   str(t["pierces"]), f"{t['cut_length']:,.{digits}f}", f"{t['rapid_length']:,.{digits}f}",
@@ -116,6 +137,10 @@ def render_table(results: list[CutEstimate], units: str, profile: Profile, cauti
     ts = t["time_s"]
     console.print(f"Time: cutting {_clock(ts['cutting'])}, piercing {_clock(ts['piercing'])}, rapids "
                   f"{_clock(ts['rapids'])}, acceleration and corners {_clock(ts['motion_losses'])}, setup "
-                  f"{_clock(ts['setup'])}.  Cost ({money}): machine {t['cost']['machine']:,.2f}, consumables "
-                  f"{t['cost']['consumables']:,.2f}, setup {t['cost']['setup']:,.2f}.", highlight=False)
+                  f"{_clock(ts['setup'])}.  Cost ({money}): machine {c['machine']:,.2f} + consumables "
+                  f"{c['consumables']:,.2f} + setup {c['setup']:,.2f} + minimum charge {c['minimum_charge']:,.2f} "
+                  f"= {c['total']:,.2f}.", highlight=False)
+    if c["minimum_charge"] > 0:
+        console.print(f"The run costs less than the profile's minimum charge of {profile.minimum_charge:,.2f} {money}: "
+                      f"the minimum charge line adds {c['minimum_charge']:,.2f}.", highlight=False)
     print_notes(console, results, cautions)

@@ -100,7 +100,12 @@ def _cut(doc: dict[str, Any]) -> tuple[str, list[tuple[str, str]], list[tuple[st
                                           Callable[[dict[str, Any]], list[list[Any]]]]:
     u, t = doc["units"], doc["total"]
     money = doc["profile"].get("currency") or "money"
-    totals = [("Machine time", _clock(t["time_s"]["total"])), (f"Cost ({money})", f"{t['cost']['total']:,.2f}"),
+    c = t["cost"]
+    totals = [("Machine time", _clock(t["time_s"]["total"])),
+              (f"Cutting ({money})", f"{c['machine'] + c['consumables']:,.2f}"),
+              (f"Setup, once ({money})", f"{c['setup']:,.2f}"),
+              (f"Minimum charge ({money})", f"{c['minimum_charge']:,.2f}"),
+              (f"Total ({money})", f"{c['total']:,.2f}"),
               ("Cut length", f"{t['cut_length']:,.1f} {u}"), ("Pierces", str(t["pierces"])),
               ("Profile", doc["profile"]["name"])]
     cols = [("Quantity", 0), ("Closed contours", 0), ("Open contours", 0), ("Pierces", 0), (f"Cut ({u})", 1),

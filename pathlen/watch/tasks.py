@@ -148,7 +148,7 @@ def build_task(name: str, options: dict[str, Any] | None = None, profile_files: 
                                import_options=measure.import_options)
         notes = cautions(chosen)
         return Task(name, estimate_file, lambda p, **kw: CutEstimate(p, quantity=settings.quantity, **kw), settings,
-                    lambda r: cut_document([r], "mm", chosen, notes), key, lambda r: render_csv([r], "mm"))
+                    lambda r: cut_document([r], "mm", chosen, notes), key, lambda r: render_csv([r], "mm", chosen))
     if name == "bead":
         from pathlen.estimates.bead import (
             BeadEstimate,
