@@ -179,7 +179,9 @@ def test_cli_csv_and_table(runner, plate, profile_file):
                                "--ignore", "ENGRAVE", "--format", "csv", "--units", "in"])
     assert res.exit_code == 0, res.output
     rows = list(csv.DictReader(io.StringIO(res.stdout)))
-    assert len(rows) == 1 and rows[0]["ok"] == "true" and rows[0]["pierces"] == "3"
+    assert len(rows) == 4 and rows[0]["ok"] == "true" and rows[0]["pierces"] == "3"  # the file, then the charges
+    assert [r["path"] for r in rows[1:]] == ["(setup, once for the run)", "(minimum charge: amount to reach it)",
+                                             "(total)"]
     assert float(rows[0]["cut_length_in"]) == pytest.approx((300 + 20 * math.pi) / 25.4, rel=1e-12)
     res = runner.invoke(main, ["cut", str(plate), "--profile", "ideal", "--profiles", str(profile_file),
                                "--ignore", "ENGRAVE"])
