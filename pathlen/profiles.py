@@ -54,6 +54,7 @@ KEYS: dict[str, Key] = {
     "small_hole_feed_factor": Key(float, 0.5, above_minimum=True, maximum=1.0),
     "rate_per_hour": Key(float, help="machine rate, money per hour"),
     "consumables_per_min": Key(float, 0.0),
+    "assist_gas_per_min": Key(float, 0.0, help="assist gas (laser: oxygen or nitrogen), money per minute cutting"),
     "consumables_per_pierce": Key(float, 0.0),
     "setup_min": Key(float, 0.0),
     "minimum_charge": Key(float, 0.0),

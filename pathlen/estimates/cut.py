@@ -211,7 +211,7 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
                      "rapids": q * rapids_s, "motion_losses": q * losses_s}
     rate = p.rate_per_hour / 3600.0
     machine = q * part_s * rate
-    consumables = (p.consumables_per_min * q * motion_s / 60.0  # per minute the beam/jet is cutting
+    consumables = ((p.consumables_per_min + p.assist_gas_per_min) * q * motion_s / 60.0  # per minute cutting
                    + p.consumables_per_pierce * q * result.pierces)
     result.cost = {"total": machine + consumables, "machine": machine, "consumables": consumables}
     numbers = [*result.time_s.values(), *result.cost.values(), result.cut_length_mm, result.rapid_length_mm]
