@@ -11,6 +11,7 @@ from pathlen.cli.measure import measure
 from pathlen.cli.nest import nest
 from pathlen.cli.preview import preview
 from pathlen.cli.profiles import profiles
+from pathlen.cli.quote import quote
 from pathlen.cli.seam import seam
 from pathlen.cli.watch import watch
 
@@ -21,7 +22,7 @@ def main() -> None:
     """pathlen: exact path lengths from drawings, with error bounds."""
 
 
-for _command in (measure, cut, seam, bead, nest, preview, profiles, watch):
+for _command in (measure, cut, seam, bead, nest, quote, preview, profiles, watch):
     main.add_command(_command)
 
 __all__ = ["main"]

@@ -297,11 +297,12 @@ def _smaller_sheet(s: NestSettings, stock: list[float], usable: list[int], big: 
     for i in smaller:
         z = s.sheets[i]
         height, room = z.width - 2 * s.margin_mm + s.gap_mm, z.length - 2 * s.margin_mm + s.gap_mm
-        if need > height * room or clock.interrupted or clock.left() < 1.0:
+        if need > height * room or clock.interrupted:
             continue
         if not all(_fits(variants[v], height, room) for v, n in enumerate(here) if n):
             continue
-        trial = clock.pack(variants, here, height, min(clock.left() / 2, 10.0), s.seed, f"trying {z.label}")
+        # at least a second, even past the budget: a smaller last sheet is worth it
+        trial = clock.pack(variants, here, height, max(1.0, min(clock.left() / 2, 10.0)), s.seed, f"trying {z.label}")
         if trial.length <= room:
             return i, trial
     return big, layout
