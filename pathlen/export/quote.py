@@ -215,7 +215,7 @@ def quote_html(doc: dict[str, Any], pictures: list[tuple[str, str]]) -> str:
 {escape(doc['valid_until'])}</div></header>
 <h2>Lines ({cur})</h2>
 <table><colgroup><col style="width:2.2rem"><col><col style="width:3.2rem"><col style="width:7rem">
-<col style="width:4rem"><col style="width:5.5rem"><col style="width:6.5rem"></colgroup>
+<col style="width:4.6rem"><col style="width:5.5rem"><col style="width:6.5rem"></colgroup>
 <thead><tr><th>#</th><th>Drawing</th><th class="n">Qty</th><th class="n">Cut each</th><th class="n">Pierces</th>
 <th class="n">Unit</th><th class="n">Total</th></tr></thead><tbody>{''.join(rows)}</tbody></table>
 <p class="note">How the price is made: {escape(doc['allocation'])}.</p>

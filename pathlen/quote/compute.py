@@ -173,12 +173,12 @@ def _price(order: QuoteOrder, lines: list[Line], runs: list[Run], read: list[tup
             raw = line.cutting_cost + line.setup_share + line.rapid_share + line.material_share
             line.unit_price = money(raw / q)
             line.total = line.unit_price * q
-    subtotal = sum((ln.total for ln in lines if ln.ok), Decimal(0))
+    subtotal = sum((ln.total for ln in lines if ln.ok), Decimal("0.00"))
     used = [r.profile for r in runs if any(lines[k].ok for k in r.lines)]
     floor = order.shop.minimum_order if order.shop.minimum_order is not None else \
         max((p.minimum_charge for p in used), default=0.0)
     minimum_order = money(floor)
-    minimum = max(Decimal(0), minimum_order - subtotal) if subtotal > 0 else Decimal(0)
+    minimum = max(Decimal("0.00"), minimum_order - subtotal) if subtotal > 0 else Decimal("0.00")
     tax = money((subtotal + minimum) * Decimal(str(order.shop.tax_rate_pct)) / 100)
     currency = order.shop.currency or next((str(p.currency) for p in used if p.currency), "")
     notes = list(dict.fromkeys(c for p in used for c in cautions(p)))
