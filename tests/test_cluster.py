@@ -141,3 +141,36 @@ def test_limits_per_file_hold_on_the_cluster(cluster, tmp_path: Path) -> None:
     assert results[1].error == "stopped after 2 s: the time limit per file (--timeout)"
     assert "died with signal SIGKILL" in results[3].error
     assert results[5].error == "needed more than the memory limit of 512 MB per file (--max-memory)"
+
+
+def test_watch_carries_on_locally_when_the_scheduler_dies(tmp_path: Path) -> None:
+    """A scheduler that goes away: one line, the jobs in flight queued again, every file answered locally."""
+    import signal
+    import subprocess
+    import sys
+    import time
+
+    inbox, outbox = tmp_path / "in", tmp_path / "out"
+    inbox.mkdir()
+    drawings = sorted(f for f in FIXTURES.iterdir() if f.suffix == ".dxf")
+    shutil.copy(drawings[0], inbox / "first.dxf")
+    own = LocalCluster(n_workers=1, threads_per_worker=1, processes=True, host="127.0.0.1", dashboard_address=None)
+    proc = subprocess.Popen([sys.executable, "-m", "pathlen", "watch", str(inbox), "--out", str(outbox), "--settle",
+                             "0", "--poll", "0.1", "--no-events", "--scheduler", own.scheduler_address],
+                            stderr=subprocess.PIPE, text=True)
+    try:
+        deadline = time.monotonic() + 60
+        while time.monotonic() < deadline and not (outbox / "results" / "first.dxf.measure.json").exists():
+            time.sleep(0.1)
+        own.close()
+        for f in drawings[1:]:
+            shutil.copy(f, inbox / f.name)
+        deadline = time.monotonic() + 90
+        while time.monotonic() < deadline and len(list((outbox / "results").glob("*.json"))) < len(drawings):
+            time.sleep(0.2)
+    finally:
+        proc.send_signal(signal.SIGTERM)
+        _, err = proc.communicate(timeout=60)
+    assert len(list((outbox / "results").glob("*.json"))) == len(drawings)
+    assert not (outbox / "failed").exists()
+    assert "cluster-lost" in err and "Traceback" not in err

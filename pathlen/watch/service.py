@@ -18,6 +18,7 @@ the service stops.
 
 from __future__ import annotations
 
+import contextlib
 import hashlib
 import json
 import signal
@@ -83,6 +84,10 @@ def content_hash(path: Path) -> str:
     """SHA-256 of a file, read in blocks (memory does not grow with the file)."""
     with path.open("rb") as fh:
         return hashlib.file_digest(fh, "sha256").hexdigest()
+
+
+class _ClusterLost(Exception):
+    """The Dask cluster stopped answering in the middle of a batch."""
 
 
 class Service:
@@ -268,16 +273,34 @@ class Service:
         return run_batch(paths, task.settings, self.cfg.jobs, task.work, task.failed, self.cfg.limits,
                          started=started, stop=self.stop)  # type: ignore[arg-type]
 
+    def _cluster_down(self) -> bool:
+        return self.client is not None and getattr(self.client, "status", "running") != "running"
+
+    def _lose_cluster(self, reason: str) -> None:
+        self.log("cluster-lost", scheduler=str(self.cfg.scheduler), error=reason[:200],
+                 action="running on local workers from now on; the jobs in flight go back to the queue")
+        import logging
+
+        for name in ("distributed", "asyncio", "tornado"):  # its reconnect attempts would print tracebacks
+            logging.getLogger(name).setLevel(logging.CRITICAL)
+        with contextlib.suppress(Exception):
+            self.client.close()  # type: ignore[union-attr]
+        self.client = None
+
     def _run(self, to_run: list[tuple[Candidate, str, str]], task: Task) -> None:
         """Run the jobs in worker processes and deliver each result as it finishes."""
         paths = [str(c.path) for c, _, _ in to_run]
         answered: set[int] = set()
+        if self._cluster_down():
+            self._lose_cluster("the scheduler does not answer")
         on_cluster = self.client is not None
         if on_cluster:  # the cluster does not say when a task starts: charged as it is sent
             for _, key, _ in to_run:
                 self.ledger.start(key)
         try:
             for i, result in self._batch(paths, task, lambda i: self.ledger.start(to_run[i][1])):  # type: ignore
+                if on_cluster and not getattr(result, "ok", True) and self._cluster_down():
+                    raise _ClusterLost(str(getattr(result, "error", "")))
                 answered.add(i)
                 self._answer(to_run[i], result, task)
                 if self.stop.is_set():
@@ -287,9 +310,7 @@ class Service:
         except Exception as exc:  # a cluster that went away: carry on locally
             if not on_cluster:
                 raise
-            self.log("cluster-lost", scheduler=str(self.cfg.scheduler), error=str(exc).splitlines()[0][:200]
-                     if str(exc) else type(exc).__name__, action="running on local workers from now on")
-            self.client = None
+            self._lose_cluster(str(exc).splitlines()[0] if str(exc) else type(exc).__name__)
         finally:
             for i, (c, key, _) in enumerate(to_run):
                 if i not in answered:
