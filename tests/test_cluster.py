@@ -154,7 +154,7 @@ def test_watch_carries_on_locally_when_the_scheduler_dies(tmp_path: Path) -> Non
     inbox.mkdir()
     drawings = sorted(f for f in FIXTURES.iterdir() if f.suffix == ".dxf")
     shutil.copy(drawings[0], inbox / "first.dxf")
-    own = LocalCluster(n_workers=1, threads_per_worker=1, processes=True, host="127.0.0.1", dashboard_address=None)
+    own = LocalCluster(n_workers=1, threads_per_worker=1, processes=True, host="127.0.0.1", dashboard_address=":0")
     proc = subprocess.Popen([sys.executable, "-m", "pathlen", "watch", str(inbox), "--out", str(outbox), "--settle",
                              "0", "--poll", "0.1", "--no-events", "--scheduler", own.scheduler_address],
                             stderr=subprocess.PIPE, text=True)

@@ -281,8 +281,9 @@ class Service:
                  action="running on local workers from now on; the jobs in flight go back to the queue")
         import logging
 
-        for name in ("distributed", "asyncio", "tornado"):  # its reconnect attempts would print tracebacks
-            logging.getLogger(name).setLevel(logging.CRITICAL)
+        quiet = ("distributed", "asyncio", "tornado")  # its reconnect attempts would print tracebacks
+        for name in [*quiet, *(n for n in logging.root.manager.loggerDict if n.startswith(quiet))]:
+            logging.getLogger(name).setLevel(logging.CRITICAL + 1)
         with contextlib.suppress(Exception):
             self.client.close()  # type: ignore[union-attr]
         self.client = None
