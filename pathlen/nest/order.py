@@ -19,7 +19,7 @@ from pathlib import Path
 from typing import Any
 
 from pathlen.errors import UsageError
-from pathlen.tomlfile import read_toml
+from pathlen.tomlfile import flag, names, read_toml, whole
 
 DEFAULT_ROTATIONS = (0.0, 90.0, 180.0, 270.0)
 
@@ -55,17 +55,9 @@ def _line(entry: dict[str, Any], path: Path, k: int) -> OrderLine:
     file = entry.get("file")
     if not isinstance(file, str) or not file.strip():
         raise UsageError(f"{where}: file must be the path of a drawing, not {file!r}")
-    quantity = entry.get("quantity", 1)
-    if isinstance(quantity, bool) or not isinstance(quantity, int) or quantity < 1:
-        raise UsageError(f"{where}: quantity must be a whole number of at least 1, not {quantity!r}")
-    mirror = entry.get("mirror", False)
-    if not isinstance(mirror, bool):
-        raise UsageError(f"{where}: mirror must be true or false, not {mirror!r}")
-    layers = entry.get("layers", [])
-    if isinstance(layers, str):
-        layers = [layers]
-    if not isinstance(layers, list) or not all(isinstance(x, str) for x in layers):
-        raise UsageError(f"{where}: layers must be a list of layer names, not {layers!r}")
+    quantity = whole(where, "quantity", entry.get("quantity", 1))
+    mirror = flag(where, "mirror", entry.get("mirror", False))
+    layers = names(where, "layers", entry.get("layers", []))
     resolved = Path(file) if Path(file).is_absolute() else path.parent / file
     return OrderLine(str(resolved), quantity, parse_rotations(entry.get("rotations", list(DEFAULT_ROTATIONS)), where),
                      mirror, tuple(layers), where)

@@ -31,14 +31,16 @@ Every problem is one line naming the file, the table, the key and the value (a u
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 from pathlen.errors import UsageError
 from pathlen.nest.order import DEFAULT_ROTATIONS, parse_rotations
-from pathlen.tomlfile import read_toml
+from pathlen.tomlfile import names as _names
+from pathlen.tomlfile import number as _number
+from pathlen.tomlfile import read_toml, whole
+from pathlen.tomlfile import text as _text
 
 
 @dataclass(frozen=True)
@@ -90,28 +92,6 @@ class QuoteOrder:
     source: str = ""
 
 
-def _number(where: str, key: str, value: Any, low: float = 0.0, strict: bool = False) -> float:
-    if isinstance(value, bool) or not isinstance(value, int | float) or not math.isfinite(value) or value < low \
-            or (strict and value == low):
-        need = "greater than" if strict else "at least"
-        raise UsageError(f"{where}: {key} must be a finite number {need} {low:g}, not {value!r}")
-    return float(value)
-
-
-def _text(where: str, key: str, value: Any) -> str:
-    if not isinstance(value, str):
-        raise UsageError(f"{where}: {key} must be text, not {value!r}")
-    return value
-
-
-def _names(where: str, key: str, value: Any) -> tuple[str, ...]:
-    if isinstance(value, str):
-        value = [value]
-    if not isinstance(value, list) or not all(isinstance(x, str) for x in value):
-        raise UsageError(f"{where}: {key} must be a list of layer names, not {value!r}")
-    return tuple(value)
-
-
 def _keys(where: str, table: dict[str, Any], allowed: tuple[str, ...]) -> None:
     unknown = sorted(set(table) - set(allowed))
     if unknown:
@@ -129,9 +109,7 @@ def load_shop(path: Path) -> dict[str, Any]:
 
 def _shop(where: str, table: dict[str, Any]) -> Shop:
     _keys(where, table, ("name", "currency", "tax_rate_pct", "validity_days", "minimum_order"))
-    days = table.get("validity_days", 30)
-    if isinstance(days, bool) or not isinstance(days, int) or days < 0:
-        raise UsageError(f"{where}: validity_days must be a whole number of days, not {days!r}")
+    days = whole(where, "validity_days", table.get("validity_days", 30), 0)
     minimum = table.get("minimum_order")
     return Shop(_text(where, "name", table.get("name", "")), _text(where, "currency", table.get("currency", "")),
                 _number(where, "tax_rate_pct", table.get("tax_rate_pct", 0.0)), days,
@@ -191,8 +169,8 @@ def _material(where: str, key: str, t: Any) -> Material:
         else:
             raise UsageError(f"{at}: give the sheet a price, or the material price_per_kg and density_kg_m3")
         count = s.get("count")
-        if count is not None and (isinstance(count, bool) or not isinstance(count, int) or count < 1):
-            raise UsageError(f"{at}: count must be a whole number of at least 1, not {count!r}")
+        if count is not None:
+            whole(at, "count", count)
         sheets.append(Sheet(w, ln, price, count))
     return Material(key, _text(where, "name", t.get("name", key)), thickness, tuple(sheets), charge,
                     _number(where, "remnant_pct", t.get("remnant_pct", 100.0)))
@@ -203,9 +181,7 @@ def _part(where: str, e: dict[str, Any], base: Path) -> QuotePart:
     file = e.get("file")
     if not isinstance(file, str) or not file.strip():
         raise UsageError(f"{where}: file must be the path of a drawing, not {file!r}")
-    quantity = e.get("quantity", 1)
-    if isinstance(quantity, bool) or not isinstance(quantity, int) or quantity < 1:
-        raise UsageError(f"{where}: quantity must be a whole number of at least 1, not {quantity!r}")
+    quantity = whole(where, "quantity", e.get("quantity", 1))
     profile = e.get("profile")
     if not isinstance(profile, str) or not profile:
         raise UsageError(f"{where}: profile must name a process profile, not {profile!r}")

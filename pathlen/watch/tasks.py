@@ -15,13 +15,17 @@ the key and the value (a usage error).  Plan paths in a service file are relativ
 from __future__ import annotations
 
 import json
-import math
 from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 from pathlen.errors import PathlenError, UsageError
+from pathlen.tomlfile import flag as _flag
+from pathlen.tomlfile import names as _names
+from pathlen.tomlfile import number as _number
+from pathlen.tomlfile import text
+from pathlen.tomlfile import whole as _whole
 
 TASKS = ("measure", "cut", "seam", "bead")
 COMMON = ("recover",)
@@ -64,36 +68,7 @@ def headline(doc: dict[str, Any]) -> str:
 
 
 def _text(where: str, key: str, value: Any) -> str:
-    if not isinstance(value, str) or not value.strip():
-        raise UsageError(f"{where}: {key} must be text, not {value!r}")
-    return value
-
-
-def _names(where: str, key: str, value: Any) -> tuple[str, ...]:
-    if isinstance(value, str):
-        value = [x.strip() for x in value.split(",") if x.strip()]
-    if not isinstance(value, list) or not all(isinstance(x, str) for x in value):
-        raise UsageError(f"{where}: {key} must be a list of layer names, not {value!r}")
-    return tuple(value)
-
-
-def _whole(where: str, key: str, value: Any, least: int = 1) -> int:
-    if isinstance(value, bool) or not isinstance(value, int) or value < least:
-        raise UsageError(f"{where}: {key} must be a whole number of at least {least}, not {value!r}")
-    return value
-
-
-def _number(where: str, key: str, value: Any, low: float = 0.0, high: float = math.inf) -> float:
-    if isinstance(value, bool) or not isinstance(value, int | float) or not math.isfinite(value) \
-            or not low <= value <= high:
-        raise UsageError(f"{where}: {key} must be a finite number from {low:g} to {high:g}, not {value!r}")
-    return float(value)
-
-
-def _flag(where: str, key: str, value: Any) -> bool:
-    if not isinstance(value, bool):
-        raise UsageError(f"{where}: {key} must be true or false, not {value!r}")
-    return value
+    return text(where, key, value, required=True)
 
 
 def build_task(name: str, options: dict[str, Any] | None = None, profile_files: tuple[str, ...] = (),
