@@ -145,17 +145,11 @@ def check_profile(name: str, body: Any, where: str) -> Profile:
     return Profile(name, where, values)
 
 
-#: Settings that changed their name, old -> new.
-RENAMED = {"junction_deviation_mm": "corner_tolerance_mm"}
-
-
 def _unknown_key_reason(key: str) -> str:
     stem = _UNIT_SUFFIX.sub("", key)
     same_stem = [k for k in KEYS if _UNIT_SUFFIX.sub("", k) == stem and k != key]
     if same_stem:
         return f"wrong unit: this setting is {same_stem[0]!r}"
-    if key in RENAMED:
-        return f"renamed: write {RENAMED[key]!r}"
     close = difflib.get_close_matches(key, KEYS, n=1)
     return f"unknown setting{f'; did you mean {close[0]!r}?' if close else ''}"
 

@@ -1,11 +1,14 @@
 """Process profiles: every kind of bad profile gives one clear line and exit status 2."""
 
 import re
+from pathlib import Path
 
 import pytest
 
+import pathlen
 from pathlen.cli import main
-from pathlen.profiles import BUILTIN, load_profiles, write_setting
+from pathlen.errors import UsageError
+from pathlen.profiles import BUILTIN, load_profiles, read_profile_file, write_setting
 
 GOOD = """
 [profile.test-laser]
@@ -89,3 +92,13 @@ def test_write_setting_keeps_the_rest(tmp_path):
     assert text.index("kerf_mm") < text.index("[profile.other]")
     values = load_profiles([write(tmp_path, text.split("[profile.other]")[0], "q.toml")])["test-laser"].values
     assert values["pierce_s"] == 0.75 and values["kerf_mm"] == 0.2
+
+
+def test_no_alias_for_a_firmware_setting_name(tmp_path):
+    # the corner setting is ours (corner_tolerance_mm); a firmware's name for it is just an unknown setting
+    path = write(tmp_path, GOOD + "junction_deviation_mm = 0.05\n")
+    with pytest.raises(UsageError) as err:
+        read_profile_file(path)
+    assert "unknown setting" in str(err.value) and "renamed" not in str(err.value)
+    source = "".join(p.read_text() for p in Path(pathlen.__file__).parent.rglob("*.py"))
+    assert "junction" not in source
