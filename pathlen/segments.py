@@ -45,6 +45,13 @@ class SegmentTable:
             first += out[-1][2]
         return out
 
+    def locate(self, row: int) -> tuple[str, int]:
+        """The batch of table row ``row`` ("lines", "arcs" or "bezier<degree>") and its index there."""
+        for key, first, count in self._offsets:
+            if first <= row < first + count:
+                return key, row - first
+        raise IndexError(row)
+
     def samples(self, rows: IntArray) -> FloatArray:
         """``[len(rows), CURVE_SAMPLES, 3]`` points at equal parameter steps (lines: equal steps too)."""
         return self.points_at(rows, np.linspace(0.0, 1.0, CURVE_SAMPLES))

@@ -40,3 +40,9 @@ def print_notes(console: Console, results: list[Any], cautions: Sequence[str] = 
 def from_mm(value: float, units: str) -> float:
     """Convert millimetres to ``units`` (exact factors, see ``MM_PER_UNIT``)."""
     return value / MM_PER_UNIT[units]
+
+
+def clock(seconds: float) -> str:
+    """Seconds as h:mm:ss (rounded to the second)."""
+    s = round(seconds)
+    return f"{s // 3600}:{s % 3600 // 60:02d}:{s % 60:02d}"

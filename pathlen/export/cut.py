@@ -13,7 +13,7 @@ from typing import Any
 from rich.console import Console
 
 from pathlen.estimates.cut import CutEstimate, run_charges
-from pathlen.export import from_mm, plain, print_notes, report_table
+from pathlen.export import clock, from_mm, plain, print_notes, report_table
 from pathlen.profiles import Profile
 
 TIME_KEYS = ("total", "cutting", "piercing", "rapids", "motion_losses")
@@ -101,11 +101,6 @@ def render_csv(results: list[CutEstimate], units: str, profile: Profile | None =
     return buf.getvalue()
 
 
-def _clock(seconds: float) -> str:
-    s = round(seconds)
-    return f"{s // 3600}:{s % 3600 // 60:02d}:{s % 60:02d}"
-
-
 def render_table(results: list[CutEstimate], units: str, profile: Profile, cautions: list[str],
                  console: Console) -> None:
     v = profile.values
@@ -123,21 +118,21 @@ def render_table(results: list[CutEstimate], units: str, profile: Profile, cauti
             continue
         cut_len, rapid_len = from_mm(r.cut_length_mm, units), from_mm(r.rapid_length_mm, units)
         table.add_row(plain(r.path), str(r.quantity), f"{r.closed}/{r.open}", str(r.pierces), f"{cut_len:,.{digits}f}",
-                      f"{rapid_len:,.{digits}f}", _clock(r.time_s["total"]), f"{r.cost['total']:,.2f}")
+                      f"{rapid_len:,.{digits}f}", clock(r.time_s["total"]), f"{r.cost['total']:,.2f}")
     t = _total(results, units, profile)
     c = t["cost"]
     table.add_section()
-    table.add_row("Setup, once", "", "", "", "", "", _clock(t["time_s"]["setup"]), f"{c['setup']:,.2f}")
+    table.add_row("Setup, once", "", "", "", "", "", clock(t["time_s"]["setup"]), f"{c['setup']:,.2f}")
     table.add_row("Minimum charge", "", "", "", "", "", "", f"{c['minimum_charge']:,.2f}")
     table.add_section()
     table.add_row(f"[b]Total ({t['files']} files, {t['failed']} failed)[/b]", str(t["quantity"]), "",
                   str(t["pierces"]), f"{t['cut_length']:,.{digits}f}", f"{t['rapid_length']:,.{digits}f}",
-                  f"[b]{_clock(t['time_s']['total'])}[/b]", f"[b]{t['cost']['total']:,.2f}[/b]")
+                  f"[b]{clock(t['time_s']['total'])}[/b]", f"[b]{t['cost']['total']:,.2f}[/b]")
     console.print(table)
     ts = t["time_s"]
-    console.print(f"Time: cutting {_clock(ts['cutting'])}, piercing {_clock(ts['piercing'])}, rapids "
-                  f"{_clock(ts['rapids'])}, acceleration and corners {_clock(ts['motion_losses'])}, setup "
-                  f"{_clock(ts['setup'])}.  Cost ({money}): machine {c['machine']:,.2f} + consumables "
+    console.print(f"Time: cutting {clock(ts['cutting'])}, piercing {clock(ts['piercing'])}, rapids "
+                  f"{clock(ts['rapids'])}, acceleration and corners {clock(ts['motion_losses'])}, setup "
+                  f"{clock(ts['setup'])}.  Cost ({money}): machine {c['machine']:,.2f} + consumables "
                   f"{c['consumables']:,.2f} + setup {c['setup']:,.2f} + minimum charge {c['minimum_charge']:,.2f} "
                   f"= {c['total']:,.2f}.", highlight=False)
     if c["minimum_charge"] > 0:

@@ -16,7 +16,7 @@ from typing import Any
 
 from rich.console import Console
 
-from pathlen.export import from_mm, plain, report_table
+from pathlen.export import clock, from_mm, plain, report_table
 from pathlen.quote.compute import Quote
 
 ALLOCATION = ("each line carries its own cutting (machine time and consumables), a share of its run's setup "
@@ -90,11 +90,6 @@ def render_csv(doc: dict[str, Any]) -> str:
     return buf.getvalue()
 
 
-def _clock(seconds: float) -> str:
-    s = round(seconds)
-    return f"{s // 3600}:{s % 3600 // 60:02d}:{s % 60:02d}"
-
-
 def render_table(doc: dict[str, Any], console: Console) -> None:
     cur, u = doc["currency"] or "money", doc["units"]
     table = report_table(plain(f"Quote {doc['reference']} for {doc['customer']}"), [
@@ -106,7 +101,7 @@ def render_table(doc: dict[str, Any], console: Console) -> None:
                           "[red]failed[/red]")
             continue
         table.add_row(str(ln["line"]), f"{plain(Path(ln['file']).name)} ({plain(ln['material'])})",
-                      str(ln["quantity"]), f"{ln['cut_length_per_drawing']:,.1f}", _clock(ln["time_per_drawing_s"]),
+                      str(ln["quantity"]), f"{ln['cut_length_per_drawing']:,.1f}", clock(ln["time_per_drawing_s"]),
                       ln["unit_price"], ln["line_total"])
     table.add_section()
     for c in doc["charges"]:
@@ -122,8 +117,8 @@ def render_table(doc: dict[str, Any], console: Console) -> None:
         sheets = ", ".join(f"{s['size']} ({s['charged']:.2f})" for s in r["sheets"]) or "none"
         console.print(f"Material {plain(r['material'])} ({plain(r['name'])}, {r['thickness_mm']:g} mm, "
                       f"{r['profile']}): sheets {sheets}; utilisation {100 * r['utilisation']:.1f} %; material "
-                      f"{r['material_cost']:.2f} {cur}; machine {_clock(r['machine_time_s'])} incl. setup "
-                      f"{_clock(r['setup_s'])}", highlight=False)
+                      f"{r['material_cost']:.2f} {cur}; machine {clock(r['machine_time_s'])} incl. setup "
+                      f"{clock(r['setup_s'])}", highlight=False)
     if any("price_breaks" in ln for ln in doc["lines"]):
         breaks = report_table(f"Unit price by quantity ({cur})", [("#", "right"), ("Drawing", "left"), *(
             (n, "right") for n in next(ln["price_breaks"] for ln in doc["lines"] if "price_breaks" in ln))])

@@ -14,6 +14,8 @@ from html import escape
 from pathlib import Path
 from typing import Any
 
+from pathlen.export import clock
+
 STYLE = """
 :root { --accent: #0b6e6e; --ink: #1d252c; --soft: #66717c; --line: #d8dee3; }
 * { box-sizing: border-box; }
@@ -73,11 +75,6 @@ def _cell(value: Any, digits: int | None = None) -> str:
     return f'<td class="n" data-v="{escape(raw)}">{_num(value, digits)}</td>'
 
 
-def _clock(seconds: float) -> str:
-    s = round(seconds)
-    return f"{s // 3600}:{s % 3600 // 60:02d}:{s % 60:02d}"
-
-
 #: Per report format: (title, [(column head, key path, digits or None)], per-file row source, totals)
 def _measure(doc: dict[str, Any]) -> tuple[str, list[tuple[str, str]], list[tuple[str, int | None]],
                                               Callable[[dict[str, Any]], list[list[Any]]]]:
@@ -101,7 +98,7 @@ def _cut(doc: dict[str, Any]) -> tuple[str, list[tuple[str, str]], list[tuple[st
     u, t = doc["units"], doc["total"]
     money = doc["profile"].get("currency") or "money"
     c = t["cost"]
-    totals = [("Machine time", _clock(t["time_s"]["total"])),
+    totals = [("Machine time", clock(t["time_s"]["total"])),
               (f"Cutting ({money})", f"{c['machine'] + c['consumables']:,.2f}"),
               (f"Setup, once ({money})", f"{c['setup']:,.2f}"),
               (f"Minimum charge ({money})", f"{c['minimum_charge']:,.2f}"),
@@ -113,7 +110,7 @@ def _cut(doc: dict[str, Any]) -> tuple[str, list[tuple[str, str]], list[tuple[st
 
     def rows(f: dict[str, Any]) -> list[list[Any]]:
         return [[f["quantity"], f["contours"]["closed"], f["contours"]["open"], f["pierces"], f["cut_length"],
-                 f["rapid_length"], _clock(f["time_s"]["total"]), f["cost"]["total"]]]
+                 f["rapid_length"], clock(f["time_s"]["total"]), f["cost"]["total"]]]
 
     return "Cut estimate", totals, cols, rows
 

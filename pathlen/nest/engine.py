@@ -19,8 +19,6 @@ import time
 from collections.abc import Callable
 from dataclasses import dataclass
 
-import numpy as np
-
 from pathlen.errors import UsageError
 from pathlen.geometry import FloatArray
 
@@ -148,9 +146,3 @@ def _layout(solution: object, shifts: list[FloatArray], interrupted: bool = Fals
         out.append(StripPlacement(i, float(p.rotation), (tx - (c * sx - s * sy), ty - (s * sx + c * sy))))
     return StripLayout(float(solution.width), out, interrupted)  # type: ignore[attr-defined]
 
-
-def rotated(points: FloatArray, rotation_deg: float, offset: tuple[float, float]) -> FloatArray:
-    """``points [n, 2]`` placed: R(rotation_deg)·p + offset."""
-    a = math.radians(rotation_deg)
-    r = np.array([[math.cos(a), -math.sin(a)], [math.sin(a), math.cos(a)]])
-    return points @ r.T + np.asarray(offset)

@@ -85,8 +85,8 @@ def _arc_chords(table: SegmentTable, k: int, tol: float) -> tuple[FloatArray, fl
 
 
 def _bezier_chords(table: SegmentTable, row: int, tol: float) -> tuple[FloatArray, float]:
-    degree, local = _bezier_row(table, row)
-    b = table.drawing.beziers[degree]
+    key, local = table.locate(row)
+    b = table.drawing.beziers[int(key[6:])]
     hom = np.concatenate([b.ctrl[local, :, :2] * b.weights[local, :, None], b.weights[local, :, None]], axis=1)
     n = 8
     while True:
@@ -98,16 +98,6 @@ def _bezier_chords(table: SegmentTable, row: int, tol: float) -> tuple[FloatArra
             ends = np.concatenate([pts[:, 0], pts[-1:, -1]])
             return ends, dev
         n *= 4
-
-
-def _bezier_row(table: SegmentTable, row: int) -> tuple[int, int]:
-    first = len(table.drawing.lines) + len(table.drawing.arcs)
-    for degree in sorted(table.drawing.beziers):
-        count = len(table.drawing.beziers[degree])
-        if row < first + count:
-            return degree, row - first
-        first += count
-    raise IndexError(row)
 
 
 def _sub_curves(hom: FloatArray, a: FloatArray, b: FloatArray) -> FloatArray:

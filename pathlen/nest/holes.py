@@ -14,6 +14,7 @@ Conventions: mm, each host's drawing coordinates; a guest copy is placed at R(ro
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 import shapely
@@ -37,8 +38,9 @@ class Variant:
     holes: tuple[FloatArray, ...]
     rotations: tuple[float, ...] | None
 
-    @property
+    @cached_property
     def area(self) -> float:
+        """Area of the envelope polygon, mm² (computed once)."""
         return float(shapely.Polygon(self.polygon).area)
 
 

@@ -20,7 +20,6 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
-import shapely
 
 from pathlen.errors import UsageError
 from pathlen.nest.engine import StripItem, StripLayout, engine_name, pack_strip
@@ -197,7 +196,7 @@ def _sheets(result: NestResult, variants: list[Variant], demand: list[int], fill
     stock = [z.count if z.count is not None else math.inf for z in s.sheets]
     engine_copy: dict[int, int] = {}
     left = list(demand)
-    area = [shapely.Polygon(v.polygon).area for v in variants]
+    area = [v.area for v in variants]
     try:
         _fill_sheets(result, variants, left, fills, s, clock, copies, stock, engine_copy, area)
     finally:

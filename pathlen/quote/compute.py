@@ -2,10 +2,10 @@
 
 A *run* is every part cut from one material with one profile: its parts are nested on the material's
 sheets (:mod:`pathlen.nest`), its machine time is the cut model's time per drawing times the
-quantity (:mod:`pathlen.estimates.cut`), plus the rapid moves between the nested parts (nearest part
-first, from the sheet's corner, at the profile's rapid speed), plus one setup.  Material is charged per
-sheet used: whole sheets, or with ``charge = "used"`` the last sheet's used part plus ``remnant_pct``
-of the rest.
+quantity (:mod:`pathlen.estimates.cut`), plus the rapid moves between the nested parts (ordered by
+the cut estimate's tour planner from the sheet's corner, at the profile's rapid speed), plus one setup.
+Material is charged per sheet used: whole sheets, or with ``charge = "used"`` the last sheet's used
+part plus ``remnant_pct`` of the rest.
 
 Each line (a drawing in its quantity) carries its own cutting (machine and consumables), a share of the
 run's setup and of the rapids between parts in proportion to its machine time, and a share of the run's
@@ -26,6 +26,7 @@ import numpy as np
 
 from pathlen.errors import UsageError
 from pathlen.estimates.cut import CutEstimate, CutSettings, cautions, estimate_file
+from pathlen.estimates.tour import plan_tour
 from pathlen.nest.layout import Demand, NestResult, SheetSize, place_points
 from pathlen.nest.parts import Part, PartSettings, read_parts
 from pathlen.nest.plan import NestSettings, nest
@@ -238,17 +239,13 @@ def _run(run: Run, order: QuoteOrder, lines: list[Line], read: list[tuple[list[P
 
 
 def _between_parts(result: NestResult) -> float:
-    """Rapid travel over each sheet: from its corner to the nearest part not yet cut, and so on (mm)."""
+    """Rapid travel over each sheet between the nested parts (mm), in the order the cut estimate's own tour
+    planner gives them from the sheet's corner (:func:`pathlen.estimates.tour.plan_tour`); a part's first
+    outline point stands for its pierce."""
     total = 0.0
     for n in range(len(result.sheets)):
-        pts = [place_points(result.demands[p.demand].part.outline[:1], p.rotation_deg, p.mirrored, p.offset)[0]
-               for p in result.placements if p.sheet == n]
-        at = np.zeros(2)
-        left = np.array(pts, dtype=float).reshape(-1, 2)
-        while len(left):
-            d = np.hypot(*(left - at).T)
-            k = int(np.argmin(d))
-            total += float(d[k])
-            at = left[k]
-            left = np.delete(left, k, axis=0)
+        pts = np.array([place_points(result.demands[p.demand].part.outline[:1], p.rotation_deg, p.mirrored,
+                                     p.offset)[0] for p in result.placements if p.sheet == n], dtype=float)
+        if len(pts):
+            total += plan_tour(pts, pts, np.ones(len(pts), dtype=bool), np.full(len(pts), -1)).rapid_length
     return total
