@@ -5,6 +5,7 @@ from __future__ import annotations
 import math
 import re
 import sys
+from collections.abc import Callable
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -12,7 +13,7 @@ import click
 
 from pathlen.cli.profile_files import profiles_or_exit
 from pathlen.cli.reading import Reading, collect, drawing_files, emit, reading_options, write_atomic
-from pathlen.errors import PathlenError
+from pathlen.errors import PathlenError, UsageError
 from pathlen.geometry import MM_PER_UNIT
 
 if TYPE_CHECKING:
@@ -160,35 +161,46 @@ def _read(lines: list[OrderLine], reading: Reading, gap_mm: float) -> tuple[list
 
 
 def _nest(demands: list[Any], settings: Any) -> Any:
-    from rich.console import Console
-
     from pathlen.nest.plan import nest
+
+    return run_nest_status(lambda status: nest(demands, settings, status))
+
+
+def run_nest_status(work: Callable[[Any], Any]) -> Any:
+    """``work(status)`` with a spinner on a terminal (status None elsewhere); Ctrl-C before any layout
+    exits 130, a nesting usage problem exits 2."""
+    from rich.console import Console
 
     err = Console(stderr=True)
     try:
         if not err.is_terminal:
-            return nest(demands, settings)
+            return work(None)
         with err.status("nesting") as status:
-            return nest(demands, settings, lambda doing, spent, budget: status.update(
+            return work(lambda doing, spent, budget: status.update(
                 f"{doing}: {spent:.0f} s of {budget:.0f} s (Ctrl-C keeps the best layout so far)"))
     except KeyboardInterrupt:
         err.print("interrupted before the engine found any layout: nothing to report")
         sys.exit(130)
-    except PathlenError as exc:
+    except UsageError as exc:
         raise click.UsageError(str(exc)) from None
 
 
-def _svg(result: Any) -> str:
+def _svg(result: Any, title: str = "nest") -> str:
     from pathlen.export.nest_picture import nest_svg
 
-    return nest_svg(result, "nest")
+    return nest_svg(result, title)
 
 
 def _draw(result: Any, picture: str) -> None:
+    draw_layout(result, picture, "nest")
+
+
+def draw_layout(result: Any, picture: str, title: str) -> None:
+    """The layout as SVG, PNG or PDF (by the file's suffix), written whole or not at all."""
     from pathlen.export.nest_picture import render_nest_raster
 
     if picture.lower().endswith(".svg"):
-        write_atomic(picture, _svg(result))
+        write_atomic(picture, _svg(result, title))
         return
     try:
         render_nest_raster(result, Path(picture))

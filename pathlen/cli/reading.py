@@ -58,7 +58,7 @@ class Reading:
         return drawing_files(self.paths)
 
 
-def _finite(ctx: click.Context, param: click.Parameter, value: float | None) -> float | None:
+def finite_number(ctx: click.Context, param: click.Parameter, value: float | None) -> float | None:
     if value is not None and not math.isfinite(value):
         raise click.BadParameter("must be a finite number")
     return value
@@ -103,10 +103,10 @@ def _reading_options(paths_required: bool, units: tuple[str, ...]) -> list[Decor
         click.option("--drawing-units", type=click.Choice(DRAWING_UNITS), default=None,
                      help="Units of DXF drawing coordinates, overriding $INSUNITS (unitless files are "
                           "otherwise taken as mm)."),
-        click.option("--svg-dpi", type=click.FloatRange(min=1.0), default=None, callback=_finite,
+        click.option("--svg-dpi", type=click.FloatRange(min=1.0), default=None, callback=finite_number,
                      help="Pixels per inch of SVG files sized in px or not sized at all (default 96, the CSS "
                           "value; some drawing programs export at 72 or 90)."),
-        click.option("--join-tol", type=float, default=0.01, show_default=True, callback=_finite,
+        click.option("--join-tol", type=float, default=0.01, show_default=True, callback=finite_number,
                      help="Distance in mm within which segment ends join into one contour."),
         click.option("--jobs", "-j", type=click.IntRange(min=0), default=1, show_default=True,
                      help="Worker processes (0: one per core)."),
@@ -114,7 +114,8 @@ def _reading_options(paths_required: bool, units: tuple[str, ...]) -> list[Decor
                      help="Most segments a drawing's block and <use> copies are written out to, for contours and "
                           "cut order (lengths never need it)."),
         click.option("--timeout", type=click.FloatRange(min=0, min_open=True), default=DEFAULT_TIMEOUT_S,
-                     show_default=True, callback=_finite, help="Seconds one file may take; past it the file fails."),
+                     show_default=True, callback=finite_number,
+                     help="Seconds one file may take; past it the file fails."),
         click.option("--max-memory", type=click.IntRange(min=64), default=DEFAULT_MAX_MEMORY_MB, show_default=True,
                      metavar="MB", help="Memory one file may take (MB); past it the file fails."),
         click.option("--strict", is_flag=True, help="Fail a file on any warning (for automated pipelines)."),

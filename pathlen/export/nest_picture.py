@@ -39,7 +39,7 @@ def _label_point(result: NestResult, k: int) -> tuple[float, float]:
 
 def legend(result: NestResult) -> list[str]:
     """The legend's lines, number n for demand n - 1."""
-    return [f"{i + 1}: {Path(d.part.file).name} part {d.part.index + 1} x {d.quantity}"
+    return [f"{i + 1}: {d.part.name or f'{Path(d.part.file).name} part {d.part.index + 1}'} x {d.quantity}"
             for i, d in enumerate(result.demands)]
 
 

@@ -48,28 +48,34 @@ class Ring:
 
     points: FloatArray
     deviation: float
+    #: per chord (from vertex k to k + 1), its segment's position in ``rows``
+    segment: IntArray | None = None
 
 
 def flatten_contour(table: SegmentTable, rows: IntArray, forward: np.ndarray, tol: float = CHORD_TOL_MM) -> Ring:
     """Chords along the segments ``rows`` in cutting order (``forward``: along the parametrisation)."""
     pieces: list[FloatArray] = []
     deviation = 0.0
-    lines = len(table.drawing.lines)
-    arcs_end = lines + len(table.drawing.arcs)
     for row, fwd in zip(np.asarray(rows).tolist(), np.asarray(forward).tolist(), strict=True):
-        if row < lines:
-            pts = np.array([table.start[row, :2], table.end[row, :2]])
-            dev = 0.0
-        elif row < arcs_end:
-            pts, dev = _arc_chords(table, row - lines, tol)
-        else:
-            pts, dev = _bezier_chords(table, row, tol)
+        pts, dev = segment_chords(table, row, tol)
         if not fwd:
             pts = pts[::-1]
         pieces.append(pts[:-1])
         deviation = max(deviation, dev)
     ring = np.concatenate(pieces) if pieces else np.zeros((0, 2))
-    return Ring(ring, deviation)
+    owner = np.repeat(np.arange(len(pieces)), [len(p) for p in pieces])
+    return Ring(ring, deviation, owner)
+
+
+def segment_chords(table: SegmentTable, row: int, tol: float = CHORD_TOL_MM) -> tuple[FloatArray, float]:
+    """Chord vertices ``[m + 1, 2]`` of one segment along its parametrisation, and the curve's largest
+    distance from them (mm)."""
+    lines = len(table.drawing.lines)
+    if row < lines:
+        return np.array([table.start[row, :2], table.end[row, :2]]), 0.0
+    if row < lines + len(table.drawing.arcs):
+        return _arc_chords(table, row - lines, tol)
+    return _bezier_chords(table, row, tol)
 
 
 def _arc_chords(table: SegmentTable, k: int, tol: float) -> tuple[FloatArray, float]:

@@ -17,7 +17,7 @@ import numpy as np
 
 from pathlen.batch import FileOutcome, hidden_note, one_line_failure
 from pathlen.containment import nesting_depth
-from pathlen.contours import DEFAULT_JOIN_TOL_MM, ContourSet, chain_contours
+from pathlen.contours import DEFAULT_JOIN_TOL_MM, Contour, ContourSet, chain_contours
 from pathlen.geometry import Drawing, Entity, FloatArray, keep_rows
 from pathlen.importers import ImportOptions, read_drawing
 from pathlen.instances import DEFAULT_MAX_SEGMENTS, expand
@@ -59,6 +59,7 @@ class Part:
     outline: FloatArray  # [n, 2] the flattened outer contour (mm); the true one strays at most `deviation`
     deviation: float
     marks: int = 0  # contours of other layers carried along (engraving, notes): never holes
+    name: str = ""  # a pattern piece's name (empty for drawing parts)
 
 
 @dataclass
@@ -138,24 +139,37 @@ def _part(path: str, index: int, outer: int, table: SegmentTable, contours: Cont
           parent: np.ndarray, terms: FloatArray, term_bounds: FloatArray, gap: float) -> tuple[Part, np.ndarray]:
     """The part of outer contour ``outer`` (its drawing is filled in later) and its table rows."""
     members = np.flatnonzero(owner == outer)
-    holes = [k for k in members.tolist() if k != outer and contours.closed[k] and parent[k] == outer]
-    outline = contours[outer]
+    holes = [contours[k] for k in members.tolist() if k != outer and contours.closed[k] and parent[k] == outer]
+    part = _build(path, index, table, contours[outer], holes, terms, term_bounds, gap,
+                  float(contours.length[members].sum()), len(members))
+    return part, np.concatenate([contours[k].segments for k in members.tolist()])
+
+
+def outline_part(path: str, index: int, table: SegmentTable, outline: Contour, gap: float, name: str = "") -> Part:
+    """A part with one closed outline and no holes (a pattern piece's cut line), its drawing its own."""
+    terms, term_bounds = segment_areas(table)
+    part = _build(path, index, table, outline, [], terms, term_bounds, gap, float(outline.length), 1)
+    keep = np.zeros(len(table), dtype=bool)
+    keep[outline.segments] = True
+    part.drawing = _own_entities(keep_rows(table.drawing, keep))
+    part.name = name
+    return part
+
+
+def _build(path: str, index: int, table: SegmentTable, outline: Contour, holes: list[Contour], terms: FloatArray,
+           term_bounds: FloatArray, gap: float, cut_length: float, contours: int) -> Part:
     area, bound = contour_area(terms, term_bounds, outline.segments, outline.forward)
     area = abs(area)
-    for k in holes:
-        c = contours[k]
+    for c in holes:
         a, b = contour_area(terms, term_bounds, c.segments, c.forward)
         area -= abs(a)
         bound += b
     ring = flatten_contour(table, outline.segments, outline.forward)
-    envelope = part_envelope(ring, [flatten_contour(table, contours[k].segments, contours[k].forward) for k in holes],
-                             gap)
-    rows = np.concatenate([contours[k].segments for k in members.tolist()])
+    envelope = part_envelope(ring, [flatten_contour(table, c.segments, c.forward) for c in holes], gap)
     x0, y0 = ring.points.min(axis=0) - ring.deviation
     x1, y1 = ring.points.max(axis=0) + ring.deviation
-    part = Part(path, index, table.drawing, area, bound, float(contours.length[members].sum()), len(members),
-                len(holes), envelope, (float(x0), float(y0), float(x1), float(y1)), ring.points, ring.deviation)
-    return part, rows
+    return Part(path, index, table.drawing, area, bound, cut_length, contours, len(holes), envelope,
+                (float(x0), float(y0), float(x1), float(y1)), ring.points, ring.deviation)
 
 
 def _attach_marks(parts: list[Part], rows: list[np.ndarray], table: SegmentTable, marks: ContourSet) -> None:

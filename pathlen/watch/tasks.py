@@ -154,13 +154,11 @@ def build_task(name: str, options: dict[str, Any] | None = None, profile_files: 
     from pathlen.estimates.seam_estimate import SeamEstimate, SeamSettings, estimate_seams
     from pathlen.estimates.seam_estimate import cautions as seam_cautions
     from pathlen.estimates.seam_plan import load_seam_plan
-    from pathlen.estimates.thread import STITCH_RATIO
+    from pathlen.estimates.thread import stitch as stitch_type
     from pathlen.export.seam import render_csv as seam_csv
     from pathlen.export.seam import seam_document
 
-    stitch = _whole(where, "stitch", opts.get("stitch", 301), 100)
-    if stitch not in STITCH_RATIO:
-        raise UsageError(f"{where}: stitch {stitch} is not a known ISO 4915 type ({', '.join(map(str, STITCH_RATIO))})")
+    stitch = stitch_type(opts.get("stitch", 301), f"{where}: stitch").number
     try:
         plan = load_seam_plan(plan_path(opts["plan"])) if "plan" in opts else None
     except UsageError as exc:
