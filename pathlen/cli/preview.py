@@ -3,10 +3,14 @@
 from __future__ import annotations
 
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import click
 
 from pathlen.errors import PathlenError
+
+if TYPE_CHECKING:
+    from pathlen.export.preview import Scene
 
 
 @click.command()
@@ -29,9 +33,11 @@ from pathlen.errors import PathlenError
 @click.option("--allowance", type=click.FloatRange(min=0), default=10.0, show_default=True, metavar="MM")
 @click.option("--cut-layer", "cut_layers", help="Layers or #rrggbb colours of cut lines (with --seam).")
 @click.option("--sew-layer", "sew_layers", help="Layers or #rrggbb colours of drawn sew lines (with --seam).")
+@click.option("--plan", "plan_file", type=click.Path(dir_okay=False),
+              help="A seam plan (with --seam): its allowances, and its matches listed beside the picture.")
 def preview(path: Path, output: Path, join_tol: float, drawing_units: str | None, svg_dpi: float | None,
             hidden_layers: bool, dpi: float, profile: str | None, profile_files: tuple[str, ...], seam_edges: bool,
-            allowance: float, cut_layers: str | None, sew_layers: str | None) -> None:
+            allowance: float, cut_layers: str | None, sew_layers: str | None, plan_file: str | None) -> None:
     """Draw the drawing PATH as pathlen measured it: contours by kind, starts and directions, gaps, scale bar."""
     from pathlen.cli.reading import write_atomic
     from pathlen.export.preview import build_scene, render_raster, scene_svg
@@ -57,9 +63,11 @@ def preview(path: Path, output: Path, join_tol: float, drawing_units: str | None
         click.echo(f"error {path}: {exc}", err=True)
         raise SystemExit(1) from None
     scene = build_scene(drawing, path.name, path.suffix.lower() == ".svg", join_tol, cut_order=profile is not None)
+    if plan_file and not seam_edges:
+        raise click.UsageError("--plan goes with --seam")
     if seam_edges:
-        scene.labels = _seam_labels(path, ImportOptions(drawing_units, svg_dpi, hidden_layers=hidden_layers),
-                                    join_tol, allowance, cut_layers, sew_layers)
+        _seam_marks(scene, path, ImportOptions(drawing_units, svg_dpi, hidden_layers=hidden_layers), join_tol,
+                    allowance, cut_layers, sew_layers, plan_file)
     if suffix == ".svg":
         write_atomic(str(output), scene_svg(scene))
     else:
@@ -67,18 +75,30 @@ def preview(path: Path, output: Path, join_tol: float, drawing_units: str | None
     click.echo(f"wrote {output}", err=True)
 
 
-def _seam_labels(path: Path, options: object, join_tol: float, allowance: float, cut_layers: str | None,
-                 sew_layers: str | None) -> list[tuple[float, float, str]]:
-    """'PIECE:EDGE' at a point of every edge of every piece, as ``pathlen seam`` numbers them."""
+def _seam_marks(scene: Scene, path: Path, options: object, join_tol: float, allowance: float,
+                cut_layers: str | None, sew_layers: str | None, plan_file: str | None) -> None:
+    """Onto the scene: 'PIECE:EDGE' at a point of every edge as ``pathlen seam`` numbers them, the
+    computed sew lines (dashed), notch ticks and, with a plan, its matches listed beside the picture."""
     from pathlen.batch import MeasureSettings
     from pathlen.estimates.seam_estimate import SeamSettings, estimate_seams
+    from pathlen.estimates.seam_plan import load_seam_plan
+    from pathlen.export import from_mm
 
     def split(text: str | None) -> tuple[str, ...]:
         return tuple(x.strip() for x in (text or "").split(",") if x.strip())
 
-    settings = SeamSettings(allowance, cut_layers=split(cut_layers), sew_layers=split(sew_layers),
+    try:
+        plan = load_seam_plan(Path(plan_file)) if plan_file else None
+    except PathlenError as exc:
+        raise click.UsageError(str(exc)) from None
+    settings = SeamSettings(allowance, plan=plan, cut_layers=split(cut_layers), sew_layers=split(sew_layers),
                             measure=MeasureSettings(join_tol_mm=join_tol, import_options=options))  # type: ignore[arg-type]
     result = estimate_seams(str(path), settings)
     if not result.ok:
         raise click.ClickException(f"seam edges: {result.error}")
-    return [(x, y, f"{p.name}:{k}") for p in result.pieces for k, (x, y) in enumerate(p.edge_points, start=1)]
+    scene.labels = [(x, y, f"{p.name}:{k}") for p in result.pieces
+                    for k, (x, y) in enumerate(p.edge_points, start=1)]
+    scene.sew_lines = [line for p in result.pieces for line in p.sew_paths]
+    scene.ticks = [t for p in result.pieces for t in p.notch_feet]
+    scene.side_notes = [f"match {m.a} ~ {m.b}: {round(from_mm(m.difference_mm, 'mm'), 1) + 0.0:+.1f} mm "
+                        f"({round(m.ease_pct, 1) + 0.0:+.1f} % ease){'' if m.ok else ' check'}" for m in result.matches]

@@ -52,8 +52,8 @@ class SewLine:
     paths: list[np.ndarray] = field(default_factory=list)
     #: loops of the sew line (an offset may split the piece in several)
     loops: int = 1
-    #: the feet of the marks that split edges (mm), for pictures
-    feet: list[tuple[float, float]] = field(default_factory=list)
+    #: the feet of the marks that split edges (x, y in mm) and the line's direction there, for pictures
+    feet: list[tuple[float, float, float, float]] = field(default_factory=list)
 
 
 def sew_line(table: SegmentTable, outline: Contour, allowance: float, marks: list[tuple[float, float]],
@@ -102,12 +102,13 @@ def sew_line(table: SegmentTable, outline: Contour, allowance: float, marks: lis
         if at is None:
             unsnapped += 1
             continue
-        position, point = at
+        position, point, chord = at
         if position - math.floor(position) < _AT_VERTEX or math.ceil(position) - position < _AT_VERTEX:
             position = float(round(position) % n)
             point = (float(starts[int(position), 0]), float(starts[int(position), 1]))
         splits.setdefault(position, point)
-        feet.append(point)
+        along = pieces[1][chord]
+        feet.append((point[0], point[1], float(along[0]), float(along[1])))
     total = float(sew.sum())
     if not splits:
         return SewLine(total, [total], unsnapped, [idx.tolist()], paths, loops, feet)
@@ -179,8 +180,9 @@ def _loops(ring: np.ndarray, a: float) -> int:
 
 
 def _foot(ring: np.ndarray, owner: np.ndarray, weights: np.ndarray, pieces: tuple[np.ndarray, ...],
-          mark: np.ndarray, cut_ring: np.ndarray | None) -> tuple[float, tuple[float, float]] | None:
-    """Where a mark splits the line: (segment position k + fraction of its sew length, the foot point),
+          mark: np.ndarray, cut_ring: np.ndarray | None) -> tuple[float, tuple[float, float], int] | None:
+    """Where a mark splits the line: (segment position k + fraction of its sew length, the foot point,
+    the chord),
     or None when the mark is further than MARK_SNAP_MM from the line (and from ``cut_ring``).  The
     foot on a chord maps to the point level with it on the chord's offset (``pieces``: per chord the
     offset's start, direction and length), whose share of the chord's kept length ``weights`` counts."""
@@ -197,7 +199,7 @@ def _foot(ring: np.ndarray, owner: np.ndarray, weights: np.ndarray, pieces: tupl
     before = float(w[mine < chord].sum() + share * weights[chord])
     whole = float(w.sum())
     fraction = before / whole if whole > 0 else 0.0
-    return k + min(max(fraction, 0.0), 1.0 - 1e-12), (float(foot[0]), float(foot[1]))
+    return k + min(max(fraction, 0.0), 1.0 - 1e-12), (float(foot[0]), float(foot[1])), chord
 
 
 def _nearest_on_ring(ring: np.ndarray, p: np.ndarray) -> tuple[float, int, float, np.ndarray]:

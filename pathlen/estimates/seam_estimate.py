@@ -88,7 +88,7 @@ class PieceSeams:
     edge_points: list[tuple[float, float]] = field(default_factory=list)
     #: the sew line as polylines (mm) where it is an offset, and the feet of notches, for pictures
     sew_paths: list[Any] = field(default_factory=list)
-    notch_feet: list[tuple[float, float]] = field(default_factory=list)
+    notch_feet: list[tuple[float, float, float, float]] = field(default_factory=list)
     loops: int = 1
     #: the cut line as a nesting part (only when a marker is wanted)
     part: Any = None

@@ -26,7 +26,7 @@ from pathlen.segments import SegmentTable, segment_layers, segment_table
 #: Our colours: closed contours in deep teal, open ones in amber, segments drawn twice in crimson,
 #: gaps in violet, starts and arrows in slate.
 COLOURS = {"closed": "#0b6e6e", "open": "#d98c00", "twice": "#c0143c", "gap": "#7a3db8", "mark": "#44505c",
-           "ghost": "#c3c9cf"}
+           "ghost": "#c3c9cf", "sew": "#1f5fbf"}
 LABELS = {"closed": "closed contour", "open": "open contour", "twice": "drawn twice", "gap": "gap (width)",
           "mark": "start and direction", "ghost": "not measured (layer off or frozen)"}
 #: Segment kinds drawn as paths, in drawing order (ghosts underneath).
@@ -52,6 +52,11 @@ class Scene:
     rapids: np.ndarray = field(default_factory=lambda: np.zeros((0, 2)))
     #: words to write on the drawing (x, y in mm, text): seam edge numbers
     labels: list[tuple[float, float, str]] = field(default_factory=list)
+    #: computed sew lines (polylines in mm, drawn dashed), notch ticks (x, y, direction of the line)
+    #: and lines listed beside the picture (seam matches)
+    sew_lines: list[np.ndarray] = field(default_factory=list)
+    ticks: list[tuple[float, float, float, float]] = field(default_factory=list)
+    side_notes: list[str] = field(default_factory=list)
 
 
 def build_scene(drawing: Drawing, title: str, y_down: bool, join_tol: float = DEFAULT_JOIN_TOL_MM,
@@ -120,7 +125,7 @@ def scene_svg(s: Scene) -> str:
     w, h = max(x1 - x0, 1e-6), max(y1 - y0, 1e-6)
     margin = 0.06 * max(w, h) + 2.0
     text = max(w, h) / 60.0 + 1.0
-    legend_h = text * 1.6 * (len(LABELS) + min(len(s.notes), 6) + 1)
+    legend_h = text * 1.6 * (len(LABELS) + min(len(s.notes), 6) + len(s.side_notes) + 1)
     width, height = w + 2 * margin, h + 2 * margin + legend_h
     stroke = max(w, h) / 800.0 + 0.05
     # drawing coordinates -> picture: y up (DXF) is flipped so that it reads as drawn
@@ -160,6 +165,14 @@ def scene_svg(s: Scene) -> str:
                         for a, b in zip(s.rapids[0::2], s.rapids[1::2], strict=False))
         out.append(f'<path class="rapid" d="{legs}" stroke="{COLOURS["mark"]}" '
                    f'stroke-dasharray="{2 * stroke:.3f} {3 * stroke:.3f}"/>')
+    if s.sew_lines:  # computed sew lines, dashed inside the cut lines
+        d = " ".join("M " + " L ".join(f"{x:.6f} {y:.6f}" for x, y in line) for line in s.sew_lines)
+        out.append(f'<path class="sew" d="{d}" stroke="{COLOURS["sew"]}" stroke-width="{stroke:.4f}" '
+                   f'stroke-dasharray="{3 * stroke:.3f} {2 * stroke:.3f}"/>')
+    for x, y, dx, dy in s.ticks:  # notches: a tick across the line
+        nx, ny = -dy * 4 * stroke, dx * 4 * stroke
+        out.append(f'<path class="notch" d="M {x - nx:.6f} {y - ny:.6f} L {x + nx:.6f} {y + ny:.6f}" '
+                   f'stroke="{COLOURS["gap"]}" stroke-width="{1.5 * stroke:.4f}"/>')
     out.append("</g>")
     for n, (x, y) in enumerate(s.pierces, start=1):  # numbers upright, outside the flipped group
         px, py = x + margin - x0, (y + margin - y0) if s.y_down else (margin + y1 - y)
@@ -167,8 +180,9 @@ def scene_svg(s: Scene) -> str:
                    f'fill="{COLOURS["mark"]}">{n}</text>')
     for x, y, words in s.labels:
         px, py = x + margin - x0, (y + margin - y0) if s.y_down else (margin + y1 - y)
-        out.append(f'<text class="label" x="{px:.4f}" y="{py:.4f}" font-size="{text * 0.8:.3f}" text-anchor="middle" '
-                   f'fill="{COLOURS["gap"]}">{escape(words)}</text>')
+        out.append(f'<text class="label" x="{px:.4f}" y="{py:.4f}" font-size="{text:.3f}" text-anchor="middle" '
+                   f'dominant-baseline="middle" fill="{COLOURS["gap"]}" stroke="#ffffff" '
+                   f'stroke-width="{text * 0.25:.3f}" paint-order="stroke">{escape(words)}</text>')
     out.append(f'<g font-size="{text:.3f}" fill="#222222">')
     bar = nice_length(w)
     by = margin + h + text * 1.2
@@ -183,6 +197,9 @@ def scene_svg(s: Scene) -> str:
     for k, note in enumerate(s.notes[:6]):
         y = by + text * 1.6 * (len(LABELS) + k + 1.5)
         out.append(f'<text x="{margin:.4f}" y="{y:.4f}" fill="#777777">note: {escape(note[:120])}</text>')
+    for k, line in enumerate(s.side_notes):
+        y = by + text * 1.6 * (len(LABELS) + min(len(s.notes), 6) + k + 1.5)
+        out.append(f'<text class="match" x="{margin:.4f}" y="{y:.4f}">{escape(line[:160])}</text>')
     out.append("</g></svg>")
     return "\n".join(out) + "\n"
 
@@ -194,6 +211,7 @@ def render_raster(s: Scene, path: Path, dpi: float = 150.0) -> None:
     import matplotlib
 
     matplotlib.use("Agg")
+    from matplotlib import patheffects
     from matplotlib.figure import Figure
     from matplotlib.patches import Circle, PathPatch
     from matplotlib.path import Path as MplPath
@@ -203,7 +221,7 @@ def render_raster(s: Scene, path: Path, dpi: float = 150.0) -> None:
     margin = 0.06 * max(w, h) + 2.0
     # mm on paper per mm drawn: 1 where it fits an A3 sheet and a page at least 100 mm wide, else scaled
     scale = max(min(1.0, 400.0 / max(w, h)), 100.0 / (w + 2 * margin))
-    band = 1.6  # inches below the drawing for the scale bar, notes and legend
+    band = max(1.6, 0.4 + 0.12 * len(s.side_notes))  # inches below the drawing: scale bar, notes, legend, matches
     tall = (h + 2 * margin) * scale / 25.4
     fig = Figure(figsize=((w + 2 * margin) * scale / 25.4, tall + band), dpi=dpi)
     ax = fig.add_axes((0.0, band / (tall + band), 1.0, tall / (tall + band)))
@@ -237,8 +255,16 @@ def render_raster(s: Scene, path: Path, dpi: float = 150.0) -> None:
         ax.plot([a[0], b[0]], [a[1], b[1]], linestyle=(0, (2, 3)), linewidth=0.7, color=COLOURS["mark"])
     for n, (x, y) in enumerate(s.pierces, start=1):
         ax.annotate(str(n), (x, y), textcoords="offset points", xytext=(3, 3), fontsize=6, color=COLOURS["mark"])
+    for line in s.sew_lines:
+        ax.plot(line[:, 0], line[:, 1], linestyle=(0, (3, 2)), linewidth=0.8, color=COLOURS["sew"])
+    tick = 0.01 * max(w, h)
+    for x, y, dx, dy in s.ticks:
+        ax.plot([x + dy * tick, x - dy * tick], [y - dx * tick, y + dx * tick], linewidth=1.2, color=COLOURS["gap"])
+    halo = [patheffects.withStroke(linewidth=2.0, foreground="white")]
     for x, y, words in s.labels:
-        ax.annotate(words, (x, y), ha="center", fontsize=6, color=COLOURS["gap"])
+        ax.annotate(words, (x, y), ha="center", va="center", fontsize=7, color=COLOURS["gap"], path_effects=halo)
+    for k, line in enumerate(s.side_notes):
+        fig.text(0.45, (band - 0.25 - 0.12 * k) / (tall + band), line[:90], fontsize=6, color="#222222")
     bar = nice_length(w)
     fig.text(0.02, 0.02, f"scale bar: {bar:g} mm  |  extents {w:.1f} x {h:.1f} mm", fontsize=7)
     for k, note in enumerate(s.notes[:4]):

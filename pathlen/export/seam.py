@@ -167,8 +167,8 @@ def render_table(results: list[SeamEstimate], units: str, s: SeamSettings, cone_
     for r in results:
         for m in r.matches:
             mark = "ok" if m.ok else "[yellow]check[/yellow]"
-            console.print(f"match {plain(m.a)} ~ {plain(m.b)}: {from_mm(m.difference_mm, units):+.2f} {units} "
-                          f"({m.ease_pct:+.1f} % ease) {mark}", highlight=False)
+            console.print(f"match {plain(m.a)} ~ {plain(m.b)}: {round(from_mm(m.difference_mm, units), 2) + 0.0:+.2f} "
+                          f"{units} ({round(m.ease_pct, 1) + 0.0:+.1f} % ease) {mark}", highlight=False)
     for m in doc["markers"]:
         per = m["per_garment"]
         grams = f", {per['mass_g']:,.0f} g" if per["mass_g"] is not None else ""

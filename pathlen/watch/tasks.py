@@ -5,7 +5,8 @@ command line or in a service file's ``[folder."NAME"]`` table:
 
 * measure: ``recover``
 * cut: ``profile`` (required), ``quantity``, ``layers``, ``engrave``, ``ignore``, ``dedupe``, ``recover``
-* seam: ``plan``, ``allowance``, ``stitch``, ``quantity``, ``recover``
+* seam: ``plan``, ``allowance``, ``stitch``, ``quantity``, ``spc`` or ``spi``, ``thickness``, ``width``,
+  ``waste``, ``cone`` (metres per cone), ``recover``
 * bead: ``bead`` (a section) or ``plan``, ``pack``, ``waste``, ``recover``
 
 Every value is checked when the service starts; a problem is one line naming the file, the table,
@@ -32,7 +33,7 @@ COMMON = ("recover",)
 OPTIONS: dict[str, tuple[str, ...]] = {
     "measure": COMMON,
     "cut": ("profile", "quantity", "layers", "engrave", "ignore", "dedupe", *COMMON),
-    "seam": ("plan", "allowance", "stitch", "quantity", *COMMON),
+    "seam": ("plan", "allowance", "stitch", "quantity", "spc", "spi", "thickness", "width", "waste", "cone", *COMMON),
     "bead": ("bead", "plan", "pack", "waste", *COMMON),
 }
 
@@ -154,6 +155,7 @@ def build_task(name: str, options: dict[str, Any] | None = None, profile_files: 
     from pathlen.estimates.seam_estimate import SeamEstimate, SeamSettings, estimate_seams
     from pathlen.estimates.seam_estimate import cautions as seam_cautions
     from pathlen.estimates.seam_plan import load_seam_plan
+    from pathlen.estimates.thread import check_value
     from pathlen.estimates.thread import stitch as stitch_type
     from pathlen.export.seam import render_csv as seam_csv
     from pathlen.export.seam import seam_document
@@ -163,11 +165,21 @@ def build_task(name: str, options: dict[str, Any] | None = None, profile_files: 
         plan = load_seam_plan(plan_path(opts["plan"])) if "plan" in opts else None
     except UsageError as exc:
         raise UsageError(f"{where}: {exc}") from None
-    seam_settings = SeamSettings(_number(where, "allowance", opts.get("allowance", 10.0)), stitch, plan=plan,
-                                 quantity=_whole(where, "quantity", opts.get("quantity", 1)), measure=measure)
+    if "spc" in opts and "spi" in opts:
+        raise UsageError(f"{where}: give spc or spi, not both")
+    density = (check_value("spc", opts["spc"], where) / 10.0 if "spc" in opts else
+               check_value("spi", opts["spi"], where) / 25.4 if "spi" in opts else None)
+    cone_mm = _number(where, "cone", opts["cone"], 0.0, 1e9, strict=True) * 1000.0 if "cone" in opts else None
+    seam_settings = SeamSettings(_number(where, "allowance", opts.get("allowance", 10.0), 0.0, 1000.0), stitch,
+                                 density, check_value("thickness", opts["thickness"], where)
+                                 if "thickness" in opts else None, plan=plan,
+                                 quantity=_whole(where, "quantity", opts.get("quantity", 1)),
+                                 waste_pct=_number(where, "waste", opts.get("waste", 12.5), 0.0, 100.0),
+                                 measure=measure,
+                                 width_mm=check_value("width", opts["width"], where) if "width" in opts else None)
     return Task(name, estimate_seams, lambda p, **kw: SeamEstimate(p, quantity=seam_settings.quantity, **kw),
-                seam_settings, lambda r: seam_document([r], "cm", seam_settings, None, seam_cautions()), key,
-                lambda r: seam_csv([r], "cm"))
+                seam_settings, lambda r: seam_document([r], "cm", seam_settings, cone_mm, seam_cautions()), key,
+                lambda r: seam_csv([r], "cm", cone_mm))
 
 
 def load_service_file(path: Path, default: Task, profile_files: tuple[str, ...] = ()) -> dict[str, Task]:
