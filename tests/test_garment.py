@@ -334,3 +334,99 @@ def test_bad_plans_are_one_line_usage_errors(runner, tmp_path, text, words):
     assert res.exit_code == 2, res.output
     assert words in res.output and "Traceback" not in res.output
     assert len([line for line in res.output.splitlines() if line.startswith("Error")]) == 1
+
+
+# ----- pictures ---------------------------------------------------------------------------------------
+def test_seam_picture_draws_sew_lines_notches_and_matches(runner, tmp_path):
+    import re
+    from pathlib import Path
+
+    fixtures = Path(__file__).resolve().parent.parent / "fixtures"
+    pattern, plan = fixtures / "kl610_tote_bag.dxf", fixtures / "kl610_tote_bag_seams.toml"
+    out = tmp_path / "tote.svg"
+    res = runner.invoke(main, ["preview", str(pattern), "-o", str(out), "--seam", "--plan", str(plan)])
+    assert res.exit_code == 0, res.output
+    svg = out.read_text()
+    _, doc = seam_json(runner, pattern, "--plan", plan)
+    pieces = doc["files"][0]["pieces"]
+    # the dashed sew lines are the computed ones (pieces without a drawn sew line), as long as reported
+    d = re.search(r'class="sew" d="([^"]+)"', svg).group(1)
+    drawn = 0.0
+    for part in d.split("M ")[1:]:
+        pts = np.array([[float(v) for v in xy.split()] for xy in part.split(" L ")])
+        drawn += float(np.hypot(*np.diff(pts, axis=0).T).sum())
+    computed = sum(p["sew_line_length"] for p in pieces if p["name"] != "HANDLE")
+    assert drawn == pytest.approx(computed, rel=1e-9)
+    assert svg.count('class="notch"') == sum(p["notches"] for p in pieces)
+    assert svg.count('class="match"') == len(doc["files"][0]["matches"]) == 8
+    assert 'paint-order="stroke"' in svg  # edge numbers on a halo
+
+
+def test_piece_names_are_data_in_pictures_and_reports(runner, tmp_path):
+    name = '<script>alert(1)</script>&"'
+    path = pattern_dxf(tmp_path, [(name, [(0, 0), (200, 0), (200, 100), (0, 100)], None, [])])
+    out = tmp_path / "p.svg"
+    assert runner.invoke(main, ["preview", str(path), "-o", str(out), "--seam"]).exit_code == 0
+    svg = out.read_text()
+    assert "<script>" not in svg and "&lt;script&gt;" in svg
+    picture = tmp_path / "m.svg"
+    _, doc = seam_json(runner, path, "--fabric-width", "500", "--marker-time", 1, "--seed", 1,
+                       "--marker-picture", picture)
+    assert doc["files"][0]["pieces"][0]["name"] == name
+    assert "<script>" not in picture.read_text()
+
+
+def test_the_service_runs_seams_with_the_command_line_settings(tmp_path):
+    # a watch folder task with S, T, W, waste and cone gives the same document as the command line
+    from click.testing import CliRunner
+
+    from pathlen.errors import UsageError
+    from pathlen.watch.tasks import build_task
+
+    path = plain_dxf(tmp_path, lambda m: m.add_lwpolyline([(0, 0), (300, 0), (300, 200), (0, 200)], close=True))
+    task = build_task("seam", {"stitch": 504, "spi": 12, "thickness": 1.2, "width": 5, "waste": 10,
+                               "cone": 2000, "quantity": 30})
+    served = task.document(task.work(str(path), task.settings))
+    res = CliRunner().invoke(main, ["seam", str(path), "--stitch", "504", "--spi", "12", "--thickness", "1.2",
+                                    "--width", "5", "--waste", "10", "--cone", "2000m", "-q", "30",
+                                    "--format", "json"])
+    cli = json.loads(res.stdout)
+    assert served["total"] == cli["total"] and served["files"][0]["pieces"] == cli["files"][0]["pieces"]
+    for bad, key in (({"spc": 0}, "spc"), ({"thickness": float("inf")}, "thickness"), ({"cone": -1}, "cone"),
+                     ({"stitch": 999}, "999")):
+        with pytest.raises(UsageError, match=key):
+            build_task("seam", bad)
+
+
+@pytest.mark.parametrize("seed", range(8))
+def test_straight_edged_offsets_agree_with_geos_erosion(tmp_path, seed):
+    # property check against a general-purpose geometry library: for straight-edged pieces the sew line
+    # is the boundary of GEOS's inward buffer with mitred joins (shapely), whatever its topology
+    from pathlib import Path
+
+    from pathlen.contours import chain_contours
+    from pathlen.estimates.seam import sew_line
+    from pathlen.importers import read_drawing
+    from pathlen.measure import measure
+    from pathlen.segments import segment_layers, segment_table
+
+    rng = np.random.default_rng(seed)
+    angles = np.sort(rng.uniform(0, 2 * np.pi, 14))
+    radii = rng.uniform(25, 110, 14)
+    ring = np.stack([radii * np.cos(angles), radii * np.sin(angles)], axis=1)
+    polygon = shapely.Polygon(ring)
+    assert polygon.is_valid
+    path = plain_dxf(tmp_path, lambda m: m.add_lwpolyline(ring.tolist(), close=True), f"star{seed}.dxf")
+    drawing = read_drawing(Path(path))
+    table = segment_table(drawing, measure(drawing))
+    _, layer = segment_layers(drawing, table)
+    contour = chain_contours(table, layer, 0.01, np.ones(len(table), dtype=bool))[0]
+    for a in (4.0, 12.0, 22.0):
+        eroded = polygon.buffer(-a, join_style="mitre", mitre_limit=100.0)
+        if eroded.is_empty:
+            continue
+        parts = getattr(eroded, "geoms", [eroded])
+        expected = sum(p.exterior.length for p in parts)
+        line = sew_line(table, contour, a, [])
+        assert line.length_mm == pytest.approx(expected, rel=1e-9, abs=1e-7), a
+        assert line.loops == len(parts)
