@@ -121,7 +121,16 @@ def _seam(doc: dict[str, Any]) -> tuple[str, list[tuple[str, str]], list[tuple[s
     t = doc["total"]
     totals = [("Sewn (order)", f"{t['sew_length']:,.1f} {lu}"), ("Thread (order)", f"{t['thread_length']:,.1f} {tu}")]
     if "cones" in t:
-        totals.append(("Cones", str(t["cones"])))
+        totals.append(("Cones (one per thread of each position)", str(t["cones"])))
+    for row in t.get("positions", []):
+        totals.append((f"Thread {row['stitch']} {row['position']} (x {row['threads']})",
+                       f"{row['thread_length_per_thread']:,.1f} {tu}"))
+    for m in doc.get("markers", []):
+        per = m["per_garment"]
+        grams = f", {per['mass_g']:,.0f} g" if per["mass_g"] is not None else ""
+        totals.append((f"Marker {Path(m['path']).name}", f"{m['length_m']:.3f} m of {m['fabric_width_m']:g} m, "
+                       f"{m['efficiency'] * 100:.1f} %; per garment {per['length_m']:.3f} m, "
+                       f"{per['area_m2']:.3f} m²{grams}"))
     cols = [("Piece", None), ("Size", None), ("Quantity", 0), (f"Cut line ({lu})", 1), (f"Sewn ({lu})", 1),
             (f"Thread ({tu})", 2)]
 
