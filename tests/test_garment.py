@@ -11,6 +11,7 @@ import shapely
 
 from pathlen.cli import main
 from pathlen.estimates.thread import STITCHES, StitchSettings, position_ratios
+from tests.drawings import mm_dxf, seam_json
 
 # The published per-stitch consumption formulas (thread per unit seam; T thickness, S stitches per
 # unit length, W seam or cover width, one length unit), as tabulated by thread makers and reproduced
@@ -28,21 +29,6 @@ PUBLISHED = {
     607: lambda t, s, w: 12 + 4 * s * (w + 2 * t),
 }
 THREADS = {101: 1, 301: 2, 401: 2, 504: 3, 514: 4, 516: 5, 602: 4, 605: 5, 607: 6}  # ISO 4915 stitch make-up
-
-
-def seam_json(runner, *args, code=(0,)):
-    res = runner.invoke(main, ["seam", *map(str, args), "--units", "mm", "--format", "json"])
-    assert res.exit_code in code, res.output
-    return res, json.loads(res.stdout)
-
-
-def plain_dxf(tmp_path, build, name="piece.dxf"):
-    doc = ezdxf.new()
-    doc.header["$INSUNITS"] = 4
-    build(doc.modelspace())
-    path = tmp_path / name
-    doc.saveas(path)
-    return path
 
 
 def pattern_dxf(tmp_path, pieces, name="pattern.dxf"):
@@ -90,7 +76,7 @@ def test_lockstitch_by_hand_count(runner, tmp_path):
     # hand count: each of the two threads of a balanced lockstitch runs one stitch length N along the
     # seam and half the thickness down and back up where they interlace: N + T per stitch, so per mm
     # of seam (1 + T·S) each.  T = 2 mm, 5 stitches per cm (0.5 per mm): 2 + 2 = 4; waste 0 here
-    path = plain_dxf(tmp_path, lambda m: m.add_lwpolyline([(0, 0), (120, 0), (120, 80), (0, 80)], close=True))
+    path = mm_dxf(tmp_path, lambda m: m.add_lwpolyline([(0, 0), (120, 0), (120, 80), (0, 80)], close=True))
     _, doc = seam_json(runner, path, "--allowance", 10, "--spc", 5, "--thickness", 2, "--waste", 0)
     seam = doc["files"][0]["pieces"][0]["seams"][0]
     assert seam["length"] == pytest.approx(2 * (100 + 60))
@@ -100,7 +86,7 @@ def test_lockstitch_by_hand_count(runner, tmp_path):
 
 
 def test_density_and_width_change_every_formula_stitch(runner, tmp_path):
-    path = plain_dxf(tmp_path, lambda m: m.add_circle((0, 0), 80))
+    path = mm_dxf(tmp_path, lambda m: m.add_circle((0, 0), 80))
     _, a = seam_json(runner, path, "--stitch", 514)
     _, b = seam_json(runner, path, "--stitch", 514, "--spi", 14, "--width", 6)
     sa, sb = a["files"][0]["pieces"][0]["seams"][0], b["files"][0]["pieces"][0]["seams"][0]
@@ -111,7 +97,7 @@ def test_density_and_width_change_every_formula_stitch(runner, tmp_path):
 
 def test_cones_per_position_for_an_overedge(runner, tmp_path):
     # 504: needle, upper and lower looper, each from its own cone; 200 garments of a 1 m square piece
-    path = plain_dxf(tmp_path, lambda m: m.add_lwpolyline([(0, 0), (270, 0), (270, 270), (0, 270)], close=True))
+    path = mm_dxf(tmp_path, lambda m: m.add_lwpolyline([(0, 0), (270, 0), (270, 270), (0, 270)], close=True))
     _, doc = seam_json(runner, path, "--stitch", 504, "--quantity", 200, "--cone", "100m", "--allowance", 10)
     rows = {p["position"]: p for p in doc["total"]["positions"]}
     assert set(rows) == {"needle", "upper looper", "lower looper"}
@@ -170,7 +156,7 @@ def test_rounded_rectangle_with_allowance_above_its_corner_radius_sews_the_sharp
         m.add_lwpolyline([(r, 0, 0), (w - r, 0, b), (w, r, 0), (w, h - r, b), (w - r, h, 0), (r, h, b),
                           (0, h - r, 0), (0, r, b)], format="xyb", close=True)
 
-    _, doc = seam_json(runner, plain_dxf(tmp_path, build), "--allowance", a)
+    _, doc = seam_json(runner, mm_dxf(tmp_path, build), "--allowance", a)
     piece = doc["files"][0]["pieces"][0]
     assert piece["error"] is None
     assert piece["sew_length"] == pytest.approx(2 * (w + h) - 8 * a, rel=1e-9)
@@ -182,7 +168,7 @@ def test_dumbbell_with_a_narrow_neck_sews_two_loops(runner, tmp_path):
     # each square sews the 80 mm square inside it (mitred erosion): 2 x 320 = 640 mm
     outline = [(0, 0), (100, 0), (100, 42.5), (150, 42.5), (150, 0), (250, 0), (250, 100), (150, 100),
                (150, 57.5), (100, 57.5), (100, 100), (0, 100)]
-    _, doc = seam_json(runner, plain_dxf(tmp_path, lambda m: m.add_lwpolyline(outline, close=True)),
+    _, doc = seam_json(runner, mm_dxf(tmp_path, lambda m: m.add_lwpolyline(outline, close=True)),
                        "--allowance", 10)
     piece = doc["files"][0]["pieces"][0]
     assert piece["sew_length"] == pytest.approx(640.0, rel=1e-9)
@@ -190,7 +176,7 @@ def test_dumbbell_with_a_narrow_neck_sews_two_loops(runner, tmp_path):
     assert any("2 loops" in w for w in doc["files"][0]["warnings"])
     # with a 5 mm allowance the neck is wide enough: the ordinary mitred offset, 2(W + H) − 8a less
     # the neck's reflex corners, which each lengthen both sides by a·tan(45°)
-    _, doc = seam_json(runner, plain_dxf(tmp_path, lambda m: m.add_lwpolyline(outline, close=True), "b.dxf"),
+    _, doc = seam_json(runner, mm_dxf(tmp_path, lambda m: m.add_lwpolyline(outline, close=True), "b.dxf"),
                        "--allowance", 5)
     perimeter = sum(math.dist(outline[k], outline[(k + 1) % len(outline)]) for k in range(len(outline)))
     convex, reflex = 8, 4
@@ -199,7 +185,7 @@ def test_dumbbell_with_a_narrow_neck_sews_two_loops(runner, tmp_path):
 
 def test_a_figure_eight_outline_is_not_a_piece(runner, tmp_path):
     eight = [(0, 0), (100, 100), (200, 0), (200, 100), (100, 0), (0, 100)]
-    _, doc = seam_json(runner, plain_dxf(tmp_path, lambda m: m.add_lwpolyline(eight, close=True)),
+    _, doc = seam_json(runner, mm_dxf(tmp_path, lambda m: m.add_lwpolyline(eight, close=True)),
                        "--allowance", 10)
     piece = doc["files"][0]["pieces"][0]
     assert piece["sew_length"] == 0 and "crosses or touches itself" in piece["error"]
@@ -210,7 +196,7 @@ def test_a_piece_narrower_than_twice_the_allowance_fails_alone(runner, tmp_path)
         m.add_lwpolyline([(0, 0), (300, 0), (300, 15), (0, 15)], close=True)  # a 15 mm strip
         m.add_lwpolyline([(0, 100), (100, 100), (100, 200), (0, 200)], close=True)
 
-    _, doc = seam_json(runner, plain_dxf(tmp_path, build), "--allowance", 10)
+    _, doc = seam_json(runner, mm_dxf(tmp_path, build), "--allowance", 10)
     pieces = {p["name"]: p for p in doc["files"][0]["pieces"]}
     assert "leaves no sew line" in pieces["piece 1"]["error"]
     assert pieces["piece 2"]["sew_length"] == pytest.approx(400 - 80)
@@ -224,7 +210,7 @@ def test_marker_efficiency_overlaps_and_fabric_per_garment(runner, tmp_path):
         m.add_lwpolyline([(400, 0), (520, 0), (520, 80), (400, 80)], close=True)
         m.add_circle((700, 100), 60)
 
-    path = plain_dxf(tmp_path, build)
+    path = mm_dxf(tmp_path, build)
     _, doc = seam_json(runner, path, "--marker", "--fabric-width", "450", "--ratio", "3", "--marker-time", 2,
                        "--seed", 1, "--gsm", 200)
     m = doc["markers"][0]
@@ -287,7 +273,7 @@ def test_marker_of_the_demo_pattern_by_size_with_the_plan_table(runner, tmp_path
 
 
 def test_marker_ratio_naming_a_missing_size_fails_that_file(runner, tmp_path):
-    path = plain_dxf(tmp_path, lambda m: m.add_circle((0, 0), 50))
+    path = mm_dxf(tmp_path, lambda m: m.add_circle((0, 0), 50))
     _, doc = seam_json(runner, path, "--fabric-width", "1500", "--ratio", "XL:1", "--marker-time", 1, code=(1,))
     assert "size 'XL'" in doc["files"][0]["error"]
 
@@ -309,7 +295,7 @@ def test_marker_ratio_naming_a_missing_size_fails_that_file(runner, tmp_path):
     (["--marker-picture", "m.svg"], "--marker"),
 ])
 def test_bad_options_are_one_line_usage_errors(runner, tmp_path, args, words):
-    path = plain_dxf(tmp_path, lambda m: m.add_circle((0, 0), 50))
+    path = mm_dxf(tmp_path, lambda m: m.add_circle((0, 0), 50))
     res = runner.invoke(main, ["seam", str(path), *args])
     assert res.exit_code == 2, res.output
     assert words in res.output and "Traceback" not in res.output
@@ -327,7 +313,7 @@ def test_bad_options_are_one_line_usage_errors(runner, tmp_path, args, words):
     ("a = " + "[" * 3000 + "]" * 3000 + "\n", "seam plan"),
 ])
 def test_bad_plans_are_one_line_usage_errors(runner, tmp_path, text, words):
-    path = plain_dxf(tmp_path, lambda m: m.add_circle((0, 0), 50))
+    path = mm_dxf(tmp_path, lambda m: m.add_circle((0, 0), 50))
     plan = tmp_path / "plan.toml"
     plan.write_text(text)
     res = runner.invoke(main, ["seam", str(path), "--plan", str(plan)])
@@ -383,7 +369,7 @@ def test_the_service_runs_seams_with_the_command_line_settings(tmp_path):
     from pathlen.errors import UsageError
     from pathlen.watch.tasks import build_task
 
-    path = plain_dxf(tmp_path, lambda m: m.add_lwpolyline([(0, 0), (300, 0), (300, 200), (0, 200)], close=True))
+    path = mm_dxf(tmp_path, lambda m: m.add_lwpolyline([(0, 0), (300, 0), (300, 200), (0, 200)], close=True))
     task = build_task("seam", {"stitch": 504, "spi": 12, "thickness": 1.2, "width": 5, "waste": 10,
                                "cone": 2000, "quantity": 30})
     served = task.document(task.work(str(path), task.settings))
@@ -416,7 +402,7 @@ def test_straight_edged_offsets_agree_with_geos_erosion(tmp_path, seed):
     ring = np.stack([radii * np.cos(angles), radii * np.sin(angles)], axis=1)
     polygon = shapely.Polygon(ring)
     assert polygon.is_valid
-    path = plain_dxf(tmp_path, lambda m: m.add_lwpolyline(ring.tolist(), close=True), f"star{seed}.dxf")
+    path = mm_dxf(tmp_path, lambda m: m.add_lwpolyline(ring.tolist(), close=True), f"star{seed}.dxf")
     drawing = read_drawing(Path(path))
     table = segment_table(drawing, measure(drawing))
     _, layer = segment_layers(drawing, table)

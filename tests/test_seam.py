@@ -1,39 +1,23 @@
 """Seams: sew lines by exact inward offset, edges, plans, matching and thread, against elementary
 geometry, mpmath and hand computation."""
 
-import json
 import math
 from pathlib import Path
 
-import ezdxf
 import mpmath as mp
 import pytest
 
 from pathlen.cli import main
 from pathlen.estimates.sew_offset import CHORD_TOL_MM
+from tests.drawings import mm_dxf, seam_json
 
 FIXTURES = Path(__file__).resolve().parent.parent / "fixtures"
-
-
-def seam_json(runner, *args):
-    res = runner.invoke(main, ["seam", *map(str, args), "--units", "mm", "--format", "json"])
-    assert res.exit_code in (0, 1), res.output
-    return res, json.loads(res.stdout)
-
-
-def plain_dxf(tmp_path, build, name="piece.dxf"):
-    doc = ezdxf.new()
-    doc.header["$INSUNITS"] = 4
-    build(doc.modelspace())
-    path = tmp_path / name
-    doc.saveas(path)
-    return path
 
 
 @pytest.mark.parametrize(("w", "h", "a"), [(400, 380, 10), (100, 50, 15), (30, 30, 6)])
 def test_rectangle_sews_its_perimeter_less_8a(runner, tmp_path, w, h, a):
     # elementary geometry: the inner rectangle (W − 2a) x (H − 2a), perimeter 2(W + H) − 8a
-    path = plain_dxf(tmp_path, lambda m: m.add_lwpolyline([(0, 0), (w, 0), (w, h), (0, h)], close=True))
+    path = mm_dxf(tmp_path, lambda m: m.add_lwpolyline([(0, 0), (w, 0), (w, h), (0, h)], close=True))
     _, doc = seam_json(runner, path, "--allowance", a)
     piece = doc["files"][0]["pieces"][0]
     assert piece["sew_length"] == pytest.approx(2 * (w + h) - 8 * a, rel=1e-12)
@@ -42,14 +26,14 @@ def test_rectangle_sews_its_perimeter_less_8a(runner, tmp_path, w, h, a):
 
 def test_circle_sews_the_circle_of_radius_r_minus_a(runner, tmp_path):
     # 2π(R − a): the offset of a circle is the concentric circle
-    path = plain_dxf(tmp_path, lambda m: m.add_circle((50, 50), 40))
+    path = mm_dxf(tmp_path, lambda m: m.add_circle((50, 50), 40))
     _, doc = seam_json(runner, path, "--allowance", 12)
     assert doc["files"][0]["pieces"][0]["sew_length"] == pytest.approx(2 * math.pi * 28, rel=1e-12)
 
 
 def test_clockwise_outline_and_its_edges_in_documented_order(runner, tmp_path):
     # the same rectangle drawn clockwise: edges still counter-clockwise from the lower-left corner
-    path = plain_dxf(tmp_path, lambda m: m.add_lwpolyline([(0, 0), (0, 50), (100, 50), (100, 0)], close=True))
+    path = mm_dxf(tmp_path, lambda m: m.add_lwpolyline([(0, 0), (0, 50), (100, 50), (100, 0)], close=True))
     _, doc = seam_json(runner, path, "--allowance", 5)
     assert [e["length"] for e in doc["files"][0]["pieces"][0]["edges"]] == pytest.approx([90, 40, 90, 40])
 
@@ -70,7 +54,7 @@ def test_curved_edge_offset_against_mpmath(runner, tmp_path):
         spline.control_points = [(*p, 0) for p in ctrl]
         spline.knots = [0, 0, 0, 0, 1, 1, 1, 1]
 
-    path = plain_dxf(tmp_path, build)
+    path = mm_dxf(tmp_path, build)
     _, doc = seam_json(runner, path, "--allowance", a)
     mp.mp.dps = 30
     p = [mp.matrix([mp.mpf(x), mp.mpf(y)]) for x, y in ctrl]
@@ -108,7 +92,7 @@ def test_allowance_beyond_the_inner_radius_fails_that_piece_only(runner, tmp_pat
         m.add_circle((0, 0), 5)
         m.add_lwpolyline([(50, 0), (150, 0), (150, 50), (50, 50)], close=True)
 
-    path = plain_dxf(tmp_path, build)
+    path = mm_dxf(tmp_path, build)
     _, doc = seam_json(runner, path, "--allowance", 6)
     pieces = {p["name"]: p for p in doc["files"][0]["pieces"]}
     assert pieces["piece 1"]["error"] and "leaves no sew line" in pieces["piece 1"]["error"]
@@ -178,7 +162,7 @@ def test_mismatched_edges_are_flagged(runner, tmp_path):
         m.add_lwpolyline([(0, 0), (100, 0), (100, 50), (0, 50)], close=True)
         m.add_lwpolyline([(200, 0), (305, 0), (305, 50), (200, 50)], close=True)
 
-    path = plain_dxf(tmp_path, build)
+    path = mm_dxf(tmp_path, build)
     plan = tmp_path / "plan.toml"
     plan.write_text('tolerance_pct = 2\n[[seam]]\npiece = "piece 1"\nedges = [1]\nto = "piece 2:1"\n')
     _, doc = seam_json(runner, path, "--plan", plan)
@@ -199,7 +183,7 @@ def test_mismatched_edges_are_flagged(runner, tmp_path):
     ('[[seam]]\npiece = "A"\ncolour = "red"\n', "unknown key"),
 ])
 def test_bad_plans_are_one_line_usage_errors(runner, tmp_path, text, words):
-    path = plain_dxf(tmp_path, lambda m: m.add_circle((0, 0), 50))
+    path = mm_dxf(tmp_path, lambda m: m.add_circle((0, 0), 50))
     plan = tmp_path / "plan.toml"
     plan.write_text(text)
     res = runner.invoke(main, ["seam", str(path), "--plan", str(plan)])
@@ -207,6 +191,6 @@ def test_bad_plans_are_one_line_usage_errors(runner, tmp_path, text, words):
 
 
 def test_unknown_stitch_and_both_densities_are_usage_errors(runner, tmp_path):
-    path = plain_dxf(tmp_path, lambda m: m.add_circle((0, 0), 50))
+    path = mm_dxf(tmp_path, lambda m: m.add_circle((0, 0), 50))
     assert runner.invoke(main, ["seam", str(path), "--stitch", "999"]).exit_code == 2
     assert runner.invoke(main, ["seam", str(path), "--spc", "4", "--spi", "10"]).exit_code == 2
