@@ -187,7 +187,7 @@ def test_service_file_maps_folders_to_tasks_and_csv(tmp_path):
                                     "sealing/windows.dxf.bead.json"}
     cut = json.loads((outbox / "results" / "steel-3mm" / "bracket.dxf.cut.json").read_text())
     assert cut["format"] == "pathlen-cut"
-    assert (outbox / "results" / "sealing" / "windows.dxf.bead.csv").read_text().startswith("path,joint,section")
+    assert (outbox / "results" / "sealing" / "windows.dxf.bead.csv").read_text().startswith("record,path,joint,section")
     bad = tmp_path / "bad.toml"
     bad.write_text('[folder."x"]\ntask = "cut"\n')
     refused = service(inbox, outbox, "--once", "--config", bad)

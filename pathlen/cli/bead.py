@@ -2,13 +2,12 @@
 
 from __future__ import annotations
 
-import math
 from pathlib import Path
 
 import click
 
 from pathlen.batch import MeasureSettings
-from pathlen.cli.reading import Reading, collect, emit, reading_options
+from pathlen.cli.reading import Reading, collect, emit, finite_number, reading_options
 from pathlen.errors import PathlenError
 
 
@@ -21,17 +20,19 @@ from pathlen.errors import PathlenError
 @click.option("--pack", "pack", default="310ml", show_default=True,
               help="Pack size: ml or US fl oz (310ml, 600ml, 10.1floz).")
 @click.option("--waste", "waste_pct", type=click.FloatRange(0, 100), default=10.0, show_default=True,
-              help="Waste allowance in percent (common practice 5-15).")
-@click.option("--gun-speed", "gun_speed", type=click.FloatRange(min=0, min_open=True), metavar="MM_S",
-              help="Bead laying speed (mm/s), for the time at the gun.")
-@click.option("--pack-change-s", type=click.FloatRange(min=0), default=30.0, show_default=True,
-              help="Seconds to change a pack (with --gun-speed).")
-@click.option("--pack-price", type=click.FloatRange(min=0), help="Price of one pack, for the sealant cost.")
+              callback=finite_number, help="Waste allowance in percent (common practice 5-15).")
+@click.option("--gun-speed", "gun_speed", type=click.FloatRange(min=0.1, max=10_000), metavar="MM_S",
+              callback=finite_number, help="Bead laying speed (mm/s, 0.1 to 10000), for the time at the gun.")
+@click.option("--pack-change-s", type=click.FloatRange(min=0, max=3600), default=30.0, show_default=True,
+              callback=finite_number, help="Seconds to change a pack (with --gun-speed).")
+@click.option("--pack-price", type=click.FloatRange(min=0, max=1e9), callback=finite_number,
+              help="Price of one pack of the command line's pack (plan products carry their own).")
 def bead(reading: Reading, bead_spec: str | None, plan_file: str | None, pack: str, waste_pct: float,
          gun_speed: float | None, pack_change_s: float, pack_price: float | None) -> None:
     """Sealant for the joints drawn in PATHS: volume, whole packs after waste, backer rod, time and cost."""
     from pathlen.estimates.bead import (
         BeadEstimate,
+        BeadPlan,
         BeadSettings,
         Joint,
         cautions,
@@ -46,15 +47,14 @@ def bead(reading: Reading, bead_spec: str | None, plan_file: str | None, pack: s
     if (bead_spec is None) == (plan_file is None):
         raise click.UsageError("give either --bead SPEC or --plan PLAN.toml")
     try:
-        joints = load_plan(Path(plan_file)) if plan_file else [Joint("", parse_section(bead_spec or ""))]
+        plan = load_plan(Path(plan_file)) if plan_file else BeadPlan([Joint("", parse_section(bead_spec or ""))])
         pack_ml = parse_pack(pack)
     except PathlenError as exc:
         raise click.UsageError(str(exc)) from None
-    if pack_price is not None and not math.isfinite(pack_price):
-        raise click.BadParameter("must be finite", param_hint="--pack-price")
-    settings = BeadSettings(joints, pack_ml, waste_pct, gun_speed, pack_change_s, pack_price,
+    settings = BeadSettings(plan.joints, pack_ml, waste_pct, gun_speed, pack_change_s, pack_price,
                             MeasureSettings(rtol=r.rtol, join_tol_mm=r.join_tol, import_options=r.import_options,
-                                            max_segments=r.max_segments))
+                                            max_segments=r.max_segments), plan.products,
+                            "in" if r.units in ("in", "ft") else "mm")
     results: list[BeadEstimate] = collect(r.files(), settings, r, estimate_beads, BeadEstimate, "estimating")
     notes = cautions()
     emit(results, r.fmt, r.output, lambda console: bead_out.render_table(results, r.units, settings, notes, console),

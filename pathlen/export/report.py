@@ -144,12 +144,28 @@ def _seam(doc: dict[str, Any]) -> tuple[str, list[tuple[str, str]], list[tuple[s
 def _bead(doc: dict[str, Any]) -> tuple[str, list[tuple[str, str]], list[tuple[str, int | None]],
                                            Callable[[dict[str, Any]], list[list[Any]]]]:
     u, t = doc["units"], doc["total"]
-    totals = [("Sealant", f"{t['volume_ml']:,.0f} ml"), ("Packs", str(t["packs"])),
-              ("Joint length", f"{t['length']:,.1f} {u}")]
-    cols = [("Joint", None), ("Section", None), (f"Length ({u})", 1), ("Volume (ml)", 1), ("Packs", 0)]
+    lu, vu = u["length"], u["volume"]
+    totals = [("Sealant", f"{t['volume']:,.1f} {vu}"), ("Joint length", f"{t['length']:,.1f} {lu}")]
+    for p in t["products"]:
+        cost = f", {p['cost']:,.2f}" if p["cost"] is not None else ""
+        totals.append((f"Packs of {p['product'] or 'the command line pack'} ({p['pack']:g} {vu})",
+                       f"{p['packs']}{cost}"))
+    if t["primer"]:
+        totals.append(("Primer", f"{t['primer']:,.1f} {vu}"))
+    for rod in t["backer_rod"]:
+        size = f"{rod['diameter']:g} {u['diameter']}" if rod["diameter"] is not None else "no stock size"
+        totals.append((f"Backer rod {size}", f"{rod['length']:,.1f} {lu}"))
+    if "time_s" in t:
+        totals.append(("Time at the gun", clock(t["time_s"])))
+    if "cost" in t:
+        totals.append(("Sealant cost", f"{t['cost']:,.2f}"))
+    cols = [("Joint", None), ("Section", None), ("Product", None), (f"Length ({lu})", 1), (f"Volume ({vu})", 1),
+            (f"Rod Ø ({u['diameter']})", 2)]
 
     def rows(f: dict[str, Any]) -> list[list[Any]]:
-        return [[name, v["section"], v["length"], v["volume_ml"], v["packs"]] for name, v in f["layers"].items()]
+        return [[name, v["section"], v["product"] or "", v["length"], v["volume"],
+                 v["backer_rod_diameter"] if v["backer_rod_diameter"] is not None else ""]
+                for name, v in f["layers"].items()]
 
     return "Sealant beads", totals, cols, rows
 

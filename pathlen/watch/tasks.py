@@ -64,7 +64,7 @@ def headline(doc: dict[str, Any]) -> str:
         return f"sewn {t.get('sew_length', 0):.1f} {doc['units']['length']}, thread " \
                f"{t.get('thread_length', 0):.2f} {doc['units']['thread']}"
     if kind == "pathlen-bead":
-        return f"sealant {t.get('volume_ml', 0):.1f} ml, packs {t.get('packs', 0)}"
+        return f"sealant {t.get('volume', 0):.1f} {doc.get('units', {}).get('volume', 'ml')}, packs {t.get('packs', 0)}"
     return ""
 
 
@@ -128,6 +128,7 @@ def build_task(name: str, options: dict[str, Any] | None = None, profile_files: 
     if name == "bead":
         from pathlen.estimates.bead import (
             BeadEstimate,
+            BeadPlan,
             BeadSettings,
             Joint,
             estimate_beads,
@@ -142,13 +143,13 @@ def build_task(name: str, options: dict[str, Any] | None = None, profile_files: 
         if ("bead" in opts) == ("plan" in opts):
             raise UsageError(f"{where}: task bead needs either bead (a section such as rect:12x6) or plan")
         try:
-            joints = (load_plan(plan_path(opts["plan"])) if "plan" in opts
-                      else [Joint("", parse_section(_text(where, "bead", opts["bead"])))])
+            plan = (load_plan(plan_path(opts["plan"])) if "plan" in opts
+                    else BeadPlan([Joint("", parse_section(_text(where, "bead", opts["bead"])))]))
             pack = parse_pack(_text(where, "pack", opts.get("pack", "310ml")))
         except UsageError as exc:
             raise UsageError(f"{where}: {exc}") from None
-        settings = BeadSettings(joints, pack, _number(where, "waste", opts.get("waste", 10.0), 0, 100),
-                                measure=measure)
+        settings = BeadSettings(plan.joints, pack, _number(where, "waste", opts.get("waste", 10.0), 0, 100),
+                                measure=measure, products=plan.products)
         return Task(name, estimate_beads, BeadEstimate, settings,
                     lambda r: bead_document([r], "mm", settings, bead_cautions()), key,
                     lambda r: bead_csv([r], "mm", settings))
