@@ -283,3 +283,30 @@ def test_inch_units_throughout(runner, wall):
 def test_bad_numbers_are_usage_errors(runner, wall, args, words):
     res = runner.invoke(main, ["bead", str(wall), "--bead", "rect:12x12", *args])
     assert res.exit_code == 2 and words in res.output and "Traceback" not in res.output
+
+
+def test_picture_colours_each_joint_and_greys_the_rest(runner, tmp_path):
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 4
+    for name in ("PERIMETER", "GLAZING & CO", "NOTES"):
+        doc.layers.add(name)
+    msp = doc.modelspace()
+    msp.add_line((0, 0), (1000, 0), dxfattribs={"layer": "PERIMETER"})
+    msp.add_circle((500, 500), 50, dxfattribs={"layer": "GLAZING & CO"})
+    msp.add_line((0, 100), (100, 100), dxfattribs={"layer": "NOTES"})
+    path = tmp_path / "wall.dxf"
+    doc.saveas(path)
+    plan = tmp_path / "plan.toml"
+    plan.write_text('[[product]]\nname = "S25"\npack = "600ml"\n[[joint]]\nlayer = "PERIMETER"\n'
+                    'section = "rect:12x12"\nproduct = "S25"\n[[joint]]\nlayer = "GLAZING & CO"\n'
+                    'section = "fillet:6x6"\nproduct = "S25"\n')
+    out = tmp_path / "beads.svg"
+    res = runner.invoke(main, ["bead", str(path), "--plan", str(plan), "--picture", str(out)])
+    assert res.exit_code == 0, res.output
+    svg = out.read_text()
+    assert svg.count('class="joint0"') == svg.count('class="joint1"') == svg.count('class="unsealed"') == 1
+    assert "PERIMETER: rect:12x12, S25" in svg and "GLAZING &amp; CO: fillet:6x6, S25" in svg
+    assert "GLAZING & CO" not in svg and "not sealed" in svg
+    # the joint's paths, measured again, are the joint's length
+    back = json.loads(runner.invoke(main, ["measure", str(out), "--format", "json"]).stdout)["files"][0]
+    assert back["layers"]["measured"]["length"] == pytest.approx(1000 + 2 * math.pi * 50 + 100, rel=1e-8)

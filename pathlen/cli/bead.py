@@ -27,8 +27,10 @@ from pathlen.errors import PathlenError
               callback=finite_number, help="Seconds to change a pack (with --gun-speed).")
 @click.option("--pack-price", type=click.FloatRange(min=0, max=1e9), callback=finite_number,
               help="Price of one pack of the command line's pack (plan products carry their own).")
+@click.option("--picture", type=click.Path(dir_okay=False), metavar="FILE.svg|png|pdf",
+              help="Draw the first drawing's joints, each in its own colour (unsealed paths grey).")
 def bead(reading: Reading, bead_spec: str | None, plan_file: str | None, pack: str, waste_pct: float,
-         gun_speed: float | None, pack_change_s: float, pack_price: float | None) -> None:
+         gun_speed: float | None, pack_change_s: float, pack_price: float | None, picture: str | None) -> None:
     """Sealant for the joints drawn in PATHS: volume, whole packs after waste, backer rod, time and cost."""
     from pathlen.estimates.bead import (
         BeadEstimate,
@@ -55,9 +57,28 @@ def bead(reading: Reading, bead_spec: str | None, plan_file: str | None, pack: s
                             MeasureSettings(rtol=r.rtol, join_tol_mm=r.join_tol, import_options=r.import_options,
                                             max_segments=r.max_segments), plan.products,
                             "in" if r.units in ("in", "ft") else "mm")
+    if picture and Path(picture).suffix.lower() not in (".svg", ".png", ".pdf"):
+        raise click.BadParameter("must end in .svg, .png or .pdf", param_hint="--picture")
     results: list[BeadEstimate] = collect(r.files(), settings, r, estimate_beads, BeadEstimate, "estimating")
+    first = next((x for x in results if x.ok), None)
+    if picture and first is not None:
+        _draw(picture, first.path, settings.joints, r)
     notes = cautions()
     emit(results, r.fmt, r.output, lambda console: bead_out.render_table(results, r.units, settings, notes, console),
          lambda: bead_out.render_json(results, r.units, settings, notes) if r.fmt == "json"
          else bead_out.render_csv(results, r.units, settings), notes,
          report=r.report, document=lambda: bead_out.bead_document(results, r.units, settings, notes))
+
+
+def _draw(picture: str, path: str, joints: list, r: Reading) -> None:
+    from pathlen.export.bead_picture import write_bead_picture
+    from pathlen.importers import read_drawing
+    from pathlen.instances import expand
+
+    try:
+        drawing = expand(read_drawing(Path(path), r.import_options), r.max_segments, "the picture")
+        write_bead_picture(picture, Path(path), drawing, joints)
+    except PathlenError as exc:
+        raise click.ClickException(f"picture: {exc}") from None
+    except OSError as exc:
+        raise click.FileError(picture, hint=exc.strerror or str(exc)) from None

@@ -57,6 +57,20 @@ class Scene:
     sew_lines: list[np.ndarray] = field(default_factory=list)
     ticks: list[tuple[float, float, float, float]] = field(default_factory=list)
     side_notes: list[str] = field(default_factory=list)
+    #: kinds of our own (kind -> (colour, legend label)), drawn in this order instead of the contour kinds
+    styles: dict[str, tuple[str, str]] | None = None
+
+    def path_kinds(self) -> tuple[str, ...]:
+        return tuple(self.styles) if self.styles else PATH_KINDS
+
+    def colour(self, kind: str) -> str:
+        return self.styles[kind][0] if self.styles else COLOURS[kind]
+
+    def legend(self) -> list[tuple[str, str]]:
+        """(colour, label) per legend line."""
+        if self.styles:
+            return list(self.styles.values())
+        return [(COLOURS[k], label) for k, label in LABELS.items()]
 
 
 def build_scene(drawing: Drawing, title: str, y_down: bool, join_tol: float = DEFAULT_JOIN_TOL_MM,
@@ -125,7 +139,8 @@ def scene_svg(s: Scene) -> str:
     w, h = max(x1 - x0, 1e-6), max(y1 - y0, 1e-6)
     margin = 0.06 * max(w, h) + 2.0
     text = max(w, h) / 60.0 + 1.0
-    legend_h = text * 1.6 * (len(LABELS) + min(len(s.notes), 6) + len(s.side_notes) + 1)
+    legend = s.legend()
+    legend_h = text * 1.6 * (len(legend) + min(len(s.notes), 6) + len(s.side_notes) + 1)
     width, height = w + 2 * margin, h + 2 * margin + legend_h
     stroke = max(w, h) / 800.0 + 0.05
     # drawing coordinates -> picture: y up (DXF) is flipped so that it reads as drawn
@@ -136,7 +151,7 @@ def scene_svg(s: Scene) -> str:
            f"<title>{escape(s.title)}</title>",
            f'<rect width="{width:.6f}" height="{height:.6f}" fill="#ffffff"/>',
            f'<g id="measured" transform="{flip}" fill="none" stroke-width="{stroke:.4f}" stroke-linecap="round">']
-    for kind in PATH_KINDS:
+    for kind in s.path_kinds():
         d = " ".join(p for p, k in zip(s.paths, s.kind, strict=True) if k == kind)
         if d:
             dash = f' stroke-dasharray="{4 * stroke:.3f} {2 * stroke:.3f}"' if kind == "twice" else ""
@@ -144,7 +159,7 @@ def scene_svg(s: Scene) -> str:
                 out.insert(-1, f'<path class="ghost" transform="{flip}" fill="none" stroke-width="{stroke:.4f}" '
                                f'stroke="{COLOURS["ghost"]}" d="{d}"/>')
                 continue
-            out.append(f'<path class="{kind}" stroke="{COLOURS[kind]}"{dash} d="{d}"/>')
+            out.append(f'<path class="{kind}" stroke="{s.colour(kind)}"{dash} d="{d}"/>')
     out.append("</g>")  # the measured paths alone in their group: re-measuring it gives the drawing's length
     out.append(f'<g id="marks" transform="{flip}" fill="none" stroke-width="{stroke:.4f}">')
     mark = COLOURS["mark"]
@@ -189,16 +204,16 @@ def scene_svg(s: Scene) -> str:
     out.append(f'<rect x="{margin:.4f}" y="{by:.4f}" width="{bar:.6f}" height="{text * 0.3:.4f}" fill="#222222"/>')
     out.append(f'<text x="{margin + bar + text * 0.5:.4f}" y="{by + text * 0.35:.4f}">{bar:g} mm</text>')
     out.append(f'<text x="{width - margin:.4f}" y="{margin * 0.6:.4f}" text-anchor="end">{w:.1f} x {h:.1f} mm</text>')
-    for k, (kind, label) in enumerate(LABELS.items()):
+    for k, (colour, label) in enumerate(legend):
         y = by + text * 1.6 * (k + 1.5)
         out.append(f'<rect x="{margin:.4f}" y="{y - text * 0.7:.4f}" width="{text * 1.5:.4f}" '
-                   f'height="{text * 0.6:.4f}" fill="{COLOURS[kind]}"/>'
+                   f'height="{text * 0.6:.4f}" fill="{colour}"/>'
                    f'<text x="{margin + text * 2:.4f}" y="{y:.4f}">{escape(label)}</text>')
     for k, note in enumerate(s.notes[:6]):
-        y = by + text * 1.6 * (len(LABELS) + k + 1.5)
+        y = by + text * 1.6 * (len(legend) + k + 1.5)
         out.append(f'<text x="{margin:.4f}" y="{y:.4f}" fill="#777777">note: {escape(note[:120])}</text>')
     for k, line in enumerate(s.side_notes):
-        y = by + text * 1.6 * (len(LABELS) + min(len(s.notes), 6) + k + 1.5)
+        y = by + text * 1.6 * (len(legend) + min(len(s.notes), 6) + k + 1.5)
         out.append(f'<text class="match" x="{margin:.4f}" y="{y:.4f}">{escape(line[:160])}</text>')
     out.append("</g></svg>")
     return "\n".join(out) + "\n"
@@ -229,7 +244,7 @@ def render_raster(s: Scene, path: Path, dpi: float = 150.0) -> None:
     ax.set_ylim((y1 + margin, y0 - margin) if s.y_down else (y0 - margin, y1 + margin))
     ax.set_aspect("equal")
     ax.axis("off")
-    for kind in PATH_KINDS:
+    for kind in s.path_kinds():
         verts, codes = [], []
         for pieces, k in zip(s.pieces, s.kind, strict=True):
             if k != kind:
@@ -241,8 +256,9 @@ def render_raster(s: Scene, path: Path, dpi: float = 150.0) -> None:
                 else:
                     codes.extend([MplPath.MOVETO, MplPath.CURVE4, MplPath.CURVE4, MplPath.CURVE4])
         if verts:
-            ax.add_patch(PathPatch(MplPath(np.array(verts), codes), fill=False, edgecolor=COLOURS[kind],
-                                   linewidth=1.0, linestyle="--" if kind == "twice" else "-", label=LABELS[kind]))
+            label = s.styles[kind][1] if s.styles else LABELS[kind]
+            ax.add_patch(PathPatch(MplPath(np.array(verts), codes), fill=False, edgecolor=s.colour(kind),
+                                   linewidth=1.0, linestyle="--" if kind == "twice" else "-", label=label))
     for x, y in s.starts:
         ax.plot([x], [y], marker="o", markersize=2.5, color=COLOURS["mark"])
     size = 0.02 * max(w, h)
