@@ -115,35 +115,56 @@ def _starts_inside(table: SegmentTable, contours: ContourSet, starts: np.ndarray
 MAX_CELLS_PER_BOX = 4096
 
 
-def points_in_boxes(points: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> tuple[IntArray, IntArray]:
-    """All (point, box) index pairs with the 2-D point inside the closed box ``[lo, hi]``.
-
-    Points are hashed into square cells about the median box size; each box visits the cells it
-    covers (few for typical parts; a sheet-sized box visits many, so the cell grows when a box
-    would cover more than :data:`MAX_CELLS_PER_BOX`).  Work is near-linear in points + boxes + pairs.
-    """
-    if len(points) == 0 or len(lo) == 0:
-        return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
-    origin = np.minimum(points.min(axis=0), lo.min(axis=0))
-    extent = hi - lo
-    size = max(float(np.median(extent.max(axis=1))), 1e-9)
-    size = max(size, float(extent.max()) / np.sqrt(MAX_CELLS_PER_BOX))
+def _grid_pairs(points: np.ndarray, origin: np.ndarray, size: float, first: IntArray, last: IntArray
+                ) -> tuple[IntArray, IntArray]:
+    """(box, point) candidates: points hashed into square cells of ``size``; each box (cells ``first``
+    to ``last``) visits the cells it covers."""
     cell = np.floor((points - origin) / size).astype(np.int64)
-    none = np.zeros(len(points), dtype=np.int64)
-    keys = cell_keys(cell, none)
+    keys = cell_keys(cell, np.zeros(len(points), dtype=np.int64))
     order = np.argsort(keys)
     keys = keys[order]
-    first = np.floor((lo - origin) / size).astype(np.int64)
-    last = np.floor((hi - origin) / size).astype(np.int64)
     span = last - first + 1  # cells per axis
     count = span[:, 0] * span[:, 1]
-    box, k = expand_ranges(np.arange(len(lo)), np.zeros_like(count), count).T  # box, its k-th cell
+    box, k = expand_ranges(np.arange(len(first)), np.zeros_like(count), count).T  # box, its k-th cell
     cells = np.stack([first[box, 0] + k % span[box, 0], first[box, 1] + k // span[box, 0]], axis=1)
     probe = cell_keys(cells, np.zeros(len(cells), dtype=np.int64))
     a = np.searchsorted(keys, probe, side="left")
     b = np.searchsorted(keys, probe, side="right")
     pairs = expand_ranges(box, a, b)  # (box, position in sorted points)
-    box_j, point_i = pairs[:, 0], order[pairs[:, 1]]
+    return pairs[:, 0], order[pairs[:, 1]]
+
+
+def points_in_boxes(points: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> tuple[IntArray, IntArray]:
+    """All (point, box) index pairs with the 2-D point inside the closed box ``[lo, hi]``.
+
+    Points are hashed into square cells of the median box size; each box visits the cells it covers
+    (few for typical parts).  A box that would cover more than :data:`MAX_CELLS_PER_BOX` cells (a
+    sheet around everything) takes the points in its x-range from one sort instead, so the work does
+    not depend on the largest box: near-linear in points + boxes + the candidates in wide boxes'
+    x-ranges.
+    """
+    if len(points) == 0 or len(lo) == 0:
+        return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
+    origin = np.minimum(points.min(axis=0), lo.min(axis=0))
+    extent = hi - lo
+    reach = float(max(points.max(axis=0).max(), hi.max()) - origin.min())
+    size = max(float(np.median(extent.max(axis=1))), reach / 2**20, 1e-9)  # cell numbers stay small
+    first = np.floor((lo - origin) / size)
+    last = np.floor((hi - origin) / size)
+    cover = (last[:, 0] - first[:, 0] + 1) * (last[:, 1] - first[:, 1] + 1)  # float: no overflow
+    big = cover > MAX_CELLS_PER_BOX
+    small = np.flatnonzero(~big)
+    box_j, point_i = _grid_pairs(points, origin, size, first[small].astype(np.int64), last[small].astype(np.int64))
+    box_j = small[box_j]
+    if big.any():  # boxes over many cells: the points in their x-range, by one sort
+        wide = np.flatnonzero(big)
+        by_x = np.argsort(points[:, 0], kind="stable")
+        xs = points[by_x, 0]
+        a = np.searchsorted(xs, lo[wide, 0], side="left")
+        b = np.searchsorted(xs, hi[wide, 0], side="right")
+        pairs = expand_ranges(wide, a, b)
+        box_j = np.concatenate([box_j, pairs[:, 0]])
+        point_i = np.concatenate([point_i, by_x[pairs[:, 1]]])
     p = take_rows(points, point_i)
     inside = np.all((p >= take_rows(lo, box_j)) & (p <= take_rows(hi, box_j)), axis=1)
     return point_i[inside], box_j[inside]
@@ -193,9 +214,16 @@ def segment_turning(table: SegmentTable, contour: Contour) -> tuple[np.ndarray, 
     every chord, to its end tangent: exact while the tangent turns less than half a turn between
     samples (true for the sample density of the table).  Corners include the last-to-first joint.
     """
-    idx, fwd = contour.segments, contour.forward
-    pts = table.travel_samples(idx, fwd)[:, :, :2]
-    t_in, t_out = (d[:, :2] for d in table.travel_directions(idx, fwd))
+    size = np.array([len(contour.segments)])
+    return steps_turning(table, contour.segments, contour.forward, np.zeros(1, dtype=np.int64), size)
+
+
+def steps_turning(table: SegmentTable, rows: IntArray, forward: np.ndarray, first: IntArray, size: IntArray
+                  ) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`segment_turning` for many contours at once: ``rows`` contour after contour, contour k
+    being ``rows[first[k] : first[k] + size[k]]``; corners wrap round within each contour."""
+    pts = table.travel_samples(rows, forward)[:, :, :2]
+    t_in, t_out = (d[:, :2] for d in table.travel_directions(rows, forward))
     chords = np.diff(pts, axis=1)
     steps = np.concatenate([t_in[:, None], chords, t_out[:, None]], axis=1)  # [k, samples + 1, 2]
     # a repeated sample (zero chord) has no direction: it keeps the one before it
@@ -204,7 +232,10 @@ def segment_turning(table: SegmentTable, contour: Contour) -> tuple[np.ndarray, 
     last = np.maximum.accumulate(np.where(moving, np.arange(steps.shape[1]), 0), axis=1)
     steps = np.take_along_axis(steps, last[:, :, None], axis=1)
     smooth = _signed_angle(steps[:, :-1], steps[:, 1:]).sum(axis=1)
-    corners = _signed_angle(t_out, np.roll(t_in, -1, axis=0))
+    nxt = np.arange(len(rows)) + 1
+    ends = first + size - 1
+    nxt[ends[size > 0]] = first[size > 0]  # the last step's corner is to its contour's first
+    corners = _signed_angle(t_out, t_in[nxt]) if len(rows) else np.zeros(0)
     return smooth, corners
 
 

@@ -12,6 +12,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from functools import cached_property
 from math import comb
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
@@ -93,8 +94,8 @@ class SegmentTable:
 
     @cached_property
     def box(self) -> tuple[FloatArray, FloatArray]:
-        """``(lo, hi)``, each ``[n, 3]``: a box holding each segment (exact for lines, the whole ellipse
-        for arcs, the control points for Béziers)."""
+        """``(lo, hi)``, each ``[n, 3]``: a box holding each segment (exact for lines and for arcs, whose
+        extremes inside the sweep are found in closed form; the control points for Béziers)."""
         lo, hi = np.empty((len(self), 3)), np.empty((len(self), 3))
         for key, first, count in self._offsets:
             part = slice(first, first + count)
@@ -102,9 +103,7 @@ class SegmentTable:
                 b = self.drawing.lines
                 lo[part], hi[part] = np.minimum(b.p0, b.p1), np.maximum(b.p0, b.p1)
             elif key == "arcs":
-                b = self.drawing.arcs
-                reach = np.sqrt(b.u**2 + b.v**2)  # per axis, the half-width of the whole ellipse's box
-                lo[part], hi[part] = b.center - reach, b.center + reach
+                lo[part], hi[part] = arc_boxes(self.drawing.arcs)
             else:
                 ctrl = self.drawing.beziers[int(key[6:])].ctrl
                 lo[part], hi[part] = ctrl[:, 0], ctrl[:, 0]
@@ -173,6 +172,22 @@ class SegmentTable:
             with np.errstate(divide="ignore", invalid="ignore"):
                 radius[at] = np.where((piece_turn > 0) & (piece_len > 0), piece_len / piece_turn, np.inf).ravel()
         return length, radius, first
+
+
+def arc_boxes(arcs: Any) -> tuple[FloatArray, FloatArray]:
+    """Tight boxes ``[n, 3]`` of elliptic arcs c + u cos t + v sin t, t from t0 to t1: each coordinate
+    is extreme at the ends or where u_k sin t = v_k cos t, t = atan2(v_k, u_k) (+ π), if inside the
+    sweep."""
+    t0, t1 = arcs.t0[:, None], arcs.t1[:, None]
+    turn = np.arctan2(arcs.v, arcs.u)  # [n, 3]: where each coordinate is extreme
+    first = t0 + np.mod(turn - t0, np.pi)  # the first such angle at or after t0
+    cand = np.concatenate([t0, t1, first, first + np.pi], axis=1)  # [n, 8]
+    inside = cand <= t1 + 1e-15
+    cand = np.where(inside, cand, t0)
+    pts = (arcs.center[:, None, :] + arcs.u[:, None, :] * np.cos(cand)[..., None]
+           + arcs.v[:, None, :] * np.sin(cand)[..., None])  # [n, 8, 3]
+    pad = 1e-12 * (np.abs(arcs.center) + np.abs(arcs.u) + np.abs(arcs.v))  # rounding of the extremes
+    return pts.min(axis=1) - pad, pts.max(axis=1) + pad
 
 
 def segment_endpoints(drawing: Drawing) -> tuple[FloatArray, FloatArray, IntArray]:

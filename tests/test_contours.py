@@ -218,3 +218,41 @@ def test_points_in_boxes_against_brute_force():
     i, j = points_in_boxes(pts, lo, hi)
     inside = np.all((pts[:, None, :] >= lo[None]) & (pts[:, None, :] <= hi[None]), axis=2)
     assert sorted(zip(i.tolist(), j.tolist(), strict=True)) == sorted(zip(*np.nonzero(inside), strict=True))
+
+
+def test_points_in_boxes_agrees_with_brute_force_whatever_the_largest_box():
+    # a sheet-sized box and one 3.5 km wide (a near-straight bulge's old whole-circle box) among
+    # small ones: the pairs are exactly the brute-force pairs
+    import numpy as np
+
+    from pathlen.containment import points_in_boxes
+
+    rng = np.random.default_rng(7)
+    pts = rng.uniform(0, 1000, (5000, 2))
+    lo = rng.uniform(0, 990, (2000, 2))
+    hi = lo + rng.uniform(0, 10, (2000, 2))
+    lo = np.vstack([lo, [[-5, -5]], [[0, 0]], [[100, 100]]])
+    hi = np.vstack([hi, [[2000, 2000]], [[3.5e6, 3]], [[100, 100]]])
+    i, j = points_in_boxes(pts, lo, hi)
+    bi, bj = np.nonzero(((pts[:, None, :] >= lo[None]) & (pts[:, None, :] <= hi[None])).all(axis=2))
+    assert sorted(zip(i.tolist(), j.tolist(), strict=True)) == sorted(zip(bi.tolist(), bj.tolist(), strict=True))
+
+
+def test_arc_boxes_are_tight_and_hold_the_arc():
+    # the extremes inside the sweep, checked against dense samples of the arc
+    import numpy as np
+
+    from pathlen.geometry import EllipticArcs
+    from pathlen.segments import arc_boxes
+
+    rng = np.random.default_rng(3)
+    n = 200
+    t0 = rng.uniform(-7, 7, n)
+    arcs = EllipticArcs(center=rng.uniform(-50, 50, (n, 3)) * [1, 1, 0], u=rng.uniform(-30, 30, (n, 3)) * [1, 1, 0],
+                    v=rng.uniform(-30, 30, (n, 3)) * [1, 1, 0], t0=t0, t1=t0 + rng.uniform(1e-6, 2 * np.pi, n),
+                    entity=np.zeros(n, dtype=np.int64))
+    lo, hi = arc_boxes(arcs)
+    t = arcs.t0[:, None] + (arcs.t1 - arcs.t0)[:, None] * np.linspace(0, 1, 20001)[None]
+    pts = arcs.center[:, None] + arcs.u[:, None] * np.cos(t)[..., None] + arcs.v[:, None] * np.sin(t)[..., None]
+    assert np.all(pts.min(axis=1) >= lo - 1e-9) and np.all(pts.max(axis=1) <= hi + 1e-9)
+    assert np.allclose(pts.min(axis=1), lo, atol=1e-5) and np.allclose(pts.max(axis=1), hi, atol=1e-5)

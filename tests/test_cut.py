@@ -4,13 +4,17 @@ import csv
 import io
 import json
 import math
+from pathlib import Path
 
 import ezdxf
+import numpy as np
 import pytest
 
 from pathlen.cli import main
 from pathlen.estimates.cut import CutSettings, estimate_file, run_charges
 from pathlen.profiles import read_profile_file
+
+FIXTURES = Path(__file__).resolve().parent.parent / "fixtures"
 
 PROFILE = """
 [profile.ideal]
@@ -304,3 +308,37 @@ def test_svg_colours_select_operations(runner):
                                    "--format", "json"])
     g = json.loads(ignored.stdout)["files"][0]
     assert g["contours"] == {"closed": 6, "open": 0} and g["engrave_length"] == 0.0
+
+
+def test_batched_kerf_changes_match_the_per_contour_definitions():
+    # every closed contour of the demo drawings: the batched kerf change and its trouble code equal
+    # the per-contour exact formula checked against shapely's offset of the contour polygon
+    from pathlen.containment import contour_polygon, kerf_length_change, offset_length_change
+    from pathlen.contours import chain_contours
+    from pathlen.estimates.cut_contours import TROUBLE, kerf_changes, outlines
+    from pathlen.importers import read_drawing
+    from pathlen.instances import expand
+    from pathlen.measure import measure
+    from pathlen.segments import segment_layers, segment_table
+
+    for name in ("kl101_bracket.dxf", "kl214_gasket.dxf", "kl330_sign_panel.dxf", "kl412_lamp_panel.svg"):
+        drawing = expand(read_drawing(FIXTURES / name))
+        table = segment_table(drawing, measure(drawing))
+        _, layer = segment_layers(drawing, table)
+        contours = chain_contours(table, layer)
+        outward = np.where(np.arange(len(contours)) % 2 == 0, 0.15, -0.15)
+        change, trouble = kerf_changes(table, contours, outlines(table, contours), outward, contours.closed.copy())
+        for k in np.flatnonzero(contours.closed).tolist():
+            c = contours[k]
+            polygon = contour_polygon(table, c)
+            if polygon.geom_type != "Polygon":
+                assert TROUBLE[trouble[k]] == "crossing"
+                continue
+            rough = offset_length_change(polygon, outward[k])
+            exact = kerf_length_change(table, c, outward[k])
+            if rough is None:
+                assert TROUBLE[trouble[k]] == "narrow" and change[k] == 0
+            elif abs(exact - rough) > 0.05 * 0.15 * (2 * math.pi + len(c.segments)):
+                assert TROUBLE[trouble[k]] == "rough" and change[k] == pytest.approx(rough, rel=1e-9, abs=1e-12)
+            else:
+                assert TROUBLE[trouble[k]] == "" and change[k] == pytest.approx(exact, rel=1e-9, abs=1e-12)

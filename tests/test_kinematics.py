@@ -75,3 +75,22 @@ def test_planned_speeds_are_reachable():
     assert v[0] == 0 and v[-1] == 0
     assert np.all(np.abs(np.diff(v**2)) <= 2 * a * np.array(length) * (1 + 1e-12))
     assert np.all(v[1:-1] <= np.minimum(np.minimum(top[:-1], top[1:]), corner[1:]) + 1e-12)
+
+
+@pytest.mark.parametrize("accel", [500.0, 5000.0, math.inf])
+def test_batched_planner_gives_the_sequential_planners_times(accel):
+    # the batched min-plus scans against the plain forward/backward passes, sequence by sequence
+    from pathlen.estimates.kinematics import sequences_time
+
+    rng = np.random.default_rng(0)
+    sizes = rng.integers(0, 40, 400)
+    sizes[[3, 7]] = [1, 300]
+    first = np.r_[0, np.cumsum(sizes)[:-1]]
+    n = int(sizes.sum())
+    length = rng.uniform(0.01, 50, n)
+    top = rng.uniform(10, 100, n)
+    corner = np.where(rng.random(n) < 0.5, np.inf, rng.uniform(0, 60, n))
+    got = sequences_time(length, top, corner, first, sizes, accel)
+    want = [sequence_time(length[f:f + k], top[f:f + k], corner[f:f + k], accel)
+            for f, k in zip(first, sizes, strict=True)]
+    assert got == pytest.approx(want, rel=1e-12, abs=1e-12)

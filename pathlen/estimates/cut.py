@@ -19,25 +19,25 @@ from pathlib import Path
 import numpy as np
 
 from pathlen.batch import FileOutcome, hidden_note, one_line_failure
-from pathlen.containment import contour_polygon, kerf_length_change, nesting_depth, offset_length_change
+from pathlen.containment import nesting_depth
 from pathlen.contours import (
     DEFAULT_GAP_REPORT_MM,
     DEFAULT_JOIN_TOL_MM,
-    Contour,
     chain_contours,
     duplicate_segments,
     gap_warnings,
     overlapping_lines,
 )
 from pathlen.errors import InputError, UsageError
-from pathlen.estimates.kinematics import corner_speed, move_times, sequence_time
+from pathlen.estimates.cut_contours import TROUBLE, kerf_changes, motion_times, outlines
+from pathlen.estimates.kinematics import move_times
 from pathlen.estimates.tour import plan_tour
 from pathlen.estimates.waterjet import WaterjetInputs, waterjet_feed_mm_min
 from pathlen.importers import ImportOptions, read_drawing
 from pathlen.instances import DEFAULT_MAX_SEGMENTS, expand
 from pathlen.measure import DEFAULT_RTOL, measure
 from pathlen.profiles import Profile
-from pathlen.segments import SegmentTable, segment_layers, segment_table
+from pathlen.segments import segment_layers, segment_table
 
 
 @dataclass(frozen=True)
@@ -147,37 +147,32 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
     depth, parent = nesting_depth(table, contours)
     feed = cutting_feed_mm_min(p)
     result = CutEstimate(path, ok=True, quantity=s.quantity, feed_mm_min=feed, warnings=warnings)
-    motion_s = cutting_s = 0.0
-    small_holes = narrow_holes = rough_offsets = crossing = open_cut = 0
-    for k, c in enumerate(contours):
-        change = 0.0
-        if engraved[k]:
-            f = float(p.engrave_feed_mm_min)
-            lead_in = lead_out = 0.0
-            result.engrave_length_mm += c.length
-        else:
-            f = feed
-            lead_in, lead_out = p.lead_in_mm, p.lead_out_mm
-            hole = c.closed and depth[k] % 2 == 1
-            polygon = contour_polygon(table, c) if c.closed else None
-            if hole and _small_hole(polygon, p):
-                f *= p.small_hole_feed_factor
-                small_holes += 1
-            if c.closed and p.kerf_offset and p.kerf_mm > 0:
-                change, trouble = _kerf_change(table, c, polygon, (-0.5 if hole else 0.5) * p.kerf_mm)
-                narrow_holes += trouble == "narrow"
-                rough_offsets += trouble == "rough"
-                crossing += trouble == "crossing"
-            open_cut += not c.closed
-            result.pierces += 1
-            result.kerf_change_mm += change
-            result.lead_length_mm += lead_in + lead_out
-        result.bound_mm += c.bound
-        path_mm = c.length + change + lead_in + lead_out
-        if not engraved[k]:
-            result.cut_length_mm += path_mm
-        cutting_s += path_mm / (f / 60.0)
-        motion_s += _contour_motion_s(table, c, f / 60.0, p, lead_in, lead_out, change)
+    cut = ~engraved
+    hole = contours.closed & (depth % 2 == 1) & cut
+    shapes = outlines(table, contours)
+    small = hole & (shapes.perimeter > 0) & (
+        4.0 * shapes.area / np.where(shapes.perimeter > 0, shapes.perimeter, 1.0) < p.small_hole_ratio * p.thickness_mm)
+    f = np.where(engraved, float(p.engrave_feed_mm_min or 0.0), feed) * np.where(small, p.small_hole_feed_factor, 1.0)
+    offset = bool(p.kerf_offset and p.kerf_mm > 0)
+    outward = np.where(hole, -0.5, 0.5) * p.kerf_mm
+    change, trouble = kerf_changes(table, contours, shapes, outward, cut & contours.closed & offset)
+    lead_in = np.where(cut, p.lead_in_mm, 0.0)
+    lead_out = np.where(cut, p.lead_out_mm, 0.0)
+    path_mm = contours.length + change + lead_in + lead_out
+    result.engrave_length_mm = float(contours.length[engraved].sum())
+    result.pierces = int(cut.sum())
+    result.kerf_change_mm = float(change.sum())
+    result.lead_length_mm = float((lead_in + lead_out).sum())
+    result.bound_mm = float(contours.bound.sum())
+    result.cut_length_mm = float(path_mm[cut].sum())
+    cutting_s = float(np.sum(path_mm / (f / 60.0))) if len(contours) else 0.0
+    motion_s = float(motion_times(table, contours, f / 60.0, lead_in, lead_out, change, p.accel_mm_s2,
+                                  p.corner_tolerance_mm).sum())
+    small_holes = int(small.sum())
+    narrow_holes = int((trouble == TROUBLE.index("narrow")).sum())
+    rough_offsets = int((trouble == TROUBLE.index("rough")).sum())
+    crossing = int((trouble == TROUBLE.index("crossing")).sum())
+    open_cut = int((cut & ~contours.closed).sum())
     if s.dedupe and overlaps:  # the overlapped stretch is cut once: take it off at the cutting feed
         result.cut_length_mm -= overlap_mm
         cutting_s -= overlap_mm / (feed / 60.0)
@@ -235,59 +230,6 @@ def run_charges(results: list[CutEstimate], profile: Profile) -> dict[str, float
     return {"machine": machine, "consumables": consumables, "setup": setup, "minimum_charge": minimum,
             "total": machine + consumables + setup + minimum, "setup_s": setup_s,
             "time_s": sum(r.time_s.get("total", 0.0) for r in ok) + setup_s}
-
-
-def _kerf_change(table: SegmentTable, c: Contour, polygon: object, outward: float) -> tuple[float, str]:
-    """Length change of a closed contour under the kerf offset, and what went wrong ("", narrow, rough,
-    crossing).
-
-    The exact turning formula is checked against shapely's offset of the sampled polygon; where
-    they disagree by more than the sampling can explain, the offset crosses itself (a feature
-    smaller than the offset) and shapely's figure is used.  A contour that crosses itself has no
-    inside and outside to offset towards: it is cut as drawn.
-    """
-    if getattr(polygon, "geom_type", "") != "Polygon":
-        return 0.0, "crossing"
-    rough = offset_length_change(polygon, outward)  # type: ignore[arg-type]
-    if rough is None:
-        return 0.0, "narrow"
-    exact = kerf_length_change(table, c, outward)
-    if abs(exact - rough) > 0.05 * abs(outward) * (2 * math.pi + len(c.segments)):
-        return rough, "rough"
-    return exact, ""
-
-
-def _small_hole(polygon: object, p: Profile) -> bool:
-    """A hole whose equivalent diameter (4 x area / perimeter) is under small_hole_ratio x thickness."""
-    area, perimeter = polygon.area, polygon.length  # type: ignore[attr-defined]
-    return perimeter > 0 and 4.0 * area / perimeter < p.small_hole_ratio * p.thickness_mm
-
-
-def _contour_motion_s(table: SegmentTable, c: Contour, feed: float, p: Profile, lead_in: float, lead_out: float,
-                      change: float) -> float:
-    """Time (s) to cut one contour from rest to rest: leads straight and tangent, corners and arcs limited."""
-    idx, fwd = c.segments, c.forward
-    scale = (c.length + change) / c.length if c.length > 0 else 1.0
-    length, radius, first = table.turning_pieces(idx, fwd)
-    length = length * scale
-    # centripetal limit v <= sqrt(a r) on each piece's mean radius; no tighter than the rounding arc
-    # the corner tolerance allows (the tip of a thin slit is a turn, not a stop)
-    top = np.minimum(feed, np.sqrt(p.accel_mm_s2 * np.maximum(radius, p.corner_tolerance_mm)))
-    d_in, d_out = table.travel_directions(idx, fwd)
-    corner = np.full(len(length), math.inf)  # within a segment the tangent turns smoothly
-    if len(idx) > 1:
-        corner[first[1:]] = corner_speed(d_out[:-1], d_in[1:], p.accel_mm_s2, p.corner_tolerance_mm)
-    moves_l, moves_top, moves_corner = [length], [top], [corner]
-    if lead_in > 0:
-        moves_l.insert(0, np.array([lead_in]))
-        moves_top.insert(0, np.array([feed]))
-        moves_corner.insert(0, np.array([math.inf]))  # tangent lead-in
-    if lead_out > 0:
-        moves_l.append(np.array([lead_out]))
-        moves_top.append(np.array([feed]))
-        moves_corner.append(np.array([math.inf]))
-    return sequence_time(np.concatenate(moves_l), np.concatenate(moves_top), np.concatenate(moves_corner),
-                         p.accel_mm_s2)
 
 
 def cautions(profile: Profile) -> list[str]:

@@ -14,7 +14,7 @@ import math
 
 import numpy as np
 
-from pathlen.geometry import FloatArray
+from pathlen.geometry import FloatArray, IntArray
 
 
 def move_times(length: FloatArray, top: FloatArray, accel: float, v_in: FloatArray, v_out: FloatArray) -> FloatArray:
@@ -78,3 +78,61 @@ def sequence_time(length: FloatArray, top: FloatArray, corner: FloatArray, accel
         return 0.0
     v = np.array(plan_speeds(list(length), list(top), list(corner), accel))
     return float(move_times(length, top, accel, v[:-1], v[1:]).sum())
+
+
+def segmented_min_scan(x: FloatArray, first: IntArray, size: IntArray, reverse: bool = False) -> FloatArray:
+    """Running minimum of ``x`` within each group (group k is ``x[first[k] : first[k] + size[k]]``),
+    from the group's start (or, ``reverse``, from its end).  Groups of similar size are padded
+    together (sizes rounded up to a power of two), so the work stays within twice the input."""
+    out = np.empty_like(x)
+    if len(x) == 0:
+        return out
+    bucket = np.ceil(np.log2(np.maximum(size, 1))).astype(np.int64)
+    for b in np.unique(bucket).tolist():
+        groups = np.flatnonzero(bucket == b)
+        width = 1 << b
+        idx = first[groups, None] + np.arange(width)[None, :]
+        valid = np.arange(width)[None, :] < size[groups, None]
+        block = np.where(valid, x[np.minimum(idx, len(x) - 1)], np.inf)
+        if reverse:
+            block = np.minimum.accumulate(block[:, ::-1], axis=1)[:, ::-1]
+        else:
+            block = np.minimum.accumulate(block, axis=1)
+        out[idx[valid]] = block[valid]
+    return out
+
+
+def sequences_time(length: FloatArray, top: FloatArray, corner: FloatArray, first: IntArray, size: IntArray,
+                   accel: float) -> FloatArray:
+    """:func:`sequence_time` for many sequences at once (sequence k: moves ``first[k]`` to
+    ``first[k] + size[k] - 1``), with the same speeds: in squared speeds the backward pass is
+    w_k = min over j >= k of (c_j + P_j) - P_k and the forward pass u_k = min over j <= k of
+    (w_j - P_j) + P_k, P the running sum of 2·a·L within the sequence, c the boundary limits."""
+    n = len(length)
+    groups = len(first)
+    if n == 0:
+        return np.zeros(groups)
+    group = np.repeat(np.arange(groups), size)
+    # boundaries: sequence k has size[k] + 1 of them, at move index + k
+    b_first = first + np.arange(groups)
+    b_size = size + 1
+    nb = n + groups
+    move_b = np.arange(n) + group  # the boundary before each move
+    limit = np.full(nb, np.inf)
+    limit[move_b] = np.minimum(corner, top)  # before move m: its corner and top
+    limit[move_b[1:]] = np.minimum(limit[move_b[1:]], np.where(group[1:] == group[:-1], top[:-1], np.inf))
+    limit[b_first] = 0.0  # from rest
+    limit[b_first + size] = 0.0  # to rest
+    c = limit**2
+    if math.isinf(accel):
+        v2 = c
+    else:
+        step = np.zeros(nb)
+        step[move_b + 1] = 2.0 * accel * length  # P_{k+1} - P_k across move k
+        p = np.cumsum(step)
+        p = p - np.repeat(p[b_first], b_size)  # from the sequence's first boundary
+        w = segmented_min_scan(c + p, b_first, b_size, reverse=True) - p
+        v2 = segmented_min_scan(w - p, b_first, b_size) + p
+    v = np.sqrt(np.maximum(v2, 0.0))
+    t = move_times(length, top, accel, v[move_b], v[move_b + 1])
+    return np.bincount(group, weights=t, minlength=groups)
