@@ -218,11 +218,12 @@ def segment_turning(table: SegmentTable, contour: Contour) -> tuple[np.ndarray, 
     return steps_turning(table, contour.segments, contour.forward, np.zeros(1, dtype=np.int64), size)
 
 
-def steps_turning(table: SegmentTable, rows: IntArray, forward: np.ndarray, first: IntArray, size: IntArray
-                  ) -> tuple[np.ndarray, np.ndarray]:
+def steps_turning(table: SegmentTable, rows: IntArray, forward: np.ndarray, first: IntArray, size: IntArray,
+                  samples: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
     """:func:`segment_turning` for many contours at once: ``rows`` contour after contour, contour k
-    being ``rows[first[k] : first[k] + size[k]]``; corners wrap round within each contour."""
-    pts = table.travel_samples(rows, forward)[:, :, :2]
+    being ``rows[first[k] : first[k] + size[k]]``; corners wrap round within each contour.
+    ``samples``: the rows' travel samples, where the caller has them already."""
+    pts = (table.travel_samples(rows, forward) if samples is None else samples)[:, :, :2]
     t_in, t_out = (d[:, :2] for d in table.travel_directions(rows, forward))
     chords = np.diff(pts, axis=1)
     steps = np.concatenate([t_in[:, None], chords, t_out[:, None]], axis=1)  # [k, samples + 1, 2]

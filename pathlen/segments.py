@@ -133,7 +133,8 @@ class SegmentTable:
                 out[sel] = _bezier_points(self.drawing.beziers[int(key[6:])], local, t)
         return out
 
-    def turning_pieces(self, rows: IntArray, forward: NDArray[np.bool_]) -> tuple[FloatArray, FloatArray, IntArray]:
+    def turning_pieces(self, rows: IntArray, forward: NDArray[np.bool_], samples: FloatArray | None = None
+                       ) -> tuple[FloatArray, FloatArray, IntArray]:
         """The segments ``rows`` (cut forwards or not) as pieces of even turning, in cutting order.
 
         Returns ``(length, radius, first)``: per piece its length (mm, summing to the segment's
@@ -142,6 +143,7 @@ class SegmentTable:
         piece; a curve is cut at its :data:`CURVE_SAMPLES` sample points, and a piece's turning is
         the mean of the chord turnings at its two ends (the end tangents count double), so a circle
         of radius r gives r on every piece and a slit's tip turns on the pieces around it.
+        ``samples``: the rows' :meth:`travel_samples`, where the caller has them already.
         """
         rows = np.asarray(rows, dtype=np.int64)
         straight = rows < len(self.drawing.lines)
@@ -153,7 +155,8 @@ class SegmentTable:
         radius = np.full(len(length), np.inf)
         length[first[straight]] = self.length[rows[straight]]
         if len(curved):
-            pts = self.travel_samples(rows[curved], np.asarray(forward)[curved])  # [m, k + 1, 3]
+            pts = (self.travel_samples(rows[curved], np.asarray(forward)[curved]) if samples is None
+                   else samples[curved])  # [m, k + 1, 3]
             chord = np.diff(pts, axis=1)
             chord_len = np.linalg.norm(chord, axis=2)
             d_in, d_out = self.travel_directions(rows[curved], np.asarray(forward)[curved])

@@ -310,35 +310,59 @@ def test_svg_colours_select_operations(runner):
     assert g["contours"] == {"closed": 6, "open": 0} and g["engrave_length"] == 0.0
 
 
-def test_batched_kerf_changes_match_the_per_contour_definitions():
+def test_batched_kerf_changes_match_the_per_contour_definitions(tmp_path):
     # every closed contour of the demo drawings: the batched kerf change and its trouble code equal
     # the per-contour exact formula checked against shapely's offset of the contour polygon
-    from pathlen.containment import contour_polygon, kerf_length_change, offset_length_change
     from pathlen.contours import chain_contours
-    from pathlen.estimates.cut_contours import TROUBLE, kerf_changes, outlines
     from pathlen.importers import read_drawing
     from pathlen.instances import expand
     from pathlen.measure import measure
     from pathlen.segments import segment_layers, segment_table
 
-    for name in ("kl101_bracket.dxf", "kl214_gasket.dxf", "kl330_sign_panel.dxf", "kl412_lamp_panel.svg"):
-        drawing = expand(read_drawing(FIXTURES / name))
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 4
+    m = doc.modelspace()
+    # features smaller than the offset: a slot 0.25 mm wide, a 0.2 mm strip, a 0.1 mm step between sharp
+    # corners, a spline that comes back within 0.2 mm of itself, a slit-like spike
+    m.add_lwpolyline([(0, 0), (20, 0), (20, 10), (10.125, 10), (10.125, 2), (9.875, 2), (9.875, 10), (0, 10)],
+                     close=True)
+    m.add_lwpolyline([(30, 0), (35, 0), (35, 0.2), (30, 0.2)], close=True)
+    m.add_lwpolyline([(40, 0), (50, 0), (50, 5), (45.1, 5), (45.1, 5.1), (45, 5.1), (45, 5), (40, 5)], close=True)
+    spline = m.add_spline()
+    spline.dxf.degree = 3
+    spline.control_points = [(60, 0, 0), (80, 20, 0), (40, 20, 0), (60.2, 0.1, 0)]
+    spline.knots = [0, 0, 0, 0, 1, 1, 1, 1]
+    m.add_line((60.2, 0.1), (60, 0))
+    m.add_lwpolyline([(70, 0), (90, 0.3), (70, 0.6), (72, 0.3)], close=True)
+    doc.saveas(tmp_path / "small.dxf")
+    for path in [FIXTURES / name for name in ("kl101_bracket.dxf", "kl214_gasket.dxf", "kl330_sign_panel.dxf",
+                                              "kl412_lamp_panel.svg")] + [tmp_path / "small.dxf"]:
+        drawing = expand(read_drawing(path))
         table = segment_table(drawing, measure(drawing))
         _, layer = segment_layers(drawing, table)
         contours = chain_contours(table, layer)
-        outward = np.where(np.arange(len(contours)) % 2 == 0, 0.15, -0.15)
-        change, trouble = kerf_changes(table, contours, outlines(table, contours), outward, contours.closed.copy())
-        for k in np.flatnonzero(contours.closed).tolist():
-            c = contours[k]
-            polygon = contour_polygon(table, c)
-            if polygon.geom_type != "Polygon":
-                assert TROUBLE[trouble[k]] == "crossing"
-                continue
-            rough = offset_length_change(polygon, outward[k])
-            exact = kerf_length_change(table, c, outward[k])
-            if rough is None:
-                assert TROUBLE[trouble[k]] == "narrow" and change[k] == 0
-            elif abs(exact - rough) > 0.05 * 0.15 * (2 * math.pi + len(c.segments)):
-                assert TROUBLE[trouble[k]] == "rough" and change[k] == pytest.approx(rough, rel=1e-9, abs=1e-12)
-            else:
-                assert TROUBLE[trouble[k]] == "" and change[k] == pytest.approx(exact, rel=1e-9, abs=1e-12)
+        for outward in (np.where(np.arange(len(contours)) % 2 == 0, 0.15, -0.15),
+                        np.where(np.arange(len(contours)) % 2 == 0, -0.15, 0.15)):
+            _compare_kerf(table, contours, outward)
+
+
+def _compare_kerf(table, contours, outward):
+    from pathlen.containment import contour_polygon, kerf_length_change, offset_length_change
+    from pathlen.estimates.cut_contours import TROUBLE, kerf_changes, outlines, walk
+
+    w = walk(table, contours)
+    change, trouble = kerf_changes(table, contours, w, outlines(table, contours, w), outward, contours.closed.copy())
+    for k in np.flatnonzero(contours.closed).tolist():
+        c = contours[k]
+        polygon = contour_polygon(table, c)
+        if polygon.geom_type != "Polygon":
+            assert TROUBLE[trouble[k]] == "crossing"
+            continue
+        rough = offset_length_change(polygon, outward[k])
+        exact = kerf_length_change(table, c, outward[k])
+        if rough is None:
+            assert TROUBLE[trouble[k]] == "narrow" and change[k] == 0
+        elif abs(exact - rough) > 0.05 * 0.15 * (2 * math.pi + len(c.segments)):
+            assert TROUBLE[trouble[k]] == "rough" and change[k] == pytest.approx(rough, rel=1e-9, abs=1e-12)
+        else:
+            assert TROUBLE[trouble[k]] == "" and change[k] == pytest.approx(exact, rel=1e-9, abs=1e-12)

@@ -29,7 +29,7 @@ from pathlen.contours import (
     overlapping_lines,
 )
 from pathlen.errors import InputError, UsageError
-from pathlen.estimates.cut_contours import TROUBLE, kerf_changes, motion_times, outlines
+from pathlen.estimates.cut_contours import TROUBLE, kerf_changes, motion_times, outlines, walk
 from pathlen.estimates.kinematics import move_times
 from pathlen.estimates.tour import plan_tour
 from pathlen.estimates.waterjet import WaterjetInputs, waterjet_feed_mm_min
@@ -149,13 +149,14 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
     result = CutEstimate(path, ok=True, quantity=s.quantity, feed_mm_min=feed, warnings=warnings)
     cut = ~engraved
     hole = contours.closed & (depth % 2 == 1) & cut
-    shapes = outlines(table, contours)
+    steps = walk(table, contours)
+    shapes = outlines(table, contours, steps)
     small = hole & (shapes.perimeter > 0) & (
         4.0 * shapes.area / np.where(shapes.perimeter > 0, shapes.perimeter, 1.0) < p.small_hole_ratio * p.thickness_mm)
     f = np.where(engraved, float(p.engrave_feed_mm_min or 0.0), feed) * np.where(small, p.small_hole_feed_factor, 1.0)
     offset = bool(p.kerf_offset and p.kerf_mm > 0)
     outward = np.where(hole, -0.5, 0.5) * p.kerf_mm
-    change, trouble = kerf_changes(table, contours, shapes, outward, cut & contours.closed & offset)
+    change, trouble = kerf_changes(table, contours, steps, shapes, outward, cut & contours.closed & offset)
     lead_in = np.where(cut, p.lead_in_mm, 0.0)
     lead_out = np.where(cut, p.lead_out_mm, 0.0)
     path_mm = contours.length + change + lead_in + lead_out
@@ -166,7 +167,7 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
     result.bound_mm = float(contours.bound.sum())
     result.cut_length_mm = float(path_mm[cut].sum())
     cutting_s = float(np.sum(path_mm / (f / 60.0))) if len(contours) else 0.0
-    motion_s = float(motion_times(table, contours, f / 60.0, lead_in, lead_out, change, p.accel_mm_s2,
+    motion_s = float(motion_times(table, contours, steps, f / 60.0, lead_in, lead_out, change, p.accel_mm_s2,
                                   p.corner_tolerance_mm).sum())
     small_holes = int(small.sum())
     narrow_holes = int((trouble == TROUBLE.index("narrow")).sum())

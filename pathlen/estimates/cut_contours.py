@@ -28,6 +28,24 @@ TROUBLE = ("", "narrow", "rough", "crossing")
 
 
 @dataclass
+class Walk:
+    """The contours' steps with what several facts need: their travel samples ``[m, k, 3]`` and their
+    motion pieces (:meth:`~pathlen.segments.SegmentTable.turning_pieces`)."""
+
+    contour: IntArray  # per step
+    samples: FloatArray
+    piece_length: FloatArray
+    piece_radius: FloatArray
+    piece_first: IntArray  # per step, its first piece
+
+
+def walk(table: SegmentTable, contours: ContourSet) -> Walk:
+    samples = table.travel_samples(contours.steps, contours.forward)
+    length, radius, first = table.turning_pieces(contours.steps, contours.forward, samples)
+    return Walk(np.repeat(np.arange(len(contours)), contours.size), samples, length, radius, first)
+
+
+@dataclass
 class Outlines:
     """Closed contours' outlines: validity, area and perimeter of the sample polygon (mm², mm)."""
 
@@ -37,7 +55,7 @@ class Outlines:
     perimeter: FloatArray
 
 
-def outlines(table: SegmentTable, contours: ContourSet) -> Outlines:
+def outlines(table: SegmentTable, contours: ContourSet, w: Walk) -> Outlines:
     """Every closed contour as the polygon through its sample points (mended by a zero buffer, as
     :func:`pathlen.containment.contour_polygon` does)."""
     n = len(contours)
@@ -47,12 +65,14 @@ def outlines(table: SegmentTable, contours: ContourSet) -> Outlines:
     closed = np.flatnonzero(contours.closed & (contours.size > 0))
     if len(closed) == 0:
         return Outlines(polygon, valid, area, perimeter)
-    cid = np.repeat(np.arange(n), contours.size)
-    mask = contours.closed[cid]
-    pts = table.travel_samples(contours.steps[mask], contours.forward[mask])[:, :, :2]
-    ring = np.searchsorted(closed, np.repeat(cid[mask], pts.shape[1]))
+    mask = contours.closed[w.contour]
+    pts = w.samples[mask][:, :, :2]
+    ring = np.searchsorted(closed, np.repeat(w.contour[mask], pts.shape[1]))
     polys = shapely.polygons(shapely.linearrings(pts.reshape(-1, 2), indices=ring))
-    mended = shapely.buffer(polys, 0)
+    mended = polys.copy()
+    broken = ~shapely.is_valid(polys)
+    if broken.any():
+        mended[broken] = shapely.buffer(polys[broken], 0)
     polygon[closed] = mended
     valid[closed] = shapely.get_type_id(mended) == 3  # a single Polygon
     area[closed] = shapely.area(mended)
@@ -60,7 +80,7 @@ def outlines(table: SegmentTable, contours: ContourSet) -> Outlines:
     return Outlines(polygon, valid, area, perimeter)
 
 
-def kerf_changes(table: SegmentTable, contours: ContourSet, out: Outlines, outward: FloatArray,
+def kerf_changes(table: SegmentTable, contours: ContourSet, w: Walk, out: Outlines, outward: FloatArray,
                  wanted: np.ndarray) -> tuple[FloatArray, IntArray]:
     """Length change (mm) of the contours ``wanted`` (closed ones) offset by ``outward`` mm (negative:
     inwards), and a trouble code per contour (index into :data:`TROUBLE`).
@@ -78,8 +98,11 @@ def kerf_changes(table: SegmentTable, contours: ContourSet, out: Outlines, outwa
     todo &= out.valid
     if not todo.any():
         return change, trouble
-    exact = _exact_changes(table, contours, outward)
-    k = np.flatnonzero(todo)
+    exact, suspect = _exact_changes(table, contours, w, outward)
+    k = np.flatnonzero(todo & suspect)
+    change[todo] = exact[todo]
+    if len(k) == 0:
+        return change, trouble
     polys = out.polygon[k]
     moved = shapely.buffer(polys, outward[k], quad_segs=OFFSET_QUAD_SEGS, join_style="round")
     empty = shapely.is_empty(moved) & ~shapely.is_empty(polys)
@@ -99,22 +122,63 @@ def _outline_lengths(shapes: np.ndarray) -> FloatArray:
     return np.bincount(index, weights=lengths, minlength=len(shapes))
 
 
-def _exact_changes(table: SegmentTable, contours: ContourSet, outward: FloatArray) -> FloatArray:
+def _exact_changes(table: SegmentTable, contours: ContourSet, w: Walk, outward: FloatArray
+                   ) -> tuple[FloatArray, np.ndarray]:
     """Per contour, the exact kerf length change of the turning formula (see
-    :func:`pathlen.containment.kerf_length_change`), valid while the offset does not cross itself."""
-    smooth, corners = steps_turning(table, contours.steps, contours.forward, contours.first, contours.size)
-    cid = np.repeat(np.arange(len(contours)), contours.size)
-    total = np.bincount(cid, weights=smooth + corners, minlength=len(contours))
+    :func:`pathlen.containment.kerf_length_change`), valid while the offset does not cross itself,
+    and whether it might cross itself (then shapely's offset decides).
+
+    It cannot, for a contour whose every segment is longer than the mitres at its ends need
+    (4|d|(1 + tan|φ₁|/2 + tan|φ₂|/2)), whose curves have radii above 2|d| (and whose Bézier pieces
+    turn by under 150° each, so they cannot come back to themselves), whose corners turn by less
+    than 170°, whose box is at least 4|d| across, and whose segments that are not neighbours keep
+    their boxes more than 2|d| apart.  Anything else is "suspect"."""
+    n = len(contours)
+    smooth, corners = steps_turning(table, contours.steps, contours.forward, contours.first, contours.size,
+                                    w.samples)
+    cid = w.contour
+    total = np.bincount(cid, weights=smooth + corners, minlength=n)
     side = np.where(total != 0, np.sign(total), 1.0)  # +1 counter-clockwise
     d = np.abs(outward)
     sign = np.where(outward > 0, side, -side)[cid]
     k, phi = sign * smooth, sign * corners
     dd = d[cid]
     joins = np.where(phi > 0, dd * phi, -2.0 * dd * np.tan(np.abs(phi) / 2.0))
-    return np.bincount(cid, weights=dd * k + joins, minlength=len(contours))
+    exact = np.bincount(cid, weights=dd * k + joins, minlength=n)
+    # suspects: local features
+    rows = contours.steps
+    seg_len = table.length[rows]
+    prev_corner = np.roll(corners, 1)
+    prev_corner[contours.first[contours.size > 0]] = corners[(contours.first + contours.size - 1)[contours.size > 0]]
+    half = np.tan(np.minimum(np.abs(corners), 3.0) / 2.0) + np.tan(np.minimum(np.abs(prev_corner), 3.0) / 2.0)
+    bezier = rows >= len(table.drawing.lines) + len(table.drawing.arcs)  # arcs are convex: radius decides
+    local = (seg_len <= 4.0 * dd * (1.0 + half)) | (bezier & (np.abs(smooth) > math.radians(150))) \
+        | (np.abs(corners) > math.radians(170))
+    radius, pfirst = w.piece_radius, w.piece_first
+    tight = radius < 2.0 * np.repeat(dd, np.diff(np.r_[pfirst, len(radius)]))
+    local |= np.add.reduceat(tight.astype(np.int64), pfirst) > 0 if len(pfirst) else np.zeros(0, dtype=bool)
+    suspect = np.bincount(cid, weights=local.astype(float), minlength=n) > 0
+    lo, hi = table.box
+    lo, hi = lo[rows, :2], hi[rows, :2]
+    c_lo = np.full((n, 2), np.inf)
+    c_hi = np.full((n, 2), -np.inf)
+    np.minimum.at(c_lo, cid, lo)
+    np.maximum.at(c_hi, cid, hi)
+    suspect |= ((c_hi - c_lo).min(axis=1) < 4.0 * d) & (contours.size > 0)
+    # segments of one contour, not neighbours, whose boxes come within 2|d|
+    grow = dd  # both boxes grown by |d|: they meet where the segments' boxes come within 2|d|
+    boxes = shapely.box(lo[:, 0] - grow, lo[:, 1] - grow, hi[:, 0] + grow, hi[:, 1] + grow)
+    i, j = shapely.STRtree(boxes).query(boxes, predicate="intersects")
+    same = (cid[i] == cid[j]) & (i < j)
+    i, j = i[same], j[same]
+    gap = j - i
+    wrap = contours.size[cid[i]] - gap
+    apart = (gap > 1) & (wrap > 1)
+    suspect[cid[i[apart]]] = True
+    return exact, suspect
 
 
-def motion_times(table: SegmentTable, contours: ContourSet, feed: FloatArray, lead_in: FloatArray,
+def motion_times(table: SegmentTable, contours: ContourSet, w: Walk, feed: FloatArray, lead_in: FloatArray,
                  lead_out: FloatArray, change: FloatArray, accel: float, corner_tolerance: float) -> FloatArray:
     """Per contour, the time (s) to cut it from rest to rest at ``feed`` (mm/s): its motion pieces
     (scaled to the kerf-changed length), arcs limited to √(a·r), corners to :func:`corner_speed`,
@@ -123,8 +187,8 @@ def motion_times(table: SegmentTable, contours: ContourSet, feed: FloatArray, le
     if n == 0:
         return np.zeros(0)
     steps, fwd = contours.steps, contours.forward
-    cid = np.repeat(np.arange(n), contours.size)
-    length, radius, pfirst = table.turning_pieces(steps, fwd)
+    cid = w.contour
+    length, radius, pfirst = w.piece_length, w.piece_radius, w.piece_first
     count = np.diff(np.r_[pfirst, len(length)])
     piece_step = np.repeat(np.arange(len(steps)), count)
     piece_c = cid[piece_step]
