@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import os
 from collections.abc import Callable, Iterable, Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -96,12 +97,34 @@ def one_line_failure(path: str, work: Callable[[], Any], failed: Callable[..., A
     except PathlenError as exc:
         return failed(path, ok=False, error=str(exc))
     except MemoryError:
-        return failed(path, ok=False, error=f"needed more than {_limit_phrase()}", environment=True)
+        doing = f" while {_stage[-1]}" if _stage else ""
+        return failed(path, ok=False, error=f"needed more than {_limit_phrase()}{doing}", environment=True)
     except RecursionError:
         return failed(path, ok=False, error="structure nested too deeply")
     except Exception as exc:  # noqa: BLE001 - one bad file must not stop the batch
         text = str(exc).strip().splitlines()
         return failed(path, ok=False, error=f"unexpected {type(exc).__name__}: {text[0] if text else ''}")
+    finally:
+        _stage.clear()
+
+
+#: What the file's work is doing now (innermost last), for the out-of-memory message.
+_stage: list[str] = []
+
+
+@contextmanager
+def stage(doing: str) -> Iterator[None]:
+    """Name the step under way ("reading the drawing", "chaining 80,000 contours"): a file that runs
+    out of memory says which step it was."""
+    _stage.append(doing)
+    try:
+        yield
+    except MemoryError:
+        raise  # the name stays for the message (cleared once the file's outcome is made)
+    except BaseException:
+        _stage.pop()
+        raise
+    _stage.pop()
 
 
 def _limit_phrase() -> str:
@@ -116,8 +139,10 @@ def measure_file(path: str, settings: MeasureSettings = MeasureSettings()) -> Fi
 
 
 def _measure_file(path: str, settings: MeasureSettings) -> FileResult:
-    drawing = read_drawing(Path(path), settings.import_options)
-    result = measure(drawing, settings.rtol)
+    with stage("reading the drawing"):
+        drawing = read_drawing(Path(path), settings.import_options)
+    with stage(f"measuring {segment_total(drawing):,} segments"):
+        result = measure(drawing, settings.rtol)
     warnings = list(drawing.warnings)
     shown = np.array([not e.hidden for e in drawing.entities], dtype=bool)
     warnings.extend(hidden_note(drawing, result.entity_length))

@@ -366,3 +366,18 @@ def _compare_kerf(table, contours, outward):
             assert TROUBLE[trouble[k]] == "rough" and change[k] == pytest.approx(rough, rel=1e-9, abs=1e-12)
         else:
             assert TROUBLE[trouble[k]] == "" and change[k] == pytest.approx(exact, rel=1e-9, abs=1e-12)
+
+
+def test_running_out_of_memory_names_the_step(monkeypatch):
+    # a file that runs out of memory says which step it was in, not only that it was big
+    import pathlen.estimates.cut as cut_module
+    from pathlen.profiles import load_profiles
+
+    def exhausted(*args, **kwargs):
+        raise MemoryError
+
+    monkeypatch.setattr(cut_module, "nesting_depth", exhausted)
+    result = estimate_file(str(FIXTURES / "kl101_bracket.dxf"), CutSettings(load_profiles()["steel-3mm-laser"]))
+    assert not result.ok
+    assert result.error.startswith("needed more than") and "while finding which of" in result.error
+    assert "contours lie inside which" in result.error

@@ -18,7 +18,7 @@ from pathlib import Path
 
 import numpy as np
 
-from pathlen.batch import FileOutcome, hidden_note, one_line_failure
+from pathlen.batch import FileOutcome, hidden_note, one_line_failure, stage
 from pathlen.containment import nesting_depth
 from pathlen.contours import (
     DEFAULT_GAP_REPORT_MM,
@@ -34,7 +34,7 @@ from pathlen.estimates.kinematics import move_times
 from pathlen.estimates.tour import plan_tour
 from pathlen.estimates.waterjet import WaterjetInputs, waterjet_feed_mm_min
 from pathlen.importers import ImportOptions, read_drawing
-from pathlen.instances import DEFAULT_MAX_SEGMENTS, expand
+from pathlen.instances import DEFAULT_MAX_SEGMENTS, expand, segment_total
 from pathlen.measure import DEFAULT_RTOL, measure
 from pathlen.profiles import Profile
 from pathlen.segments import segment_layers, segment_table
@@ -113,9 +113,11 @@ def _role_of_entities(drawing_entities: list, s: CutSettings) -> np.ndarray:
 
 def _estimate(path: str, s: CutSettings) -> CutEstimate:
     p = s.profile
-    drawing = expand(read_drawing(Path(path), s.import_options), s.max_segments, "the cut estimate")
-    measured = measure(drawing, s.rtol)
-    table = segment_table(drawing, measured)
+    with stage("reading the drawing"):
+        drawing = expand(read_drawing(Path(path), s.import_options), s.max_segments, "the cut estimate")
+    with stage(f"measuring {segment_total(drawing):,} segments"):
+        measured = measure(drawing, s.rtol)
+        table = segment_table(drawing, measured)
     layer_names, layer = segment_layers(drawing, table)
     role = _role_of_entities(drawing.entities, s)[table.entity] if len(table) else np.zeros(0, dtype=np.int64)
     warnings = list(drawing.warnings) + hidden_note(drawing, measured.entity_length)
@@ -141,22 +143,26 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
                             "twice); --dedupe cuts it once")
     if (role == 2).any() and p.values.get("engrave_feed_mm_min") is None:
         raise UsageError(f"profile {p.name!r} has no engrave_feed_mm_min, needed for the engraved layers")
-    contours = chain_contours(table, layer, s.join_tol_mm, keep)
-    warnings += gap_warnings(contours, layer_names, s.join_tol_mm, s.gap_report_mm)
+    with stage(f"chaining {int(keep.sum()):,} segments into contours"):
+        contours = chain_contours(table, layer, s.join_tol_mm, keep)
+        warnings += gap_warnings(contours, layer_names, s.join_tol_mm, s.gap_report_mm)
     engraved = role[contours.steps[contours.first]] == 2
-    depth, parent = nesting_depth(table, contours)
+    with stage(f"finding which of {len(contours):,} contours lie inside which"):
+        depth, parent = nesting_depth(table, contours)
     feed = cutting_feed_mm_min(p)
     result = CutEstimate(path, ok=True, quantity=s.quantity, feed_mm_min=feed, warnings=warnings)
     cut = ~engraved
     hole = contours.closed & (depth % 2 == 1) & cut
-    steps = walk(table, contours)
-    shapes = outlines(table, contours, steps)
+    with stage(f"building the outlines of {int(contours.closed.sum()):,} closed contours"):
+        steps = walk(table, contours)
+        shapes = outlines(table, contours, steps)
     small = hole & (shapes.perimeter > 0) & (
         4.0 * shapes.area / np.where(shapes.perimeter > 0, shapes.perimeter, 1.0) < p.small_hole_ratio * p.thickness_mm)
     f = np.where(engraved, float(p.engrave_feed_mm_min or 0.0), feed) * np.where(small, p.small_hole_feed_factor, 1.0)
     offset = bool(p.kerf_offset and p.kerf_mm > 0)
     outward = np.where(hole, -0.5, 0.5) * p.kerf_mm
-    change, trouble = kerf_changes(table, contours, steps, shapes, outward, cut & contours.closed & offset)
+    with stage("offsetting the contours by half the kerf"):
+        change, trouble = kerf_changes(table, contours, steps, shapes, outward, cut & contours.closed & offset)
     lead_in = np.where(cut, p.lead_in_mm, 0.0)
     lead_out = np.where(cut, p.lead_out_mm, 0.0)
     path_mm = contours.length + change + lead_in + lead_out
@@ -167,8 +173,9 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
     result.bound_mm = float(contours.bound.sum())
     result.cut_length_mm = float(path_mm[cut].sum())
     cutting_s = float(np.sum(path_mm / (f / 60.0))) if len(contours) else 0.0
-    motion_s = float(motion_times(table, contours, steps, f / 60.0, lead_in, lead_out, change, p.accel_mm_s2,
-                                  p.corner_tolerance_mm).sum())
+    with stage(f"planning the motion along {len(steps.piece_length):,} pieces"):
+        motion_s = float(motion_times(table, contours, steps, f / 60.0, lead_in, lead_out, change, p.accel_mm_s2,
+                                      p.corner_tolerance_mm).sum())
     small_holes = int(small.sum())
     narrow_holes = int((trouble == TROUBLE.index("narrow")).sum())
     rough_offsets = int((trouble == TROUBLE.index("rough")).sum())
@@ -191,8 +198,9 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
                         "length is approximate")
     if open_cut:
         warnings.append(f"{open_cut} open contours cut as drawn: check the drawing if they should be closed")
-    tour = plan_tour(contours.start[:, :2], contours.end[:, :2], contours.closed,
-                     np.where(np.isin(parent, np.flatnonzero(~engraved)), parent, -1), s.home)
+    with stage(f"ordering {len(contours):,} contours for the rapids"):
+        tour = plan_tour(contours.start[:, :2], contours.end[:, :2], contours.closed,
+                         np.where(np.isin(parent, np.flatnonzero(~engraved)), parent, -1), s.home)
     rapid_v = p.rapid_mm_min / 60.0
     result.rapid_length_mm = tour.rapid_length
     rapids_s = tour.rapid_length / rapid_v
