@@ -232,3 +232,24 @@ def test_table_shows_stroke_colours(runner, tmp_path):
     assert res.exit_code == 0
     text = report.read_text()
     assert "stroke #ff0000" in text and "stroke #0000ff" in text and "Length (mm)" in text
+
+
+def test_the_group_lists_every_command_with_its_own_summary():
+    # the summaries `pathlen --help` shows without importing the commands are the commands' own
+    import importlib
+
+    from pathlen.cli import COMMANDS
+
+    for name, (module, summary) in COMMANDS.items():
+        command = getattr(importlib.import_module(module), name)
+        assert command.get_short_help_str(limit=45) == summary, name
+
+
+def test_help_starts_without_numpy():
+    import subprocess
+    import sys
+
+    code = "import sys; from pathlen.cli import main; sys.argv = ['pathlen', '--help']\n" \
+           "try:\n    main()\nexcept SystemExit:\n    pass\nprint('numpy' in sys.modules)"
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    assert out.strip().splitlines()[-1] == "False"

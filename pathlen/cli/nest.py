@@ -4,37 +4,19 @@ from __future__ import annotations
 
 import math
 import re
-import sys
-from collections.abc import Callable
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 import click
 
+from pathlen.cli.layouts import LENGTH_UNITS, draw_layout, layout_svg, length_mm, run_nest_status
 from pathlen.cli.profile_files import profiles_or_exit
-from pathlen.cli.reading import Reading, collect, drawing_files, emit, reading_options, write_atomic
-from pathlen.errors import PathlenError, UsageError
-from pathlen.geometry import MM_PER_UNIT
+from pathlen.cli.reading import Reading, collect, drawing_files, emit, reading_options
+from pathlen.errors import PathlenError
 
 if TYPE_CHECKING:
     from pathlen.nest.order import OrderLine
     from pathlen.nest.parts import PartsOutcome
-
-LENGTH_UNITS = ("mm", "cm", "m", "in", "ft")
-_NUMBER = r"(\d+(?:\.\d*)?|\.\d+)"
-
-
-def length_mm(text: str, what: str) -> float:
-    """A positive length from text such as ``1500``, ``1500mm`` or ``60in`` (mm when no unit is given)."""
-    m = re.fullmatch(rf"\s*{_NUMBER}\s*({'|'.join(LENGTH_UNITS)})?\s*", text)
-    if not m:
-        raise click.BadParameter(f"{text!r} is not a length (a number, optionally with mm, cm, m, in or ft)",
-                                 param_hint=what)
-    value = float(m.group(1)) * MM_PER_UNIT[m.group(2) or "mm"]
-    if not (value > 0 and math.isfinite(value)):
-        raise click.BadParameter(f"{text!r} must be greater than zero", param_hint=what)
-    return value
-
 
 def sheet_size(text: str) -> Any:
     """``WIDTHxLENGTH[:COUNT]`` with an optional unit after either number (``1250x2500``, ``48x96in:6``)."""
@@ -122,8 +104,8 @@ def nest(reading: Reading, roll: str | None, sheets: tuple[str, ...], margin: st
     result = _nest(demands, settings) if demands else None
     doc = nest_out.nest_document(result, outcomes, reading.units)
     if picture and result is not None:
-        _draw(result, picture)
-    figures = [("Layout", _svg(result))] if reading.report and result is not None else None
+        draw_layout(result, picture, "nest")
+    figures = [("Layout", layout_svg(result, "nest"))] if reading.report and result is not None else None
     emit(outcomes, reading.fmt, reading.output, lambda console: nest_out.render_table(doc, outcomes, [], console),
          lambda: nest_out.render_json(doc) if reading.fmt == "json" else nest_out.render_csv(doc), [],
          report=reading.report, document=lambda: doc, figures=figures,
@@ -164,45 +146,3 @@ def _nest(demands: list[Any], settings: Any) -> Any:
     from pathlen.nest.plan import nest
 
     return run_nest_status(lambda status: nest(demands, settings, status))
-
-
-def run_nest_status(work: Callable[[Any], Any]) -> Any:
-    """``work(status)`` with a spinner on a terminal (status None elsewhere); Ctrl-C before any layout
-    exits 130, a nesting usage problem exits 2."""
-    from rich.console import Console
-
-    err = Console(stderr=True)
-    try:
-        if not err.is_terminal:
-            return work(None)
-        with err.status("nesting") as status:
-            return work(lambda doing, spent, budget: status.update(
-                f"{doing}: {spent:.0f} s of {budget:.0f} s (Ctrl-C keeps the best layout so far)"))
-    except KeyboardInterrupt:
-        err.print("interrupted before the engine found any layout: nothing to report")
-        sys.exit(130)
-    except UsageError as exc:
-        raise click.UsageError(str(exc)) from None
-
-
-def _svg(result: Any, title: str = "nest") -> str:
-    from pathlen.export.nest_picture import nest_svg
-
-    return nest_svg(result, title)
-
-
-def _draw(result: Any, picture: str) -> None:
-    draw_layout(result, picture, "nest")
-
-
-def draw_layout(result: Any, picture: str, title: str) -> None:
-    """The layout as SVG, PNG or PDF (by the file's suffix), written whole or not at all."""
-    from pathlen.export.nest_picture import render_nest_raster
-
-    if picture.lower().endswith(".svg"):
-        write_atomic(picture, _svg(result, title))
-        return
-    try:
-        render_nest_raster(result, Path(picture))
-    except OSError as exc:
-        raise click.FileError(picture, hint=exc.strerror or str(exc)) from None

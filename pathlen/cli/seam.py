@@ -100,7 +100,7 @@ def seam(reading: Reading, allowance: float, stitch: int, spc: float | None, spi
     markers = _lay(results, marker_settings) if marker_settings else []
     notes = cautions()
     if markers and marker_picture:
-        from pathlen.cli.nest import draw_layout
+        from pathlen.cli.layouts import draw_layout
 
         draw_layout(markers[0].result, marker_picture, f"marker {Path(markers[0].path).name}")
     figures = _figures(markers) if r.report else None
@@ -115,7 +115,7 @@ def seam(reading: Reading, allowance: float, stitch: int, spc: float | None, spi
 def _marker_settings(wanted: bool, plan: Any, fabric_width: str | None, ratio: str | None, gsm: float | None,
                      time_s: float, seed: int | None, picture: str | None) -> Any:
     """The marker's settings from the command line over the plan's [marker] table; None without a marker."""
-    from pathlen.cli.nest import length_mm
+    from pathlen.cli.layouts import length_mm
     from pathlen.estimates.marker import MarkerSettings
     from pathlen.estimates.seam_plan import parse_ratio
 
@@ -142,7 +142,7 @@ def _marker_settings(wanted: bool, plan: Any, fabric_width: str | None, ratio: s
 
 def _lay(results: list[Any], settings: Any) -> list[Any]:
     """One marker per pattern file that was read; a file whose marker cannot be laid fails its line."""
-    from pathlen.cli.nest import run_nest_status
+    from pathlen.cli.layouts import run_nest_status
     from pathlen.errors import InputError
     from pathlen.estimates.marker import lay_marker
 
