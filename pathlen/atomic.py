@@ -6,6 +6,7 @@ from __future__ import annotations
 import contextlib
 import os
 import tempfile
+from collections.abc import Callable
 from pathlib import Path
 
 
@@ -20,6 +21,24 @@ def write_atomic(path: Path, text: str) -> None:
             fh.write(text)
             fh.flush()
             os.fsync(fh.fileno())
+        os.chmod(tmp, 0o666 & ~umask())
+        os.replace(tmp, path)
+    except BaseException:
+        with contextlib.suppress(OSError):
+            os.unlink(tmp)
+        raise
+    fsync_dir(path.parent)
+
+
+def write_file_atomic(path: Path, write: Callable[[Path], None]) -> None:
+    """``write(temporary_path)`` (a picture renderer, say), then the same rename as :func:`write_atomic`:
+    the file appears whole or not at all.  The temporary file keeps the target's suffix, so a writer
+    that picks the format by suffix picks the right one."""
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.stem}.", suffix=f".tmp{path.suffix}")
+    os.close(fd)
+    try:
+        write(Path(tmp))
         os.chmod(tmp, 0o666 & ~umask())
         os.replace(tmp, path)
     except BaseException:

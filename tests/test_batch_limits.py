@@ -71,4 +71,5 @@ def test_memory_limit_stops_a_real_drawing(runner, good, tmp_path):
     assert res.exit_code == 1
     files = {os.path.basename(f["path"]): f for f in json.loads(res.stdout)["files"]}
     assert files["good.dxf"]["ok"]
-    assert files["big.dxf"]["error"] == "needed more than the memory limit of 300 MB per file (--max-memory)"
+    assert files["big.dxf"]["error"] == ("needed more than the memory limit of 300 MB per file (--max-memory) "
+                                         "while reading the drawing")  # the step named

@@ -85,3 +85,49 @@ def test_every_estimate_writes_its_report(runner, tmp_path, command, extra, word
     for w in words:
         assert w in html
     assert "http://" not in html.replace('xmlns="http://www.w3.org/2000/svg"', "")  # nothing fetched
+
+
+def test_a_file_name_that_is_not_utf8_and_control_characters_stay_valid(runner, tmp_path):
+    # a file name with a byte that is not UTF-8 (decoded to a lone surrogate) and a layer name with a
+    # control character: the JSON is printed, the report and the preview are valid documents
+    import os
+    import xml.etree.ElementTree as ET
+
+    import ezdxf
+
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 4
+    doc.layers.add("CUT\x07")
+    doc.modelspace().add_circle((0, 0), 10, dxfattribs={"layer": "CUT\x07"})
+    name = os.fsdecode(b"part\xff.dxf")
+    path = tmp_path / name
+    doc.saveas(path)
+    report = tmp_path / "r.html"
+    res = runner.invoke(main, ["measure", str(path), "--format", "json", "--report", str(report)])
+    assert res.exit_code == 0, res.output
+    assert json.loads(res.stdout)["files"][0]["ok"]
+    html = report.read_text(encoding="utf-8")
+    assert "\ufffd" in html and "\x07" not in html
+    out = tmp_path / "p.svg"
+    assert runner.invoke(main, ["preview", str(path), "-o", str(out)]).exit_code == 0
+    ET.fromstring(out.read_bytes())  # well-formed XML
+
+
+def test_a_report_that_cannot_be_written_keeps_the_answer(runner, tmp_path, monkeypatch):
+    import click
+
+    import pathlen.cli.reading as reading
+
+    real = reading.write_atomic
+
+    def refuse(path, text):
+        if str(path).endswith(".html"):
+            raise click.FileError(str(path), hint="No space left on device")
+        real(path, text)
+
+    monkeypatch.setattr(reading, "write_atomic", refuse)
+    res = runner.invoke(main, ["measure", str(FIXTURES / "kl101_bracket.dxf"), "--format", "json", "--report",
+                               str(tmp_path / "r.html")])
+    assert res.exit_code == 1
+    assert json.loads(res.stdout)["files"][0]["ok"]
+    assert "No space left on device" in res.stderr and "Traceback" not in res.output

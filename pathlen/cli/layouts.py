@@ -12,6 +12,7 @@ from typing import Any
 
 import click
 
+from pathlen.atomic import write_file_atomic
 from pathlen.cli.reading import write_atomic
 from pathlen.errors import UsageError
 from pathlen.geometry import MM_PER_UNIT
@@ -66,6 +67,6 @@ def draw_layout(result: Any, picture: str, title: str) -> None:
         write_atomic(picture, layout_svg(result, title))
         return
     try:
-        render_nest_raster(result, Path(picture))
+        write_file_atomic(Path(picture), lambda tmp: render_nest_raster(result, tmp))
     except OSError as exc:
         raise click.FileError(picture, hint=exc.strerror or str(exc)) from None

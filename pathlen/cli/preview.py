@@ -71,7 +71,12 @@ def preview(path: Path, output: Path, join_tol: float, drawing_units: str | None
     if suffix == ".svg":
         write_atomic(str(output), scene_svg(scene))
     else:
-        render_raster(scene, output, dpi)
+        from pathlen.atomic import write_file_atomic
+
+        try:
+            write_file_atomic(output, lambda tmp: render_raster(scene, tmp, dpi))
+        except OSError as exc:
+            raise click.FileError(str(output), hint=exc.strerror or str(exc)) from None
     click.echo(f"wrote {output}", err=True)
 
 

@@ -164,10 +164,6 @@ def emit(results: list[Any], fmt: str, output: str | None, table: Callable[[Cons
     """Report a batch (errors and warnings on standard error), the HTML ``report`` of ``document()`` if
     asked for (with ``figures``, titled SVG pictures, after the files), and exit 0, or 1 if a file
     failed or ``failed`` (something else the command could not do, said in the report)."""
-    if report and document is not None:
-        from pathlen.export.report import drawing_pictures, render_report
-
-        write_atomic(report, render_report(document(), drawing_pictures([r.path for r in results if r.ok]), figures))
     err = Console(stderr=True, highlight=False, soft_wrap=True)
     for r in results:
         if not r.ok:
@@ -180,16 +176,28 @@ def emit(results: list[Any], fmt: str, output: str | None, table: Callable[[Cons
         else:
             table(Console(soft_wrap=False))
     else:
-        report = text()
+        answer = text()
         if output:
-            write_atomic(output, report)
+            write_atomic(output, answer)
         else:
-            click.echo(report, nl=False)
+            click.echo(answer, nl=False)
         for r in results:
             for w in r.warnings:
                 err.print(f"warning {plain(r.path)}: {plain(w)}")
         for c in cautions or []:
             err.print(f"caution: {plain(c)}")
+    if report and document is not None:  # after the answer: a report that cannot be written loses nothing else
+        from pathlen.export.report import drawing_pictures, render_report
+
+        try:
+            write_atomic(report, render_report(document(), drawing_pictures([r.path for r in results if r.ok]),
+                                               figures))
+        except click.ClickException as exc:
+            err.print(f"[red]error[/red] report: {plain(exc.format_message())}")
+            failed = True
+        except (OSError, UnicodeError) as exc:
+            err.print(f"[red]error[/red] report {plain(report)}: {plain(getattr(exc, 'strerror', None) or exc)}")
+            failed = True
     sys.exit(1 if failed or any(not r.ok for r in results) else 0)
 
 

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import re
 from collections.abc import Sequence
+from html import escape as html_escape
 from typing import Any
 
 from rich.console import Console
@@ -13,6 +15,17 @@ from pathlen.geometry import MM_PER_UNIT
 
 #: Output units a person can choose.
 OUTPUT_UNITS = ("mm", "in")
+
+
+#: Characters XML 1.0 does not allow (C0 controls but tab, newline and return; lone surrogates, as a
+#: file name that is not UTF-8 decodes to; U+FFFE and U+FFFF).
+_NOT_XML = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ud800-\udfff\ufffe\uffff]")
+
+
+def markup_text(text: object) -> str:
+    """Text from a drawing, a file name or an error, made safe inside SVG or HTML: escaped, and every
+    character XML cannot hold replaced by U+FFFD (the replacement character)."""
+    return html_escape(_NOT_XML.sub("\ufffd", str(text)))
 
 
 def plain(text: object) -> str:

@@ -53,4 +53,6 @@ def write_bead_picture(path: str, drawing_path: Path, drawing: Drawing, joints: 
     if path.lower().endswith(".svg"):
         write_atomic(path, scene_svg(scene))
     else:
-        render_raster(scene, Path(path))
+        from pathlen.atomic import write_file_atomic
+
+        write_file_atomic(Path(path), lambda tmp: render_raster(scene, tmp))

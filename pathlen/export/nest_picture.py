@@ -8,11 +8,11 @@ from Bézier pieces.  Sheets are stacked top to bottom, each with y up from its 
 
 from __future__ import annotations
 
-from html import escape
 from pathlib import Path
 
 import numpy as np
 
+from pathlen.export import markup_text as escape
 from pathlen.export.preview import nice_length
 from pathlen.export.preview_paths import segment_cubics, segment_paths
 from pathlen.geometry import Drawing, affine

@@ -12,12 +12,12 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from html import escape
 from pathlib import Path
 
 import numpy as np
 
 from pathlen.contours import DEFAULT_JOIN_TOL_MM, chain_contours, duplicate_segments, gap_points
+from pathlen.export import markup_text as escape
 from pathlen.export.preview_paths import segment_cubics, segment_paths
 from pathlen.geometry import Drawing
 from pathlen.measure import measure

@@ -10,13 +10,13 @@ from __future__ import annotations
 import csv
 import io
 import json
-from html import escape
 from pathlib import Path
 from typing import Any
 
 from rich.console import Console
 
 from pathlen.export import clock, from_mm, plain, report_table
+from pathlen.export import markup_text as escape
 from pathlen.quote.compute import Quote
 
 ALLOCATION = ("each line carries its own cutting (machine time and consumables), a share of its run's setup "

@@ -10,11 +10,11 @@ Prints on A4 or Letter; readable on a phone.
 from __future__ import annotations
 
 from collections.abc import Callable
-from html import escape
 from pathlib import Path
 from typing import Any
 
 from pathlen.export import clock
+from pathlen.export import markup_text as escape
 
 STYLE = """
 :root { --accent: #0b6e6e; --ink: #1d252c; --soft: #66717c; --line: #d8dee3; }
