@@ -66,7 +66,7 @@ KEYS: dict[str, Key] = {
     "focus_tube_mm": Key(float, above_minimum=True, needed_for=()),
     "abrasive_kg_min": Key(float, above_minimum=True, needed_for=()),
     "machinability": Key(float, above_minimum=True, needed_for=()),
-    "quality": Key(float, 3.0, minimum=1.0, maximum=5.0),
+    "quality": Key(float, 3.0, minimum=1.0, maximum=5.0),  # Zeng & Kim (1993): 1 separation cut .. 5 finest
     "model_constant": Key(float, 788.0, above_minimum=True),
     "abrasive_factor": Key(float, 1.0, above_minimum=True),
 }

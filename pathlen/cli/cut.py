@@ -49,7 +49,8 @@ def _pick(profiles: dict[str, Profile], name: str | None) -> Profile:
 @click.option("--test-thickness", type=click.FloatRange(min=0, min_open=True), metavar="MM",
               help="With --calibrate: thickness of the test cut (default: the profile's).")
 @click.option("--test-quality", type=click.FloatRange(1, 5), metavar="Q",
-              help="With --calibrate: quality level 1-5 of the test cut (default: the profile's).")
+              help="With --calibrate: quality level of the test cut on the scale of Zeng and Kim's 1993 "
+              "waterjet model (1 separation cut ... 5 finest; default: the profile's).")
 def cut(reading: Reading, profile_name: str | None, profile_files: tuple[str, ...],
         quantity: int, layers: str | None, engrave: str | None, ignore: str | None, dedupe: bool,
         calibrate_speed: float | None, test_thickness: float | None, test_quality: float | None) -> None:
