@@ -272,3 +272,25 @@ def test_infinite_integer_group_value(tmp_path):
     path.write_text(text)
     result = measure_file(str(path))
     assert result.ok or (result.error and not result.error.startswith("unexpected"))
+
+
+def test_entities_marked_invisible_are_not_measured(tmp_path):
+    # DXF reference, common group codes for entities: 60 = object visibility (0 visible, 1 invisible);
+    # CAD programs do not draw invisible entities (a dynamic block's hidden states), an invisible INSERT
+    # hides the whole block reference
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 4
+    msp = doc.modelspace()
+    msp.add_line((0, 0), (10, 0))
+    msp.add_line((0, 0), (0, 7)).dxf.invisible = 1
+    block = doc.blocks.new("STATES")
+    block.add_circle((0, 0), 1).dxf.invisible = 1
+    block.add_line((0, 0), (3, 0))
+    msp.add_blockref("STATES", (50, 50))
+    msp.add_blockref("STATES", (80, 80)).dxf.invisible = 1
+    path = tmp_path / "states.dxf"
+    doc.saveas(path)
+    entry = measure_file(str(path), MeasureSettings())
+    assert entry.ok and entry.length_mm == pytest.approx(10 + 3)
+    words = " ".join(entry.warnings)
+    assert "1 invisible LINE entity not measured" in words and "invisible INSERT" in words

@@ -115,6 +115,8 @@ class _Reader:
     def __init__(self, tags: TagTable, lay: Layout, hidden_layers: bool) -> None:
         self.tags = tags
         self.lay = lay
+        if np.any((tags.codes == 60) & (tags.number != 0) & (lay.owner >= 0)):
+            raise NotPlain("entities marked invisible (group 60)")  # ezdxf's reader leaves them out
         self.f = Fields(tags, lay.owner, len(lay.kinds))
         self.kinds = lay.kinds
         self.hidden = frozenset() if hidden_layers else self._hidden_layers()

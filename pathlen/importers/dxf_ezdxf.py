@@ -238,6 +238,9 @@ class _DxfImporter:
         if handler is None and kind != "INSERT":
             coll.skipped[kind] += 1
             return
+        if entity.dxf.get("invisible", 0):  # group 60: not drawn (a dynamic block's hidden state, say)
+            coll.skipped[f"invisible {kind}"] += 1
+            return
         try:
             if kind == "INSERT":
                 self.add_insert(entity, coll)  # type: ignore[arg-type]
