@@ -166,7 +166,8 @@ def _read_whole(path: Path) -> ezdxf.document.Drawing:
         text = raw.decode("utf-8")
     except UnicodeDecodeError:
         text = raw.decode("cp1252", errors="replace")
-    return ezdxf.read(io.StringIO(MINIMAL_HEADER + text.lstrip("\ufeff")))
+    text = text.lstrip("\ufeff").replace("\r\n", "\n")  # CRLF line ends, as ezdxf's file reader takes them
+    return ezdxf.read(io.StringIO(MINIMAL_HEADER + text))
 
 
 _HEADER_SECTION = re.compile(rb"(?m)^[ \t]*0[ \t]*\r?\n[ \t]*SECTION[ \t]*\r?\n"
