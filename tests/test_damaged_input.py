@@ -166,3 +166,22 @@ def test_struct_is_what_binary_dxf_truncation_raises():
     # guard for the test above: the reason must not depend on struct's message text
     with pytest.raises(struct.error):
         struct.unpack_from("<d", b"\x00")
+
+
+def test_an_insert_without_a_block_name_is_named_in_the_drawings_terms(tmp_path):
+    # DXF reference: INSERT group code 2 is the block name; without it the reference places nothing
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 4
+    doc.blocks.new("PART").add_line((0, 0), (5, 0))
+    msp = doc.modelspace()
+    msp.add_line((0, 0), (10, 0))
+    msp.add_blockref("PART", (20, 0))
+    path = tmp_path / "noname.dxf"
+    doc.saveas(path)
+    text = path.read_text()
+    at = text.index("\n  2\nPART\n", text.index("INSERT\n"))
+    path.write_text(text[:at] + text[at + len("\n  2\nPART"):])
+    result = measure_file(str(path))
+    assert result.ok and result.length_mm == pytest.approx(10.0)
+    assert any("names no block (group code 2 missing)" in w for w in result.warnings)
+    assert not any("NoneType" in w for w in result.warnings)

@@ -254,7 +254,10 @@ class _DxfImporter:
     def add_insert(self, insert: Insert, coll: SegmentCollector) -> None:
         """Place the block once per INSERT (a MINSERT as one placement with a grid); its geometry is
         read once per block name, never copied."""
-        name = insert.dxf.name
+        name = insert.dxf.get("name")
+        if not isinstance(name, str) or not name:
+            coll.warn(f"INSERT #{insert.dxf.handle} names no block (group code 2 missing): skipped")
+            return
         block = self.blocks.get(name, coll)
         if block is None:
             return
