@@ -253,3 +253,20 @@ def test_help_starts_without_numpy():
            "try:\n    main()\nexcept SystemExit:\n    pass\nprint('numpy' in sys.modules)"
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
     assert out.strip().splitlines()[-1] == "False"
+
+
+def test_tables_keep_numbers_whole_at_80_columns():
+    # a long file name folds; every number stays on one line
+    import io
+
+    from rich.console import Console
+
+    from pathlen.export import report_table
+
+    table = report_table("t", [("File", "left"), ("Length (mm)", "right"), ("Error bound (mm)", "right")])
+    table.add_row("/very/long/folder/name/that/goes/on/and/on/" * 3 + "part.dxf", "123,456,789.123", "± 1.2e-09")
+    buf = io.StringIO()
+    Console(file=buf, width=80, color_system=None).print(table)
+    text = buf.getvalue()
+    assert "123,456,789.123" in text and "± 1.2e-09" in text
+    assert max(len(line) for line in text.splitlines()) <= 80

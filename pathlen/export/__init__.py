@@ -33,9 +33,23 @@ def plain(text: object) -> str:
     return escape(str(text))
 
 
+class _NumbersWhole(Table):
+    """A table whose right-justified (number) columns are never narrower than their widest value:
+    on a narrow terminal the text columns (file names) fold instead."""
+
+    def __rich_console__(self, console: Console, options: Any) -> Any:
+        from rich.text import Text
+
+        for column in self.columns:
+            if column.justify == "right":
+                widest = max((Text.from_markup(str(c)).cell_len for c in column._cells), default=0)
+                column.min_width = max(column.min_width or 0, widest)
+        yield from super().__rich_console__(console, options)
+
+
 def report_table(title: str, columns: list[tuple[str, str]]) -> Table:
-    """A rich table with ``(head, "left" | "right")`` columns that fold long values."""
-    table = Table(title=title)
+    """A rich table with ``(head, "left" | "right")`` columns; long text folds, numbers stay whole."""
+    table = _NumbersWhole(title=title)
     for name, justify in columns:
         table.add_column(name, justify=justify, overflow="fold")  # type: ignore[arg-type]
     return table
