@@ -9,18 +9,21 @@ def runner() -> CliRunner:
 
 # ----- every DXF the suite reads is kept and read again by both readers at the end (test_dxf_readers.py)
 import hashlib  # noqa: E402
+import os  # noqa: E402
 import shutil  # noqa: E402
+import tempfile  # noqa: E402
 from pathlib import Path  # noqa: E402
 
 import pathlen.importers.dxf as dxf_module  # noqa: E402
 
-DXF_RECORD = Path(__file__).parent / ".dxf_seen"
+#: per test session (its process id), in the temporary folder: concurrent sessions never share it
+DXF_RECORD = Path(tempfile.gettempdir()) / f"pathlen-dxf-seen-{os.getpid()}"
 
 
 @pytest.fixture(autouse=True, scope="session")
 def record_dxf_files():
     """Wrap the DXF entry point so that each file read (in this process or a forked worker) is copied
-    to ``tests/.dxf_seen`` under its content hash."""
+    to :data:`DXF_RECORD` (a temporary folder of this session) under its content hash."""
     shutil.rmtree(DXF_RECORD, ignore_errors=True)
     DXF_RECORD.mkdir()
     original = dxf_module.read_dxf
@@ -36,6 +39,7 @@ def record_dxf_files():
     dxf_module.read_dxf = recording
     yield
     dxf_module.read_dxf = original
+    shutil.rmtree(DXF_RECORD, ignore_errors=True)
 
 
 def pytest_collection_modifyitems(config, items):
