@@ -14,31 +14,30 @@ def write_atomic(path: Path, text: str) -> None:
     """Write through a temporary file in the same folder, fsync, rename, fsync the folder: a reader
     sees the old file or the whole new one, never a part.  The file gets the usual permissions
     (0666 less the umask), not the temporary file's private ones."""
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
+    def fill(tmp: Path) -> None:
+        with open(tmp, "w", encoding="utf-8", newline="") as fh:
             fh.write(text)
             fh.flush()
             os.fsync(fh.fileno())
-        os.chmod(tmp, 0o666 & ~umask())
-        os.replace(tmp, path)
-    except BaseException:
-        with contextlib.suppress(OSError):
-            os.unlink(tmp)
-        raise
-    fsync_dir(path.parent)
+
+    _replace(path, fill, f".{path.name}.", ".tmp")
 
 
 def write_file_atomic(path: Path, write: Callable[[Path], None]) -> None:
     """``write(temporary_path)`` (a picture renderer, say), then the same rename as :func:`write_atomic`:
     the file appears whole or not at all.  The temporary file keeps the target's suffix, so a writer
     that picks the format by suffix picks the right one."""
+    _replace(path, write, f".{path.stem}.", f".tmp{path.suffix}")
+
+
+def _replace(path: Path, fill: Callable[[Path], None], prefix: str, suffix: str) -> None:
+    """Fill a new temporary file beside ``path``, give it the usual permissions, rename it over
+    ``path`` and fsync the folder; on any failure the temporary file goes."""
     path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.stem}.", suffix=f".tmp{path.suffix}")
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=prefix, suffix=suffix)
     os.close(fd)
     try:
-        write(Path(tmp))
+        fill(Path(tmp))
         os.chmod(tmp, 0o666 & ~umask())
         os.replace(tmp, path)
     except BaseException:
