@@ -188,8 +188,14 @@ def offset_length_change(polygon: shapely.Polygon, distance: float) -> float | N
 
 def outline_length(shape: shapely.Geometry) -> float:
     """Total length of the outer boundaries of a polygon or of the parts of a multipolygon (mm)."""
-    parts = shape.geoms if hasattr(shape, "geoms") else [shape]
-    return float(sum(g.exterior.length for g in parts if not g.is_empty))
+    return float(outline_lengths(np.array([shape], dtype=object))[0])
+
+
+def outline_lengths(shapes: np.ndarray) -> np.ndarray:
+    """:func:`outline_length` of every geometry of an array (mm)."""
+    parts, index = shapely.get_parts(shapes, return_index=True)
+    lengths = shapely.length(shapely.get_exterior_ring(parts)) if len(parts) else np.zeros(0)
+    return np.bincount(index, weights=lengths, minlength=len(shapes))
 
 
 def _signed_angle(a: np.ndarray, b: np.ndarray) -> np.ndarray:

@@ -17,7 +17,7 @@ from dataclasses import dataclass
 import numpy as np
 import shapely
 
-from pathlen.containment import OFFSET_QUAD_SEGS, steps_turning
+from pathlen.containment import OFFSET_QUAD_SEGS, outline_lengths, steps_turning
 from pathlen.contours import ContourSet
 from pathlen.estimates.kinematics import corner_speed, sequences_time
 from pathlen.geometry import FloatArray, IntArray
@@ -106,20 +106,13 @@ def kerf_changes(table: SegmentTable, contours: ContourSet, w: Walk, out: Outlin
     polys = out.polygon[k]
     moved = shapely.buffer(polys, outward[k], quad_segs=OFFSET_QUAD_SEGS, join_style="round")
     empty = shapely.is_empty(moved) & ~shapely.is_empty(polys)
-    rough = _outline_lengths(moved) - _outline_lengths(polys)
+    rough = outline_lengths(moved) - outline_lengths(polys)
     rough = np.where(shapely.is_empty(polys), 0.0, rough)
     allowed = 0.05 * np.abs(outward[k]) * (2 * math.pi + contours.size[k])
     differ = np.abs(exact[k] - rough) > allowed
     change[k] = np.where(empty, 0.0, np.where(differ, rough, exact[k]))
     trouble[k] = np.where(empty, TROUBLE.index("narrow"), np.where(differ, TROUBLE.index("rough"), 0))
     return change, trouble
-
-
-def _outline_lengths(shapes: np.ndarray) -> FloatArray:
-    """Per geometry, the total length of its polygons' exteriors (mm)."""
-    parts, index = shapely.get_parts(shapes, return_index=True)
-    lengths = shapely.length(shapely.get_exterior_ring(parts)) if len(parts) else np.zeros(0)
-    return np.bincount(index, weights=lengths, minlength=len(shapes))
 
 
 def _exact_changes(table: SegmentTable, contours: ContourSet, w: Walk, outward: FloatArray
