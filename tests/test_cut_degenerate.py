@@ -182,3 +182,16 @@ def test_stacks_and_stars_are_handled_in_reasonable_time(tmp_path, slow):
     assert any("999 segments drawn twice" in w for w in cut.warnings)
     once = estimate_file(str(path), CutSettings(slow, dedupe=True))
     assert once.closed == 1
+
+
+@pytest.mark.parametrize("ry", ["5e-324", "1e-200"])
+def test_svg_ellipse_with_a_denormal_radius_is_a_slit_cut_in_sensible_time(tmp_path, slow, ry):
+    # a 120 mm slit drawn as an ellipse with a vanishing radius: its tips are corners of the slit, so the
+    # time is about its 240 mm at the feed (3000 mm/min: 4.8 s), never minutes of crawling round a tip
+    path = tmp_path / "slit.svg"
+    path.write_text('<svg xmlns="http://www.w3.org/2000/svg" width="200mm" height="100mm" viewBox="0 0 200 100">'
+                    f'<ellipse cx="100" cy="50" rx="60" ry="{ry}" stroke="black" fill="none"/></svg>')
+    result = estimate_file(str(path), CutSettings(slow))
+    assert result.ok, result.error
+    moving = result.time_s["cutting"] + result.time_s["motion_losses"]
+    assert 240 / 50 <= moving <= 2 * 240 / 50 + 2.0
