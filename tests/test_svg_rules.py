@@ -161,3 +161,13 @@ def test_transform_on_a_symbol_applies_as_svg_2_says(tmp_path):
     # property apply to it.  pathlen follows SVG 2: the line of 5 is drawn scaled by 2.
     body = '<defs><symbol id="s" transform="scale(2)"><line x2="5"/></symbol></defs><use href="#s"/>'
     assert measure(tmp_path, body).length_mm == pytest.approx(10.0, rel=1e-14)
+
+
+def test_markers_on_a_path_as_on_the_polyline_it_draws(tmp_path):
+    # SVG 2, 11.6.1: path is a markable element; the same vertices drawn by a path and by a polyline carry
+    # the same markers (and the marker's content is no unused shape in <defs>)
+    as_path = MARKERS.replace('<polyline points="10,10 50,10 50,50"', '<path d="M10 10 L50 10 L50 50"')
+    a, b = measure(tmp_path, MARKERS), measure(tmp_path, as_path)
+    assert b.length_mm == pytest.approx(a.length_mm, rel=1e-12)
+    assert any("3 markers" in w for w in b.warnings)
+    assert not any("defs" in w for w in b.warnings)

@@ -672,6 +672,8 @@ class _Importer:
             self.add_entity(elem, tag, st)
             if len(self.canvas.paths) > MAX_SEGMENTS:
                 raise InputError(f"more than {MAX_SEGMENTS:,} paths after expanding <use>; file refused")
+            if st.markers != ("none", "none", "none"):
+                self.place_markers(elem, tag, st)
             return
         try:
             if tag == "line":
