@@ -175,15 +175,21 @@ def _measure_file(path: str, settings: MeasureSettings) -> FileResult:
 
 
 def hidden_note(drawing: Drawing, entity_length: np.ndarray) -> list[str]:
-    """A warning naming the layers switched off or frozen and the length left out on them (mm)."""
-    hidden = [i for i, e in enumerate(drawing.entities) if e.hidden]
-    if not hidden:
-        return []
-    names = sorted({drawing.entities[i].layer for i in hidden})
-    left_out = float(np.sum(entity_length[hidden]))
-    shown = ", ".join(repr(n) for n in names[:10]) + (f" and {len(names) - 10} more" if len(names) > 10 else "")
-    return [f"layer{'s' if len(names) > 1 else ''} {shown} off or frozen: {left_out:.3f} mm on "
-            f"{'them' if len(names) > 1 else 'it'} not measured (--hidden-layers includes them)"]
+    """Warnings naming the layers switched off or frozen and the length left out on them (mm), and
+    the length inside block references on frozen layers (hidden whatever their own layers)."""
+    out = []
+    frozen = [i for i, e in enumerate(drawing.entities) if e.hidden and e.frozen]
+    hidden = [i for i, e in enumerate(drawing.entities) if e.hidden and not e.frozen]
+    if hidden:
+        names = sorted({drawing.entities[i].layer for i in hidden})
+        left_out = float(np.sum(entity_length[hidden]))
+        shown = ", ".join(repr(n) for n in names[:10]) + (f" and {len(names) - 10} more" if len(names) > 10 else "")
+        out.append(f"layer{'s' if len(names) > 1 else ''} {shown} off or frozen: {left_out:.3f} mm on "
+                   f"{'them' if len(names) > 1 else 'it'} not measured (--hidden-layers includes them)")
+    if frozen:
+        out.append(f"{float(np.sum(entity_length[frozen])):.3f} mm inside block references on frozen layers not "
+                   "measured (a frozen INSERT hides its whole block; --hidden-layers includes it)")
+    return out
 
 
 def _totals_by(keys: list[str], length: np.ndarray, bound: np.ndarray, copies: list[int]) -> dict[str, LayerTotal]:

@@ -182,6 +182,9 @@ class Entity:
     #: closed in the file (a closed polyline, an SVG rect, polygon or path whose subpaths all end in Z):
     #: its segments chain among themselves into closed contours, whatever touches them
     loop: bool = False
+    #: inside a block reference on a frozen layer: hidden whatever its own layer (DXF: freezing an
+    #: INSERT's layer hides the whole reference; switching it off hides only its layer-0 content)
+    frozen: bool = False
 
 
 @dataclass(frozen=True)
@@ -287,18 +290,21 @@ class SegmentCollector:
     transformed as arrays in one step.
     """
 
-    def __init__(self, hidden_layers: frozenset[str] = frozenset()) -> None:
+    def __init__(self, hidden_layers: frozenset[str] = frozenset(), frozen_layers: frozenset[str] = frozenset()
+                 ) -> None:
         #: layers whose entities are marked hidden (final layer names, after a block's layer "0" is mapped)
         self.hidden_layers = hidden_layers
+        #: frozen layers (a subset of the hidden ones): a block placed on one is hidden whole
+        self.frozen_layers = frozen_layers
         self.entities: list[Entity] = []
         self.warnings: list[str] = []
         self.skipped: Counter[str] = Counter()
         self._lines: list[tuple] = []
         self._arcs: list[tuple] = []
         self._beziers: dict[int, list[tuple]] = {}
-        #: placements grouped by key: (definition, matrices, layer_of, handle prefix, grid)
+        #: placements grouped by key: (definition, matrices, layer_of, handle prefix, grid, colour, hidden whole)
         self._placed: dict[object, tuple[Drawing, list[FloatArray], Callable[[str], str], str, tuple | None,
-                                         str | None]] = {}
+                                         str | None, bool]] = {}
 
     def entity(self, layer: str, handle: str, kind: str) -> int:
         self.entities.append(Entity(layer, handle, kind, hidden=layer in self.hidden_layers))
@@ -330,7 +336,7 @@ class SegmentCollector:
 
     def add_placement(self, sub: Drawing, m: FloatArray, key: object, layer_of: Callable[[str], str],
                       handle_prefix: str, grid: tuple[int, int, FloatArray, FloatArray] | None = None,
-                      color: str | None = None) -> None:
+                      color: str | None = None, frozen: bool = False) -> None:
         """Place ``sub`` under the affine map ``m`` (4x4), without copying its segments.
 
         Placements with one ``key`` (the same definition and inherited layer, say) share entity
@@ -343,7 +349,7 @@ class SegmentCollector:
             key = (key, len(self._placed))
         entry = self._placed.get(key)
         if entry is None:
-            self._placed[key] = (sub, [m], layer_of, handle_prefix, grid, color)
+            self._placed[key] = (sub, [m], layer_of, handle_prefix, grid, color, frozen)
             self.warn(*sub.warnings)
             self.skipped.update(sub.skipped)
         else:
@@ -357,17 +363,18 @@ class SegmentCollector:
 
     def drawing(self) -> Drawing:
         placements = []
-        for sub, matrices, layer_of, prefix, grid, color in self._placed.values():
+        for sub, matrices, layer_of, prefix, grid, color, frozen in self._placed.values():
             base = len(self.entities)
             p = Placement(sub, np.array(matrices, dtype=float).reshape(-1, 4, 4),
                           np.arange(base, base + len(sub.entities), dtype=np.int64), grid)
             n = p.copies()
             self.entities.extend(Entity(layer_of(e.layer), prefix + e.handle, e.kind,
-                                        e.color if color is None else color, e.copies * n, loop=e.loop)
+                                        e.color if color is None else color, e.copies * n, loop=e.loop,
+                                        frozen=frozen or e.frozen)
                                  for e in sub.entities)
             if self.hidden_layers:
                 for e in self.entities[base:]:
-                    e.hidden = e.layer in self.hidden_layers
+                    e.hidden = e.frozen or e.layer in self.hidden_layers
             placements.append(p)
         return Drawing(
             lines=_lines_from(self._lines),

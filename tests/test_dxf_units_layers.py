@@ -94,3 +94,27 @@ def test_library_log_lines_become_warnings(tmp_path, capfd):
     assert any(w.startswith("DXF reader: ") and "outside a SECTION" in w for w in result.warnings)
     captured = capfd.readouterr()
     assert "outside a SECTION" not in captured.err
+
+
+def test_a_frozen_insert_hides_its_whole_block_an_off_one_its_layer_0_content(tmp_path):
+    # DXF reference and CAD practice: entities of a block on layer 0 take the INSERT's layer; freezing
+    # the INSERT's layer hides the whole reference, switching it off hides only what is drawn on it
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 4
+    doc.layers.add("FROZEN").freeze()
+    doc.layers.add("OFF").off()
+    doc.layers.add("PARTS")
+    block = doc.blocks.new("B")
+    block.add_line((0, 0), (10, 0), dxfattribs={"layer": "0"})
+    block.add_line((0, 0), (0, 7), dxfattribs={"layer": "PARTS"})
+    msp = doc.modelspace()
+    msp.add_blockref("B", (0, 0), dxfattribs={"layer": "FROZEN"})
+    msp.add_blockref("B", (50, 0), dxfattribs={"layer": "OFF"})
+    msp.add_blockref("B", (100, 0), dxfattribs={"layer": "PARTS"})
+    path = tmp_path / "frozen.dxf"
+    doc.saveas(path)
+    result = measure_file(str(path))
+    assert result.length_mm == pytest.approx(7 + 17)
+    assert any("inside block references on frozen layers" in w and "17.000 mm" in w for w in result.warnings)
+    everything = measure_file(str(path), MeasureSettings(import_options=ImportOptions(hidden_layers=True)))
+    assert everything.length_mm == pytest.approx(3 * 17)

@@ -51,4 +51,5 @@ def place_insert(coll: SegmentCollector, block: Drawing, matrix: FloatArray, nam
     if not np.all(np.isfinite(matrix)):
         coll.warn(f"INSERT #{handle} of block {name!r} skipped: non-finite insertion point, scale or rotation")
         return
-    coll.add_placement(block, matrix, (name, layer), lambda lay: layer if lay == "0" else lay, f"{name}/", grid)
+    coll.add_placement(block, matrix, (name, layer), lambda lay: layer if lay == "0" else lay, f"{name}/", grid,
+                       frozen=layer in coll.frozen_layers)

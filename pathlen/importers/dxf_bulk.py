@@ -119,7 +119,7 @@ class _Reader:
             raise NotPlain("entities marked invisible (group 60)")  # ezdxf's reader leaves them out
         self.f = Fields(tags, lay.owner, len(lay.kinds))
         self.kinds = lay.kinds
-        self.hidden = frozenset() if hidden_layers else self._hidden_layers()
+        self.hidden, self.frozen = (frozenset(), frozenset()) if hidden_layers else self._hidden_layers()
         self.insunits = self._insunits()
         self.spaces = self._spaces()
         self.block_index = {b.name.lower(): k for k, b in enumerate(lay.blocks)}
@@ -131,15 +131,16 @@ class _Reader:
         del self.tags, self.f  # the tag table is not needed to assemble the drawing: free it first
 
     # ----- tables and header -------------------------------------------------------------------
-    def _hidden_layers(self) -> frozenset[str]:
+    def _hidden_layers(self) -> tuple[frozenset[str], frozenset[str]]:
+        """Layers switched off or frozen, and the frozen ones (as the ezdxf reader's)."""
         entries = np.array(self.lay.layer_entries, dtype=np.int64)
         names = self.f.text(2, entries, "")
         if len({n.lower() for n in names}) != len(names) or "" in names:
             raise NotPlain("layer table with a nameless or repeated layer")
         colour = self.f.integer(62, entries, 7)
         flags = self.f.integer(70, entries, 0)
-        return frozenset(n for n, c, fl in zip(names, colour.tolist(), flags.tolist(), strict=True)
-                         if c < 0 or fl & 1)
+        rows = list(zip(names, colour.tolist(), flags.tolist(), strict=True))
+        return frozenset(n for n, c, fl in rows if c < 0 or fl & 1), frozenset(n for n, _, fl in rows if fl & 1)
 
     def _insunits(self) -> int:
         codes = self.tags.codes
@@ -428,7 +429,7 @@ class _Reader:
     def _space_drawing(self, space: int) -> Drawing:
         """One space as the ezdxf reader's SegmentCollector would leave it."""
         ents = self.spaces[space]
-        coll = SegmentCollector(self.hidden)
+        coll = SegmentCollector(self.hidden, self.frozen)
         kinds = self.kinds
         rows: list[int] = []
         position = np.searchsorted(self.row_entities, ents).tolist()  # where measured entities sit among rows

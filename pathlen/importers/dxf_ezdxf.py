@@ -69,9 +69,9 @@ def dxf_drawing(loaded: LoadedDxf, drawing_units: str | None = None, hidden_laye
     """The model space of a loaded document as a Drawing in millimetres (see :func:`read_dxf`)."""
     doc = loaded.doc
     with _LogCapture() as log:
-        hidden = frozenset() if hidden_layers else _hidden_layers(doc)
-        importer = _DxfImporter(doc, hidden)
-        coll = SegmentCollector(hidden)
+        hidden, frozen = (frozenset(), frozenset()) if hidden_layers else _hidden_layers(doc)
+        importer = _DxfImporter(doc, hidden, frozen)
+        coll = SegmentCollector(hidden, frozen)
         coll.warn(*loaded.notes)
         for entity in doc.modelspace():
             importer.add(entity, coll)
@@ -203,17 +203,19 @@ def _first_line(exc: BaseException) -> str:
     return text[0][:200] if text else type(exc).__name__
 
 
-def _hidden_layers(doc: ezdxf.document.Drawing) -> frozenset[str]:
-    """Layers switched off or frozen in the layer table (DXF reference, LAYER: negative colour = off,
-    flag 1 = frozen)."""
-    out = set()
+def _hidden_layers(doc: ezdxf.document.Drawing) -> tuple[frozenset[str], frozenset[str]]:
+    """Layers switched off or frozen in the layer table, and the frozen ones (DXF reference, LAYER:
+    negative colour = off, flag 1 = frozen)."""
+    out, frozen = set(), set()
     for layer in doc.layers:
         try:
             if layer.is_off() or layer.is_frozen():
                 out.add(layer.dxf.name)
+            if layer.is_frozen():
+                frozen.add(layer.dxf.name)
         except (AttributeError, ValueError, TypeError):
             continue
-    return frozenset(out)
+    return frozenset(out), frozenset(frozen)
 
 
 def drawing_unit(doc: ezdxf.document.Drawing, drawing_units: str | None = None) -> tuple[str, str | None]:
@@ -227,9 +229,11 @@ def drawing_unit(doc: ezdxf.document.Drawing, drawing_units: str | None = None) 
 class _DxfImporter:
     """Walks entities, caching each block's geometry by name."""
 
-    def __init__(self, doc: ezdxf.document.Drawing, hidden: frozenset[str] = frozenset()) -> None:
+    def __init__(self, doc: ezdxf.document.Drawing, hidden: frozenset[str] = frozenset(),
+                 frozen: frozenset[str] = frozenset()) -> None:
         self.doc = doc
         self.hidden = hidden
+        self.frozen = frozen
         self.blocks = BlockCache(self._build_block)
 
     def add(self, entity: DXFGraphic, coll: SegmentCollector) -> None:
@@ -268,7 +272,7 @@ class _DxfImporter:
         layout = self.doc.blocks.get(name)
         if layout is None:
             return None
-        sub = SegmentCollector(self.hidden)
+        sub = SegmentCollector(self.hidden, self.frozen)
         for entity in layout:
             self.add(entity, sub)
         return sub.drawing()
