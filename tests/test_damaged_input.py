@@ -185,3 +185,19 @@ def test_an_insert_without_a_block_name_is_named_in_the_drawings_terms(tmp_path)
     assert result.ok and result.length_mm == pytest.approx(10.0)
     assert any("names no block (group code 2 missing)" in w for w in result.warnings)
     assert not any("NoneType" in w for w in result.warnings)
+
+
+@pytest.mark.parametrize(("edit", "words"), [
+    (lambda t: t.replace("12.5\n", "12,5\n"), "numbers written with decimal commas (line"),
+    (lambda t: t.replace(" 10\n0.0\n 20\n0.0\n", " 20\n0.0\n 10\n0.0\n", 1), "coordinates are missing or out of order"),
+])
+def test_damage_is_named_by_what_was_found(tmp_path, edit, words):
+    # DXF reference: numbers use a decimal point; a point's x, y, z are group codes 10, 20, 30 in order
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 4
+    doc.modelspace().add_line((0, 0), (12.5, 3.25))
+    path = tmp_path / "line.dxf"
+    doc.saveas(path)
+    path.write_text(edit(path.read_text()))
+    result = measure_file(str(path))
+    assert not result.ok and words in result.error and "truncated" not in result.error

@@ -137,7 +137,7 @@ def _load(path: Path, recover: bool) -> tuple[ezdxf.document.Drawing, list[str],
             raise InputError(f"cannot read file: {exc.strerror}") from None
         raise InputError("not a DXF file (no DXF structure found)") from None
     except _UNREADABLE as exc:
-        damage = _plain_reason(exc)
+        damage = _plain_reason(exc, path)
     if damage is None:
         return doc, [], False
     if not recover:
@@ -186,16 +186,41 @@ def _damage(doc: ezdxf.document.Drawing) -> str | None:
     return None
 
 
-def _plain_reason(exc: BaseException) -> str:
-    """ezdxf's reason for refusing a file, in words a shop user can act on."""
+def _plain_reason(exc: BaseException, path: Path | None = None) -> str:
+    """ezdxf's reason for refusing a file, in words a shop user can act on (``path``: the file, to
+    say what was found there)."""
     if isinstance(exc, StopIteration | EOFError | struct.error):
         return "the file ends early (truncated?)"
     if isinstance(exc, UnicodeError):
         return "text in an encoding that cannot be decoded"
     if isinstance(exc, DXFError):
         text = _first_line(exc).removeprefix(f"{type(exc).__name__}: ").rstrip(".")
+        where = re.search(r"line:? *(\d+)", text)
+        at = f" near line {where.group(1)}" if where else ""
+        if "invalid floating point" in text.lower() and path is not None:
+            comma = _decimal_comma(path)
+            if comma is not None:
+                return (f"numbers written with decimal commas (line {comma[0]}: {comma[1]!r}); DXF numbers use a "
+                        "decimal point")
+        if "missing required" in text.lower() and "coordinate" in text.lower():
+            return (f"a point's coordinates are missing or out of order{at} (x, y and z are group codes 10, "
+                    "20, 30 in that order)")
         return text + ("; file truncated?" if "missing" in text.lower() or "EOF" in text else "")
     return "not a DXF structure that can be read (truncated or damaged?)"
+
+
+def _decimal_comma(path: Path) -> tuple[int, str] | None:
+    """The first value (line number from 1, text) after a coordinate group code that is a number with a
+    decimal comma, such as ``12,5``."""
+    try:
+        lines = path.read_bytes()[:50_000_000].decode("latin-1").splitlines()
+    except OSError:
+        return None
+    for k in range(0, len(lines) - 1):
+        code = lines[k].strip()
+        if code.isdigit() and 10 <= int(code) <= 59 and re.fullmatch(r"\s*[-+]?\d+,\d+\s*", lines[k + 1]):
+            return k + 2, lines[k + 1].strip()
+    return None
 
 
 def _first_line(exc: BaseException) -> str:
