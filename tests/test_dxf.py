@@ -294,3 +294,25 @@ def test_entities_marked_invisible_are_not_measured(tmp_path):
     assert entry.ok and entry.length_mm == pytest.approx(10 + 3)
     words = " ".join(entry.warnings)
     assert "1 invisible LINE entity not measured" in words and "invisible INSERT" in words
+
+
+def test_mline_and_helix_are_measured(tmp_path):
+    # MLINE: the lines of its elements as ezdxf (a general-purpose DXF library) draws them; HELIX: the
+    # spline it carries, against the classical helix length n·√((2πr)² + p²) (the spline approximates it)
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 4
+    msp = doc.modelspace()
+    mline = msp.add_mline([(0, 0), (10, 0), (10, 10)])
+    reference = sum(v.dxf.start.distance(v.dxf.end) for v in mline.virtual_entities())
+    path = tmp_path / "mline.dxf"
+    doc.saveas(path)
+    got = measure_file(str(path))
+    assert got.ok and got.length_mm == pytest.approx(reference, rel=1e-12)
+    assert not any("MLINE" in w for w in got.warnings)
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 4
+    doc.modelspace().add_helix(5, 2, 3)
+    path = tmp_path / "helix.dxf"
+    doc.saveas(path)
+    got = measure_file(str(path))
+    assert got.ok and got.length_mm == pytest.approx(3 * math.sqrt((2 * math.pi * 5) ** 2 + 2**2), rel=1e-3)

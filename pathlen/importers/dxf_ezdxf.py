@@ -330,7 +330,7 @@ def _line(e: DXFGraphic, coll: SegmentCollector) -> None:
     coll.add_line(e.dxf.start.xyz, e.dxf.end.xyz, _entity(e, coll))
 
 
-def _circle_arc(e: DXFGraphic, coll: SegmentCollector, t0: float, t1: float) -> None:
+def _circle_arc(e: DXFGraphic, coll: SegmentCollector, t0: float, t1: float, ent: int | None = None) -> None:
     r = float(e.dxf.radius)
     if not r > 0:
         raise ValueError(f"radius {r} is not positive")
@@ -338,19 +338,37 @@ def _circle_arc(e: DXFGraphic, coll: SegmentCollector, t0: float, t1: float) -> 
     center = ocs.to_wcs(e.dxf.center).xyz
     u = (ocs.to_wcs((r, 0, 0))).xyz
     v = (ocs.to_wcs((0, r, 0))).xyz
-    coll.add_arc(center, u, v, t0, t1, _entity(e, coll))
+    coll.add_arc(center, u, v, t0, t1, _entity(e, coll) if ent is None else ent)
 
 
 def _circle(e: DXFGraphic, coll: SegmentCollector) -> None:
     _circle_arc(e, coll, 0.0, TWO_PI)
 
 
-def _arc(e: DXFGraphic, coll: SegmentCollector) -> None:
+def _arc(e: DXFGraphic, coll: SegmentCollector, ent: int | None = None) -> None:
     t0 = math.radians(e.dxf.start_angle) % TWO_PI
     t1 = math.radians(e.dxf.end_angle) % TWO_PI
     if t1 <= t0:
         t1 += TWO_PI
-    _circle_arc(e, coll, t0, t1)
+    _circle_arc(e, coll, t0, t1, ent)
+
+
+def _mline(e: DXFGraphic, coll: SegmentCollector) -> None:
+    """An MLINE as the lines of its elements and its end-cap arcs, as ezdxf draws them (its virtual
+    entities), all one entity."""
+    parts = list(e.virtual_entities())  # type: ignore[attr-defined]
+    if not parts:
+        coll.warn(f"MLINE #{e.dxf.handle} has no elements to draw: nothing to measure")
+        return
+    ent = _entity(e, coll)
+    for part in parts:
+        kind = part.dxftype()
+        if kind == "LINE":
+            coll.add_line(part.dxf.start.xyz, part.dxf.end.xyz, ent)
+        elif kind == "ARC":
+            _arc(part, coll, ent)
+        else:
+            coll.skipped[f"MLINE {kind}"] += 1
 
 
 def _ellipse(e: DXFGraphic, coll: SegmentCollector) -> None:
@@ -457,4 +475,6 @@ HANDLERS: dict[str, Callable[[DXFGraphic, SegmentCollector], None]] = {
     "LWPOLYLINE": _lwpolyline,
     "POLYLINE": _polyline,
     "SPLINE": _spline,
+    "HELIX": _spline,  # a helix carries its spline (DXF reference, HELIX: a SPLINE subclass)
+    "MLINE": _mline,
 }
