@@ -131,3 +131,25 @@ def test_a_report_that_cannot_be_written_keeps_the_answer(runner, tmp_path, monk
     assert res.exit_code == 1
     assert json.loads(res.stdout)["files"][0]["ok"]
     assert "No space left on device" in res.stderr and "Traceback" not in res.output
+
+
+def test_cut_report_shows_every_charge_and_they_add_up(runner, tmp_path):
+    # money people sign: machine, consumables, setup and the minimum charge each on its own line, summing
+    # to the total, with the price per part
+    import re
+
+    page = tmp_path / "cut.html"
+    res = runner.invoke(main, ["cut", str(FIXTURES / "kl101_bracket.dxf"), "--profile", "steel-3mm-laser", "-q", "3",
+                               "--report", str(page), "--format", "json"])
+    assert res.exit_code == 0, res.output
+    cost = json.loads(res.stdout)["total"]["cost"]
+    html = page.read_text()
+    shown = {}
+    for label in ("Machine", "Consumables", "Setup, once", "Minimum charge", "Total", "Per part, 3 parts"):
+        m = re.search(re.escape(label) + r" \([^)]*\)<b>([0-9,.]+)</b>", html)
+        assert m, label
+        shown[label] = float(m.group(1).replace(",", ""))
+    assert shown["Total"] == pytest.approx(cost["total"], abs=0.005)
+    parts = shown["Machine"] + shown["Consumables"] + shown["Setup, once"] + shown["Minimum charge"]
+    assert parts == pytest.approx(shown["Total"], abs=0.02)  # rounded to cents each
+    assert shown["Per part, 3 parts"] == pytest.approx(cost["total"] / 3, abs=0.005)

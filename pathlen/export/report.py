@@ -98,13 +98,17 @@ def _cut(doc: dict[str, Any]) -> tuple[str, list[tuple[str, str]], list[tuple[st
     u, t = doc["units"], doc["total"]
     money = doc["profile"].get("currency") or "money"
     c = t["cost"]
+    parts = t.get("quantity") or 0
     totals = [("Machine time", clock(t["time_s"]["total"])),
-              (f"Cutting ({money})", f"{c['machine'] + c['consumables']:,.2f}"),
+              (f"Machine ({money})", f"{c['machine']:,.2f}"),
+              (f"Consumables ({money})", f"{c['consumables']:,.2f}"),
               (f"Setup, once ({money})", f"{c['setup']:,.2f}"),
               (f"Minimum charge ({money})", f"{c['minimum_charge']:,.2f}"),
-              (f"Total ({money})", f"{c['total']:,.2f}"),
-              ("Cut length", f"{t['cut_length']:,.1f} {u}"), ("Pierces", str(t["pierces"])),
-              ("Profile", doc["profile"]["name"])]
+              (f"Total ({money})", f"{c['total']:,.2f}")]
+    if parts:
+        totals.append((f"Per part, {parts} parts ({money})", f"{c['total'] / parts:,.2f}"))
+    totals += [("Cut length", f"{t['cut_length']:,.1f} {u}"), ("Pierces", str(t["pierces"])),
+               ("Profile", doc["profile"]["name"])]
     cols = [("Quantity", 0), ("Closed contours", 0), ("Open contours", 0), ("Pierces", 0), (f"Cut ({u})", 1),
             (f"Rapid ({u})", 1), ("Time (h:mm:ss)", None), (f"Cost ({money})", 2)]
 
