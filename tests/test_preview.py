@@ -123,3 +123,26 @@ def test_layers_off_are_ghosted_not_measured(runner, tmp_path):
     assert 'class="ghost"' in svg and "not measured (layer off or frozen)" in svg
     back = json.loads(runner.invoke(main, ["measure", str(out), "--format", "json"]).stdout)["files"][0]
     assert back["layers"]["measured"]["length"] == pytest.approx(2 * math.pi * 10, rel=1e-8)  # the circle only
+
+
+def test_preview_heading_legend_and_wrapped_notes(runner, tmp_path):
+    # the picture says what it shows: file, measured length and contours; a legend line for each thing
+    # drawn besides the paths (pierce order with --profile); notes wrap inside the picture
+    import re
+
+    out = tmp_path / "sign.svg"
+    res = runner.invoke(main, ["preview", str(FIXTURES / "kl330_sign_panel.dxf"), "-o", str(out), "--profile",
+                               "steel-3mm-laser"])
+    assert res.exit_code == 0, res.output
+    svg = out.read_text()
+    heading = re.search(r'class="heading"[^>]*>([^<]+)<', svg).group(1)
+    measured = json.loads(runner.invoke(main, ["measure", str(FIXTURES / "kl330_sign_panel.dxf"), "--format",
+                                               "json"]).stdout)["files"][0]
+    assert "kl330_sign_panel.dxf" in heading and f"{measured['length']:,.3f} mm" in heading
+    assert f"{measured['contours']['closed']} closed" in heading
+    assert "pierce order (numbers) and rapid moves (dashed)" in svg
+    import html
+
+    notes = [html.unescape(n) for n in re.findall(r'fill="#777777">([^<]+)<', svg)]
+    assert len(notes) >= 2 and "which may differ from the drawing program's" in " ".join(notes)  # wrapped, whole
+    assert max(len(n) for n in notes) < len(" ".join(notes))

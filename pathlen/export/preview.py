@@ -10,7 +10,9 @@ down: the picture keeps each drawing's orientation.
 
 from __future__ import annotations
 
+import datetime
 import math
+import textwrap
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -59,6 +61,8 @@ class Scene:
     side_notes: list[str] = field(default_factory=list)
     #: kinds of our own (kind -> (colour, legend label)), drawn in this order instead of the contour kinds
     styles: dict[str, tuple[str, str]] | None = None
+    #: the line above the picture: file, what was measured, date
+    heading: str = ""
 
     def path_kinds(self) -> tuple[str, ...]:
         return tuple(self.styles) if self.styles else PATH_KINDS
@@ -67,10 +71,17 @@ class Scene:
         return self.styles[kind][0] if self.styles else COLOURS[kind]
 
     def legend(self) -> list[tuple[str, str]]:
-        """(colour, label) per legend line."""
-        if self.styles:
-            return list(self.styles.values())
-        return [(COLOURS[k], label) for k, label in LABELS.items()]
+        """(colour, label) per legend line: the path kinds, then whatever else the picture shows."""
+        base = list(self.styles.values()) if self.styles else [(COLOURS[k], label) for k, label in LABELS.items()]
+        if len(self.pierces):
+            base.append((COLOURS["mark"], "pierce order (numbers) and rapid moves (dashed)"))
+        if self.sew_lines:
+            base.append((COLOURS["sew"], "sew line (dashed), computed from the cut line"))
+        if self.ticks:
+            base.append((COLOURS["gap"], "notch (a tick across the line)"))
+        if self.labels:
+            base.append((COLOURS["gap"], "seam edge PIECE:NUMBER, as pathlen seam numbers them"))
+        return base
 
 
 def build_scene(drawing: Drawing, title: str, y_down: bool, join_tol: float = DEFAULT_JOIN_TOL_MM,
@@ -97,6 +108,10 @@ def build_scene(drawing: Drawing, title: str, y_down: bool, join_tol: float = DE
     scene = Scene(segment_paths(drawing), segment_cubics(drawing), list(kind), starts, arrows,
                   [(float(m[0]), float(m[1]), float(w)) for m, w in zip(middle, width, strict=True)], box, y_down,
                   list(drawing.warnings), title)
+    shown = np.array([k != "ghost" for k in kind], dtype=bool)
+    closed = int(contours.closed.sum())
+    scene.heading = (f"{title}: {float(table.length[shown].sum()):,.3f} mm measured, {closed} closed and "
+                     f"{len(contours) - closed} open contours, {datetime.date.today().isoformat()}")
     if cut_order and len(contours):
         from pathlen.containment import nesting_depth
         from pathlen.estimates.tour import plan_tour
@@ -140,8 +155,11 @@ def scene_svg(s: Scene) -> str:
     margin = 0.06 * max(w, h) + 2.0
     text = max(w, h) / 60.0 + 1.0
     legend = s.legend()
-    legend_h = text * 1.6 * (len(legend) + min(len(s.notes), 6) + len(s.side_notes) + 1)
-    width, height = w + 2 * margin, h + 2 * margin + legend_h
+    width = w + 2 * margin
+    chars = max(40, int((width - 2 * margin) / (0.55 * text)))  # a note wraps within the picture
+    notes = [line for note in s.notes[:6] for line in textwrap.wrap(f"note: {note}", chars)[:3]]
+    legend_h = text * 1.6 * (len(legend) + len(notes) + len(s.side_notes) + 1)
+    height = h + 2 * margin + legend_h
     stroke = max(w, h) / 800.0 + 0.05
     # drawing coordinates -> picture: y up (DXF) is flipped so that it reads as drawn
     flip = f"matrix(1 0 0 -1 {margin - x0:.6f} {margin + y1:.6f})" if not s.y_down else \
@@ -204,16 +222,19 @@ def scene_svg(s: Scene) -> str:
     out.append(f'<rect x="{margin:.4f}" y="{by:.4f}" width="{bar:.6f}" height="{text * 0.3:.4f}" fill="#222222"/>')
     out.append(f'<text x="{margin + bar + text * 0.5:.4f}" y="{by + text * 0.35:.4f}">{bar:g} mm</text>')
     out.append(f'<text x="{width - margin:.4f}" y="{margin * 0.6:.4f}" text-anchor="end">{w:.1f} x {h:.1f} mm</text>')
+    if s.heading:
+        out.append(f'<text class="heading" x="{margin:.4f}" y="{margin * 0.6:.4f}" font-weight="bold">'
+                   f'{escape(s.heading[:chars])}</text>')
     for k, (colour, label) in enumerate(legend):
         y = by + text * 1.6 * (k + 1.5)
         out.append(f'<rect x="{margin:.4f}" y="{y - text * 0.7:.4f}" width="{text * 1.5:.4f}" '
                    f'height="{text * 0.6:.4f}" fill="{colour}"/>'
                    f'<text x="{margin + text * 2:.4f}" y="{y:.4f}">{escape(label)}</text>')
-    for k, note in enumerate(s.notes[:6]):
+    for k, note in enumerate(notes):
         y = by + text * 1.6 * (len(legend) + k + 1.5)
-        out.append(f'<text x="{margin:.4f}" y="{y:.4f}" fill="#777777">note: {escape(note[:120])}</text>')
+        out.append(f'<text x="{margin:.4f}" y="{y:.4f}" fill="#777777">{escape(note)}</text>')
     for k, line in enumerate(s.side_notes):
-        y = by + text * 1.6 * (len(legend) + min(len(s.notes), 6) + k + 1.5)
+        y = by + text * 1.6 * (len(legend) + len(notes) + k + 1.5)
         out.append(f'<text class="match" x="{margin:.4f}" y="{y:.4f}">{escape(line[:160])}</text>')
     out.append("</g></svg>")
     return "\n".join(out) + "\n"
@@ -282,12 +303,22 @@ def render_raster(s: Scene, path: Path, dpi: float = 150.0) -> None:
     for k, line in enumerate(s.side_notes):
         fig.text(0.45, (band - 0.25 - 0.12 * k) / (tall + band), line[:90], fontsize=6, color="#222222")
     bar = nice_length(w)
-    fig.text(0.02, 0.02, f"scale bar: {bar:g} mm  |  extents {w:.1f} x {h:.1f} mm", fontsize=7)
-    for k, note in enumerate(s.notes[:4]):
-        fig.text(0.02, 0.05 + 0.025 * k, f"note: {note[:60]}", fontsize=6, color="#777777")
-    ax.plot([x0, x0 + bar], [y0 - margin * 0.5] * 2 if not s.y_down else [y1 + margin * 0.5] * 2,
-            color="#222222", linewidth=2)
+    fig.text(0.02, 0.08 / (tall + band), f"extents {w:.1f} x {h:.1f} mm", fontsize=7)
+    width_in = (w + 2 * margin) * scale / 25.4
+    lines = [line for note in s.notes[:4] for line in textwrap.wrap(f"note: {note}", max(40, int(width_in * 10)))[:2]]
+    for k, line in enumerate(lines):
+        fig.text(0.02, (0.3 + 0.11 * k) / (tall + band), line, fontsize=6, color="#777777")
+    bar_y = y0 - margin * 0.5 if not s.y_down else y1 + margin * 0.5
+    ax.plot([x0, x0 + bar], [bar_y] * 2, color="#222222", linewidth=2)
+    ax.annotate(f"{bar:g} mm", (x0 + bar, bar_y), textcoords="offset points", xytext=(4, 0), va="center",
+                fontsize=7, color="#222222")
+    from matplotlib.lines import Line2D
+
     handles = [h_ for h_ in ax.patches if h_.get_label() and not h_.get_label().startswith("_")]
+    extras = s.legend()[len(s.styles) if s.styles else len(LABELS):]  # what is shown beside the paths
+    handles += [Line2D([], [], color=colour, label=label) for colour, label in extras]
     if handles:
         fig.legend(handles=handles, loc="lower right", bbox_to_anchor=(0.98, 0.06), fontsize=7, frameon=False)
+    if s.heading:
+        fig.suptitle(s.heading, fontsize=8, x=0.02, ha="left")
     fig.savefig(path, dpi=dpi, facecolor="white")
