@@ -49,7 +49,9 @@ def test_report_in_a_browser_shows_the_json_numbers_and_hostile_names_as_text(re
     dom = browse(page, "--dump-dom")
     assert dom.returncode == 0, dom.stderr[-2000:]
     html = dom.stdout
-    assert html.count("<h2>") == len(doc["files"])  # a section per file
+    assert html.count("<h2>") == len(doc["files"]) + 1  # the whole job's table, then a section per file
+    job = html.split('class="sortable job"')[1].split("</table>")[0]
+    assert all(Path(f["path"]).name.replace("&", "&amp;").replace("<", "&lt;") in job for f in doc["files"])
     shown = [float(v) for v in re.findall(r'data-v="([^"]+)"', html)]
     for f in doc["files"]:
         for layer in f["layers"].values():

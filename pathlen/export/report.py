@@ -37,11 +37,11 @@ td.n, th.n { text-align: right; font-variant-numeric: tabular-nums; }
 .warn { color: #8a5a00; font-size: .8rem; margin: .2rem 0; }
 .caution { border: 1px solid #b01030; padding: .5rem .8rem; margin: 1.2rem 0; font-size: .85rem; }
 details.pic { margin: .5rem 0; } details.pic summary { list-style: none; cursor: zoom-in; }
-details.pic summary svg { width: 14rem; height: auto; border: 1px solid var(--line); }
+details.pic summary svg { width: 24rem; max-width: 100%; height: auto; border: 1px solid var(--line); }
 details.pic[open] summary svg { width: 100%; }
 .figure svg { width: 100%; height: auto; border: 1px solid var(--line); }
 @media print { @page { size: A4; margin: 14mm; } body { max-width: none; padding: 0; }
-  details.pic summary svg { width: 9rem; } th { cursor: default; } h2 { break-after: avoid; } }
+  details.pic summary svg { width: 12rem; } th { cursor: default; } h2 { break-after: avoid; } }
 """
 
 SORTER = """
@@ -205,6 +205,7 @@ def render_report(doc: dict[str, Any], pictures: dict[str, str] | None = None,
              f"<h1>{escape(title)}</h1>", f'<p class="sub">pathlen report, {len(doc["files"])} files</p>',
              '<div class="totals">' + "".join(f"<div>{escape(k)}<b>{escape(v)}</b></div>" for k, v in totals)
              + "</div>"]
+    parts.append(_job_table(doc, cols, rows))
     for f in doc["files"]:
         parts.append(f"<h2>{escape(f['path'])}</h2>")
         if not f["ok"]:
@@ -228,6 +229,24 @@ def render_report(doc: dict[str, Any], pictures: dict[str, str] | None = None,
         parts.append(f'<p class="caution">{escape(c)}</p>')
     parts.append(f"<script>{SORTER}</script></body></html>")
     return "\n".join(parts) + "\n"
+
+
+def _job_table(doc: dict[str, Any], cols: list[tuple[str, int | None]],
+               rows: Callable[[dict[str, Any]], list[list[Any]]]) -> str:
+    """The whole job in one sortable table: every file's rows, the file named in the first column."""
+    head = '<th class="">File</th>' + "".join(f'<th class="{"n" if d is not None else ""}">{escape(c)}</th>'
+                                            for c, d in cols)
+    body = []
+    for f in doc["files"]:
+        name = f"<td>{escape(Path(f['path']).name)}</td>"
+        if not f["ok"]:
+            body.append(f'<tr>{name}<td colspan="{len(cols)}" class="failed">failed: {escape(str(f["error"]))}'
+                        "</td></tr>")
+            continue
+        body += ["<tr>" + name + "".join(_cell(v, d) for v, (_, d) in zip(row, cols, strict=True)) + "</tr>"
+                 for row in rows(f)]
+    return (f'<h2>All files</h2><div class="wrap"><table class="sortable job"><thead><tr>{head}</tr></thead>'
+            f"<tbody>{''.join(body)}</tbody></table></div>")
 
 
 def drawing_pictures(paths: list[str], max_segments: int = 200_000) -> dict[str, str]:
