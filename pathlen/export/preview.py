@@ -31,6 +31,8 @@ COLOURS = {"closed": "#0b6e6e", "open": "#d98c00", "twice": "#c0143c", "gap": "#
            "ghost": "#c3c9cf", "sew": "#1f5fbf"}
 LABELS = {"closed": "closed contour", "open": "open contour", "twice": "drawn twice", "gap": "gap (width)",
           "mark": "start and direction", "ghost": "not measured (layer off or frozen)"}
+#: Pierce numbers written on a raster picture at most (more are unreadable and slow to draw).
+MAX_NUMBERS = 2000
 #: Segment kinds drawn as paths, in drawing order (ghosts underneath).
 PATH_KINDS = ("ghost", "closed", "open", "twice")
 
@@ -248,8 +250,9 @@ def render_raster(s: Scene, path: Path, dpi: float = 150.0) -> None:
 
     matplotlib.use("Agg")
     from matplotlib import patheffects
+    from matplotlib.collections import EllipseCollection, LineCollection
     from matplotlib.figure import Figure
-    from matplotlib.patches import Circle, PathPatch
+    from matplotlib.patches import PathPatch
     from matplotlib.path import Path as MplPath
 
     x0, y0, x1, y1 = s.box
@@ -280,17 +283,24 @@ def render_raster(s: Scene, path: Path, dpi: float = 150.0) -> None:
             label = s.styles[kind][1] if s.styles else LABELS[kind]
             ax.add_patch(PathPatch(MplPath(np.array(verts), codes), fill=False, edgecolor=s.colour(kind),
                                    linewidth=1.0, linestyle="--" if kind == "twice" else "-", label=label))
-    for x, y in s.starts:
-        ax.plot([x], [y], marker="o", markersize=2.5, color=COLOURS["mark"])
+    # marks as one artist each (a drawing of 50,000 contours has 50,000 starts and arrows)
+    if len(s.starts):
+        ax.plot(s.starts[:, 0], s.starts[:, 1], linestyle="none", marker="o", markersize=2.5, color=COLOURS["mark"])
     size = 0.02 * max(w, h)
-    for (px, py), (dx, dy) in s.arrows:
-        ax.annotate("", xy=(px + dx * size, py + dy * size), xytext=(px, py),
-                    arrowprops={"arrowstyle": "-|>", "color": COLOURS["mark"], "lw": 0.8})
-    for x, y, gw in s.gaps:
-        ax.add_patch(Circle((x, y), max(gw, 0.01 * max(w, h)), fill=False, edgecolor=COLOURS["gap"], linewidth=1.0))
-    for a, b in zip(s.rapids[0::2], s.rapids[1::2], strict=False):
-        ax.plot([a[0], b[0]], [a[1], b[1]], linestyle=(0, (2, 3)), linewidth=0.7, color=COLOURS["mark"])
-    for n, (x, y) in enumerate(s.pierces, start=1):
+    if len(s.arrows):
+        ax.quiver(s.arrows[:, 0, 0], s.arrows[:, 0, 1], s.arrows[:, 1, 0] * size, s.arrows[:, 1, 1] * size,
+                  angles="xy", scale_units="xy", scale=1.0, color=COLOURS["mark"], width=0.0015)
+    if s.gaps:
+        gaps = np.array(s.gaps, dtype=float)
+        ax.add_collection(EllipseCollection(2 * np.maximum(gaps[:, 2], 0.01 * max(w, h)),
+                                            2 * np.maximum(gaps[:, 2], 0.01 * max(w, h)), 0.0, units="xy",
+                                            offsets=gaps[:, :2], offset_transform=ax.transData,
+                                            facecolors="none", edgecolors=COLOURS["gap"], linewidths=1.0))
+    if len(s.rapids) > 1:
+        legs = np.stack([s.rapids[0:-1:2], s.rapids[1::2]], axis=1) if len(s.rapids) % 2 == 0 else \
+            np.stack([s.rapids[0:-2:2], s.rapids[1:-1:2]], axis=1)
+        ax.add_collection(LineCollection(legs, linestyles=(0, (2, 3)), linewidths=0.7, colors=COLOURS["mark"]))
+    for n, (x, y) in enumerate(s.pierces[:MAX_NUMBERS], start=1):
         ax.annotate(str(n), (x, y), textcoords="offset points", xytext=(3, 3), fontsize=6, color=COLOURS["mark"])
     for line in s.sew_lines:
         ax.plot(line[:, 0], line[:, 1], linestyle=(0, (3, 2)), linewidth=0.8, color=COLOURS["sew"])
