@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import dataclasses
 import os
+import re
 import uuid
 from collections.abc import Callable, Iterator
 from typing import Any
@@ -62,8 +63,12 @@ def connect(address: str) -> Any:
         from distributed import Client
     except ImportError:
         raise ClusterError("--scheduler needs dask.distributed: pip install 'pathlen[cluster]'") from None
+    m = re.fullmatch(r"(tcp|tls)://(\[[0-9A-Fa-f:.]+\]|[A-Za-z0-9_.-]+):(\d{1,5})", address.strip())
+    if m is None or not 0 < int(m.group(3)) < 65536:
+        raise ClusterError(f"{address!r} is not a scheduler address: give tcp://HOST:PORT, such as "
+                           "tcp://queue-host:8786")
     try:
-        return Client(address, timeout=CONNECT_TIMEOUT_S, set_as_default=False)
+        return Client(address.strip(), timeout=CONNECT_TIMEOUT_S, set_as_default=False)
     except (OSError, TimeoutError, ValueError) as exc:
         raise ClusterError(f"cannot reach the Dask scheduler at {address}: {str(exc).splitlines()[0][:200]}") from None
 

@@ -174,3 +174,18 @@ def test_watch_carries_on_locally_when_the_scheduler_dies(tmp_path: Path) -> Non
     assert len(list((outbox / "results").glob("*.json"))) == len(drawings)
     assert not (outbox / "failed").exists()
     assert "cluster-lost" in err and "Traceback" not in err
+
+
+@pytest.mark.parametrize("address", ["tcp://nohost:notaport", "queue-host", "tcp://host:99999", "http://host:8786"])
+def test_a_malformed_scheduler_address_is_one_line_at_once(address) -> None:
+    # refused before any connection is tried: no wait for a timeout, no client left to complain later
+    import subprocess
+    import sys
+    import time
+
+    start = time.monotonic()
+    res = subprocess.run([sys.executable, "-m", "pathlen", "measure", "--scheduler", address,
+                          str(FIXTURES / "kl101_bracket.dxf")], capture_output=True, text=True, timeout=60)
+    assert res.returncode == 2
+    assert "is not a scheduler address" in res.stderr and "Traceback" not in res.stderr
+    assert time.monotonic() - start < 15  # far below the 20 s a client's clean-up used to take
