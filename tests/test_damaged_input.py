@@ -190,6 +190,7 @@ def test_an_insert_without_a_block_name_is_named_in_the_drawings_terms(tmp_path)
 @pytest.mark.parametrize(("edit", "words"), [
     (lambda t: t.replace("12.5\n", "12,5\n"), "numbers written with decimal commas (line"),
     (lambda t: t.replace(" 10\n0.0\n 20\n0.0\n", " 20\n0.0\n 10\n0.0\n", 1), "coordinates are missing or out of order"),
+    (lambda t: t.replace(" 11\n12.5\n", " 21\n12.5\n", 1), "group code 21 given twice in LINE"),  # 11 changed to 21
 ])
 def test_damage_is_named_by_what_was_found(tmp_path, edit, words):
     # DXF reference: numbers use a decimal point; a point's x, y, z are group codes 10, 20, 30 in order

@@ -88,6 +88,25 @@ def _without_entities(tags: TagTable, lay: Layout) -> bytes:
     return bytes(data[:line_start(first)] + data[line_start(endsec):size])
 
 
+#: Entities whose coordinate and value codes each appear once (DXF reference): a repeat is damage.
+SINGLE_CODE_KINDS = ("LINE", "CIRCLE", "ARC", "ELLIPSE", "INSERT")
+
+
+def _repeated_single_codes(tags: TagTable, lay: Layout) -> bool:
+    """Whether an entity of :data:`SINGLE_CODE_KINDS` has a coordinate or value code (10-59, 210-239)
+    twice (a code changed into another valid one, say 11 into 21)."""
+    owner = lay.owner
+    codes = tags.codes
+    valued = (owner >= 0) & (((codes >= 10) & (codes <= 59)) | ((codes >= 210) & (codes <= 239)))
+    kinds = np.array([k in SINGLE_CODE_KINDS for k in lay.kinds], dtype=bool)
+    pick = np.flatnonzero(valued)
+    pick = pick[kinds[owner[pick]]]
+    if len(pick) == 0:
+        return False
+    key = owner[pick].astype(np.int64) * 1024 + codes[pick]
+    return len(np.unique(key)) < len(key)
+
+
 class _Segments:
     """Segments of all entities, tagged with their entity number (file order)."""
 
@@ -117,6 +136,8 @@ class _Reader:
         self.lay = lay
         if np.any((tags.codes == 60) & (tags.number != 0) & (lay.owner >= 0)):
             raise NotPlain("entities marked invisible (group 60)")  # ezdxf's reader leaves them out
+        if _repeated_single_codes(tags, lay):
+            raise NotPlain("a group code given twice in one entity")  # damage: ezdxf's reader names it
         self.f = Fields(tags, lay.owner, len(lay.kinds))
         self.kinds = lay.kinds
         self.hidden, self.frozen = (frozenset(), frozenset()) if hidden_layers else self._hidden_layers()

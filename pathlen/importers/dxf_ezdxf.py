@@ -131,7 +131,7 @@ def _load(path: Path, recover: bool) -> tuple[ezdxf.document.Drawing, list[str],
     """The document, notes for the report, and whether structural recovery was needed."""
     try:
         doc = _read_whole(path)
-        damage = _damage(doc)
+        damage = _damage(doc) or _repeated_code(path)
     except OSError as exc:
         if exc.strerror:
             raise InputError(f"cannot read file: {exc.strerror}") from None
@@ -183,6 +183,43 @@ def _damage(doc: ezdxf.document.Drawing) -> str | None:
                       if s.entities and len(s.entities[0]) > 1} - KNOWN_SECTIONS)
     if unknown:
         return f"unknown section {', '.join(repr(u[:40]) for u in unknown)} (a misspelt ENTITIES?)"
+    return None
+
+
+#: Text files up to this size are scanned for repeated codes on the ezdxf path (the bulk reader checks
+#: every file it reads; bigger files it declines are rare and the scan is a Python loop).
+REPEAT_SCAN_BYTES = 64_000_000
+#: Entities whose coordinate and value codes each appear once (DXF reference): a repeat is damage.
+_SINGLE_CODE_KINDS = frozenset({"LINE", "CIRCLE", "ARC", "ELLIPSE", "INSERT"})
+
+
+def _repeated_code(path: Path) -> str | None:
+    """The first coordinate or value code (10-59, 210-239) given twice in a LINE, CIRCLE, ARC, ELLIPSE
+    or INSERT of a text DXF, as damage in words (ezdxf keeps the last value without a word)."""
+    with path.open("rb") as fh:
+        if fh.read(22).startswith(b"AutoCAD Binary DXF") or path.stat().st_size > REPEAT_SCAN_BYTES:
+            return None
+    kind, handle, seen = "", "", set()
+    with path.open("rb") as fh:
+        lines = iter(fh)
+        number = 0
+        for code_line in lines:
+            value = next(lines, b"")
+            number += 2
+            code = code_line.strip()
+            if not code.isdigit():
+                continue
+            c = int(code)
+            if c == 0:
+                kind, handle, seen = value.strip().decode("latin-1"), "", set()
+            elif kind in _SINGLE_CODE_KINDS:
+                if c == 5:
+                    handle = value.strip().decode("latin-1")
+                elif 10 <= c <= 59 or 210 <= c <= 239:
+                    if c in seen:
+                        return (f"group code {c} given twice in {kind}{f' #{handle}' if handle else ''} (line "
+                                f"{number - 1}): a changed or repeated code")
+                    seen.add(c)
     return None
 
 
