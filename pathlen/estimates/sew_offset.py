@@ -49,7 +49,7 @@ class Trim:
 
     removed: FloatArray  # per segment, the length its exact offset loses (mm; see trim_offset)
     kept: FloatArray  # per segment, the surviving length on the chords (mm)
-    trimmed: np.ndarray  # per segment, True where any chord lost length
+    trimmed: np.ndarray  # per segment, True where any chord's offset changed (trimmed or run on)
     chord_segment: IntArray  # per chord, its segment's position in the walk
     chord_kept: FloatArray  # per chord, its surviving length (mm)
     ring: FloatArray  # [n, 2] the chord vertices (mm)
@@ -85,7 +85,7 @@ def trim_offset(table: SegmentTable, rows: IntArray, forward: np.ndarray, a: flo
     base = ring + a * normal
     start, end = base + s0[:, None] * unit, base + s1[:, None] * unit
     direction = length - h_start - h_end  # mitre to mitre, signed: negative where it turns back on itself
-    intervals = _strip_intervals(ring, normal, mitre, start, end, a)
+    intervals = _region_intervals(ring, normal, mitre, start, end, a)
     polygon = shapely.Polygon(ring)
     whole = (shapely.contains_xy(polygon, *start.T) & shapely.contains_xy(polygon, *end.T)
              & shapely.contains_xy(polygon, *((start + end) / 2).T))
@@ -257,7 +257,7 @@ def _regions(ring: FloatArray, normal: FloatArray, mitre: FloatArray, a: float) 
     return quads, owner
 
 
-def _strip_intervals(ring: FloatArray, normal: FloatArray, mitre: FloatArray, start: FloatArray, end: FloatArray,
+def _region_intervals(ring: FloatArray, normal: FloatArray, mitre: FloatArray, start: FloatArray, end: FloatArray,
                      a: float) -> dict[int, list[tuple[float, float]]]:
     """Per chord, the parameter intervals of its candidate (t in [0, 1] from ``start`` to ``end``) inside
     the open regions of :func:`_regions` (its own band excepted)."""
