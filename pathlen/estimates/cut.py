@@ -163,6 +163,8 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
     outward = np.where(hole, -0.5, 0.5) * p.kerf_mm
     with stage("offsetting the contours by half the kerf"):
         change, trouble = kerf_changes(table, contours, steps, shapes, outward, cut & contours.closed & offset)
+    del shapes  # the outline polygons and the steps' samples are not needed past here: free them first
+    steps.samples = np.zeros((0, 0, 3))
     lead_in = np.where(cut, p.lead_in_mm, 0.0)
     lead_out = np.where(cut, p.lead_out_mm, 0.0)
     path_mm = contours.length + change + lead_in + lead_out
