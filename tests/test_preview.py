@@ -146,3 +146,17 @@ def test_preview_heading_legend_and_wrapped_notes(runner, tmp_path):
     notes = [html.unescape(n) for n in re.findall(r'fill="#777777">([^<]+)<', svg)]
     assert len(notes) >= 2 and "which may differ from the drawing program's" in " ".join(notes)  # wrapped, whole
     assert max(len(n) for n in notes) < len(" ".join(notes))
+
+
+def test_fit_leaves_the_size_to_the_browser(runner, tmp_path):
+    # SVG 2, 8.2: an outermost svg without width/height takes its container's size (auto), the viewBox
+    # keeps the proportions; the default stays in mm so that measuring it again gives the lengths
+    import xml.etree.ElementTree as ET
+
+    fit, real = tmp_path / "fit.svg", tmp_path / "real.svg"
+    for out, extra in ((fit, ["--fit"]), (real, [])):
+        res = runner.invoke(main, ["preview", str(FIXTURES / "kl101_bracket.dxf"), "-o", str(out), *extra])
+        assert res.exit_code == 0, res.output
+    a, b = ET.fromstring(fit.read_text()), ET.fromstring(real.read_text())
+    assert a.get("width") == "100%" and a.get("height") is None and a.get("viewBox") == b.get("viewBox")
+    assert b.get("width").endswith("mm") and b.get("height").endswith("mm")

@@ -150,8 +150,10 @@ def nice_length(span: float) -> float:
 
 
 # -- SVG ----------------------------------------------------------------------------------------
-def scene_svg(s: Scene) -> str:
-    """The picture as a standalone SVG document sized in mm (1 user unit = 1 mm)."""
+def scene_svg(s: Scene, fit: bool = False) -> str:
+    """The picture as a standalone SVG document sized in mm (1 user unit = 1 mm), so that measuring it
+    again gives the drawing's lengths; ``fit``: no size, so a browser fits it to its window (user units
+    are still mm, but a reader takes them for px)."""
     x0, y0, x1, y1 = s.box
     w, h = max(x1 - x0, 1e-6), max(y1 - y0, 1e-6)
     margin = 0.06 * max(w, h) + 2.0
@@ -166,7 +168,8 @@ def scene_svg(s: Scene) -> str:
     # drawing coordinates -> picture: y up (DXF) is flipped so that it reads as drawn
     flip = f"matrix(1 0 0 -1 {margin - x0:.6f} {margin + y1:.6f})" if not s.y_down else \
         f"translate({margin - x0:.6f} {margin - y0:.6f})"
-    out = [f'<svg xmlns="http://www.w3.org/2000/svg" width="{width:.6f}mm" height="{height:.6f}mm" '
+    size = 'width="100%"' if fit else f'width="{width:.6f}mm" height="{height:.6f}mm"'
+    out = [f'<svg xmlns="http://www.w3.org/2000/svg" {size} '
            f'viewBox="0 0 {width:.6f} {height:.6f}" font-family="DejaVu Sans, Helvetica, Arial, sans-serif">',
            f"<title>{escape(s.title)}</title>",
            f'<rect width="{width:.6f}" height="{height:.6f}" fill="#ffffff"/>',
