@@ -205,32 +205,26 @@ def test_movement_check_from_a_plan(runner, wall, tmp_path):
     assert any("PERIMETER" in w and "needs at least 19.3 mm" in w for w in entry["warnings"])
 
 
-def test_products_are_never_pooled(runner, wall, tmp_path):
-    # each product rounds up on its own: two round beads whose volumes (by hand, πD²/4 x length) fit
-    # one 20 ml pack each, and would fit one pack together
+@pytest.mark.parametrize(("pack", "sections", "volumes", "packs", "prices"), [
+    # two round beads (πD²/4 x length, by hand) that fit one 20 ml pack each, and one together
+    (20, ("round:4.9", "round:1"), (1000 * math.pi * 4.9**2 / 4 / 1000, 2 * math.pi * 50 * math.pi / 4 / 1000),
+     (1, 1), (3, 5)),
+    # a 8 x 8 joint of 1000 mm (64 ml: 4 packs of 18 ml) and a thin bead (0.99 ml: 1 pack): 4 + 1 = 5
+    (18, ("rect:8x8", "round:2"), (64.0, 2 * math.pi * 50 * math.pi * 4 / 4 / 1000), (4, 1), (2, 7)),
+])
+def test_products_are_never_pooled(runner, wall, tmp_path, pack, sections, volumes, packs, prices):
+    # each product rounds up on its own; pooled, the volumes would take fewer packs
     plan = tmp_path / "plan.toml"
-    plan.write_text('[[product]]\nname = "A"\npack = "20ml"\nprice = 3\n[[product]]\nname = "B"\npack = "20ml"\n'
-                    'price = 5\n[[joint]]\nlayer = "PERIMETER"\nsection = "round:4.9"\nproduct = "A"\n'
-                    '[[joint]]\nlayer = "GLAZING"\nsection = "round:1"\nproduct = "B"\n')
+    plan.write_text(f'[[product]]\nname = "A"\npack = "{pack}ml"\nprice = {prices[0]}\n'
+                    f'[[product]]\nname = "B"\npack = "{pack}ml"\nprice = {prices[1]}\n'
+                    f'[[joint]]\nlayer = "PERIMETER"\nsection = "{sections[0]}"\nproduct = "A"\n'
+                    f'[[joint]]\nlayer = "GLAZING"\nsection = "{sections[1]}"\nproduct = "B"\n')
     res = runner.invoke(main, ["bead", str(wall), "--plan", str(plan), "--waste", "0", "--format", "json"])
     t = json.loads(res.stdout)["total"]
-    a = 1000 * math.pi * 4.9**2 / 4 / 1000  # 18.86 ml: 1 pack of 20 ml
-    b = 2 * math.pi * 50 * math.pi / 4 / 1000  # 0.25 ml: 1 pack
-    packs = {p["product"]: p["packs"] for p in t["products"]}
-    assert packs == {"A": math.ceil(a / 20), "B": math.ceil(b / 20)} == {"A": 1, "B": 1}
-    assert t["packs"] == 2 and math.ceil((a + b) / 20) == 1  # pooled would say one
-    assert t["cost"] == pytest.approx(3 + 5)
-
-
-def test_four_and_one_packs_make_five(runner, wall, tmp_path):
-    plan = tmp_path / "plan.toml"
-    plan.write_text('[[product]]\nname = "A"\npack = "18ml"\n[[product]]\nname = "B"\npack = "18ml"\n'
-                    '[[joint]]\nlayer = "PERIMETER"\nsection = "rect:8x8"\nproduct = "A"\n'  # 64 ml: 4 packs
-                    '[[joint]]\nlayer = "GLAZING"\nsection = "round:2"\nproduct = "B"\n')  # 0.99 ml: 1 pack
-    t = json.loads(runner.invoke(main, ["bead", str(wall), "--plan", str(plan), "--waste", "0", "--format",
-                                        "json"]).stdout)["total"]
-    assert [p["packs"] for p in t["products"]] == [4, 1] and t["packs"] == 5
-    assert math.ceil(t["volume"] / 18) == 4  # pooled would have said 4
+    assert [p["volume"] for p in t["products"]] == pytest.approx(list(volumes), rel=1e-12)
+    assert [p["packs"] for p in t["products"]] == [math.ceil(v / pack) for v in volumes] == list(packs)
+    assert t["packs"] == sum(packs) > math.ceil(sum(volumes) / pack)  # pooled would say fewer
+    assert t["cost"] == pytest.approx(packs[0] * prices[0] + packs[1] * prices[1])
 
 
 def test_joint_without_a_product_uses_the_command_line_pack_with_a_warning(runner, wall, tmp_path):
