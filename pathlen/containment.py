@@ -205,13 +205,6 @@ def _signed_angle(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return np.arctan2(cross, dot)
 
 
-def contour_turning(table: SegmentTable, contour: Contour) -> tuple[float, np.ndarray]:
-    """Total tangent turning along the smooth parts (rad) and the turning at each corner, for the
-    closed contour as traversed (left turns positive); see :func:`segment_turning`."""
-    smooth, corners = segment_turning(table, contour)
-    return float(smooth.sum()), corners
-
-
 def segment_turning(table: SegmentTable, contour: Contour) -> tuple[np.ndarray, np.ndarray]:
     """Per segment of the contour as traversed: the tangent turning along it (rad) and the turning
     at the corner after it (to the next segment; the last to the first), left turns positive.
@@ -255,11 +248,21 @@ def kerf_length_change(table: SegmentTable, contour: Contour, outward: float) ->
     2 d tan(φ/2) where the two offset sides meet.  (Steiner: a convex contour grows by 2π d.)
     Valid while the offset curve does not cross itself (features larger than d).
     """
-    smooth, corners = contour_turning(table, contour)
-    total = smooth + float(corners.sum())
-    side = np.sign(total) if total != 0 else 1.0  # +1 counter-clockwise
-    d = abs(outward)
-    sign = side if outward > 0 else -side  # turning as seen by an offset to the right
+    smooth, corners = segment_turning(table, contour)
+    one = np.zeros(len(smooth), dtype=np.int64)
+    return float(kerf_changes_from_turning(smooth, corners, one, np.array([outward], dtype=float))[0])
+
+
+def kerf_changes_from_turning(smooth: np.ndarray, corners: np.ndarray, contour_of_step: IntArray,
+                              outward: np.ndarray) -> np.ndarray:
+    """:func:`kerf_length_change` of many closed contours at once, from their steps' turning
+    (:func:`steps_turning`): ``contour_of_step`` numbers each step's contour, ``outward`` is per
+    contour (mm, negative: inwards)."""
+    n = len(outward)
+    total = np.bincount(contour_of_step, weights=smooth + corners, minlength=n)
+    side = np.where(total != 0, np.sign(total), 1.0)  # +1 counter-clockwise
+    d = np.abs(outward)[contour_of_step]
+    sign = np.where(outward > 0, side, -side)[contour_of_step]  # turning as seen by an offset to the right
     k, phi = sign * smooth, sign * corners
     joins = np.where(phi > 0, d * phi, -2.0 * d * np.tan(np.abs(phi) / 2.0))
-    return float(d * k + joins.sum())
+    return np.bincount(contour_of_step, weights=d * k + joins, minlength=n)

@@ -17,7 +17,7 @@ from dataclasses import dataclass
 import numpy as np
 import shapely
 
-from pathlen.containment import OFFSET_QUAD_SEGS, outline_lengths, steps_turning
+from pathlen.containment import OFFSET_QUAD_SEGS, kerf_changes_from_turning, outline_lengths, steps_turning
 from pathlen.contours import ContourSet
 from pathlen.estimates.kinematics import corner_speed, sequences_time
 from pathlen.geometry import FloatArray, IntArray
@@ -130,14 +130,9 @@ def _exact_changes(table: SegmentTable, contours: ContourSet, w: Walk, outward: 
     smooth, corners = steps_turning(table, contours.steps, contours.forward, contours.first, contours.size,
                                     w.samples)
     cid = w.contour
-    total = np.bincount(cid, weights=smooth + corners, minlength=n)
-    side = np.where(total != 0, np.sign(total), 1.0)  # +1 counter-clockwise
+    exact = kerf_changes_from_turning(smooth, corners, cid, outward)
     d = np.abs(outward)
-    sign = np.where(outward > 0, side, -side)[cid]
-    k, phi = sign * smooth, sign * corners
     dd = d[cid]
-    joins = np.where(phi > 0, dd * phi, -2.0 * dd * np.tan(np.abs(phi) / 2.0))
-    exact = np.bincount(cid, weights=dd * k + joins, minlength=n)
     # suspects: local features
     rows = contours.steps
     seg_len = table.length[rows]
