@@ -118,6 +118,7 @@ def _margin(text: str) -> float:
 
 def _read(lines: list[OrderLine], reading: Reading, gap_mm: float) -> tuple[list[PartsOutcome], list[Any]]:
     """Every line's parts, read in worker processes under the reading's limits; files in order of the lines."""
+    from pathlen.batch import MeasureSettings
     from pathlen.nest.layout import Demand
     from pathlen.nest.parts import PartSettings, PartsOutcome, read_parts
 
@@ -128,7 +129,8 @@ def _read(lines: list[OrderLine], reading: Reading, gap_mm: float) -> tuple[list
             files.append(line.file)
     read: dict[tuple[tuple[str, ...], str], PartsOutcome] = {}
     for picked, files in groups.items():
-        ps = PartSettings(gap_mm, picked, reading.join_tol, reading.rtol, reading.import_options, reading.max_segments)
+        ps = PartSettings(gap_mm, picked, MeasureSettings(reading.rtol, reading.join_tol, reading.import_options,
+                                                          reading.max_segments))
         for r in collect(files, ps, reading, read_parts, PartsOutcome, "reading parts"):
             read[(picked, r.path)] = r
     outcomes: list[PartsOutcome] = []

@@ -15,13 +15,13 @@ from pathlib import Path
 
 import numpy as np
 
-from pathlen.batch import FileOutcome, hidden_note, one_line_failure
+from pathlen.batch import FileOutcome, MeasureSettings, hidden_note, one_line_failure
 from pathlen.containment import nesting_depth
-from pathlen.contours import DEFAULT_JOIN_TOL_MM, Contour, ContourSet, chain_contours
+from pathlen.contours import Contour, ContourSet, chain_contours
 from pathlen.geometry import Drawing, Entity, FloatArray, keep_rows
-from pathlen.importers import ImportOptions, read_drawing
-from pathlen.instances import DEFAULT_MAX_SEGMENTS, expand
-from pathlen.measure import DEFAULT_RTOL, measure
+from pathlen.importers import read_drawing
+from pathlen.instances import expand
+from pathlen.measure import measure
 from pathlen.nest.area import contour_area, segment_areas
 from pathlen.nest.envelope import Envelope, flatten_contour, part_envelope
 from pathlen.segments import SegmentTable, segment_layers, segment_table
@@ -36,10 +36,8 @@ class PartSettings:
 
     gap_mm: float = DEFAULT_GAP_MM  # spacing between parts, kerf included (mm)
     layers: tuple[str, ...] = ()  # layers (or #rrggbb colours) holding parts; empty: every visible layer
-    join_tol_mm: float = DEFAULT_JOIN_TOL_MM
-    rtol: float = DEFAULT_RTOL
-    import_options: ImportOptions = field(default_factory=ImportOptions)
-    max_segments: int = DEFAULT_MAX_SEGMENTS
+    #: how the drawing is read and measured (tolerances, import options, segment limit)
+    reading: MeasureSettings = field(default_factory=MeasureSettings)
 
 
 @dataclass
@@ -75,20 +73,21 @@ def read_parts(path: str, settings: PartSettings) -> PartsOutcome:
     return one_line_failure(path, lambda: _read_parts(path, settings), PartsOutcome)
 
 
-def _read_parts(path: str, s: PartSettings) -> PartsOutcome:
+def _read_parts(path: str, ps: PartSettings) -> PartsOutcome:
+    s = ps.reading
     drawing = expand(read_drawing(Path(path), s.import_options), s.max_segments, "nesting")
     measured = measure(drawing, s.rtol)
     table = segment_table(drawing, measured)
     layer_names, layer = segment_layers(drawing, table)
     visible = np.array([not e.hidden for e in drawing.entities], dtype=bool)
-    chosen = visible & np.array([not s.layers or e.layer in s.layers or (bool(e.color) and e.color in s.layers)
+    chosen = visible & np.array([not ps.layers or e.layer in ps.layers or (bool(e.color) and e.color in ps.layers)
                                  for e in drawing.entities], dtype=bool)
     real = table.length > 0
     keep = chosen[table.entity] & real if len(table) else np.zeros(0, dtype=bool)
     marks = visible[table.entity] & ~chosen[table.entity] & real if len(table) else keep
     warnings = list(drawing.warnings) + hidden_note(drawing, measured.entity_length)
-    if s.layers:
-        missing = sorted(set(s.layers) - {e.layer for e in drawing.entities} - {e.color for e in drawing.entities})
+    if ps.layers:
+        missing = sorted(set(ps.layers) - {e.layer for e in drawing.entities} - {e.color for e in drawing.entities})
         if missing:
             warnings.append(f"no layer or colour named {', '.join(missing)} in this drawing")
     contours = chain_contours(table, layer, s.join_tol_mm, keep)
@@ -104,7 +103,7 @@ def _read_parts(path: str, s: PartSettings) -> PartsOutcome:
         warnings.append(f"{len(loose) - 5} more open outlines outside every part: not nested")
     terms, term_bounds = segment_areas(table)
     outers = np.flatnonzero(owner == np.arange(len(contours)))
-    built = [_part(path, i, k, table, contours, owner, parent, terms, term_bounds, s.gap_mm)
+    built = [_part(path, i, k, table, contours, owner, parent, terms, term_bounds, ps.gap_mm)
              for i, k in enumerate(outers.tolist())]
     parts = [p for p, _ in built]
     rows = [r for _, r in built]
