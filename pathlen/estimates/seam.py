@@ -78,7 +78,7 @@ def sew_line(table: SegmentTable, outline: Contour, allowance: float, marks: lis
     paths: list[np.ndarray] = []
     loops = 1
     if a > 0:
-        trim = trim_offset(table, idx, fwd, a)
+        trim = trim_offset(table, idx, fwd, a, flat)
         if trim.vanished:
             raise InputError(f"allowance {a:g} mm leaves no sew line: the piece is nowhere wider than {2 * a:g} mm")
         sew = np.where(trim.trimmed, np.where(trim.kept > 0, np.maximum(sew - trim.removed, 0.0), 0.0), sew)

@@ -34,7 +34,7 @@ import numpy as np
 import shapely
 
 from pathlen.geometry import FloatArray, IntArray
-from pathlen.nest.envelope import flatten_contour
+from pathlen.nest.envelope import Ring, flatten_contour
 from pathlen.segments import SegmentTable
 
 #: Largest distance (mm) of a curve from the chords standing for it here.
@@ -63,9 +63,11 @@ class Trim:
         return not bool(self.kept.sum() > 0)
 
 
-def trim_offset(table: SegmentTable, rows: IntArray, forward: np.ndarray, a: float) -> Trim:
-    """The surviving parts of the inward offset by ``a`` mm of the counter-clockwise walk ``rows``."""
-    flat = flatten_contour(table, rows, forward, CHORD_TOL_MM)
+def trim_offset(table: SegmentTable, rows: IntArray, forward: np.ndarray, a: float, flat: Ring | None = None
+                ) -> Trim:
+    """The surviving parts of the inward offset by ``a`` mm of the counter-clockwise walk ``rows``
+    (``flat``: the walk's chords at :data:`CHORD_TOL_MM`, where the caller has them already)."""
+    flat = flat if flat is not None else flatten_contour(table, rows, forward, CHORD_TOL_MM)
     ring, owner = flat.points, flat.segment
     assert owner is not None
     nseg = len(np.asarray(rows))
