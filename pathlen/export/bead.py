@@ -122,7 +122,7 @@ def render_csv(results: list[BeadEstimate], units: str, s: BeadSettings) -> str:
                         repr(e["length"]), repr(e["section_area"]), repr(e["volume"]), "", repr(e["primer"]),
                         repr(e["backer_rod_length"]), "" if e["backer_rod_diameter"] is None
                         else repr(e["backer_rod_diameter"]), "", "true", ""])
-    for p in bead_document(results, units, s, [])["total"]["products"]:
+    for p in _products(product_totals([r for r in results if r.ok], s), units, s):
         w.writerow(["product", "", "", "", "", p["product"] or "", repr(p["length"]), "", repr(p["volume"]),
                     p["packs"], repr(p["primer"]), "", "", "" if p["cost"] is None else repr(p["cost"]), "true", ""])
     return buf.getvalue()
