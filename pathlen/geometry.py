@@ -175,7 +175,8 @@ class Entity:
     kind: str
     #: stroke colour as ``#rrggbb`` ("none", "other"); "" where the format has none to report
     color: str = ""
-    #: how many times the entity is drawn (instances of a block or ``<use>`` share one row)
+    #: how many times the entity is drawn (instances of a block or ``<use>`` share one row); 0 for the
+    #: further subpaths of an SVG path given rows of their own (counted with the path's first row)
     copies: int = 1
     #: on a layer the author switched off or froze: not measured unless asked for
     hidden: bool = False

@@ -165,6 +165,36 @@ def test_svg_closed_subpaths_touching_at_a_vertex(tmp_path):
     assert (result.closed, result.open) == (3, 1)  # the line touching the circle leaves it closed
 
 
+@pytest.mark.parametrize("tail, expected", [("", (2, 0)), (" M30 0 L38 0", (2, 1)), (" m30 0 l8 0", (2, 1))])
+def test_svg_closed_subpaths_of_one_path_touching_at_a_vertex(tmp_path, slow, tail, expected):
+    # SVG 2, 9.3.4 (closepath): "Z" ends the current subpath; each subpath is a figure of its own, so two
+    # closed subpaths of one <path> that share a vertex are two closed contours (a bow-tie of two
+    # triangles), whether or not a last open subpath follows (a relative moveto starts from the subpath's
+    # start, SVG 2 9.3.3)
+    path = tmp_path / "touch.svg"
+    path.write_text('<svg xmlns="http://www.w3.org/2000/svg" width="40mm" height="20mm" viewBox="0 0 40 20">'
+                    f'<path d="M0 0 L10 0 L5 8 Z M10 0 L20 0 L15 8 Z{tail}" fill="none" stroke="black"/></svg>')
+    result = measure_file(str(path))
+    assert (result.closed, result.open) == expected
+    assert result.layers[""].count == 1  # still one drawn path
+    side = math.hypot(5, 8)
+    assert result.length_mm == pytest.approx(2 * (10 + 2 * side) + (8 if tail else 0), rel=1e-12)
+    cut = estimate_file(str(path), CutSettings(slow))
+    assert (cut.closed, cut.open, cut.pierces) == (*expected, expected[0] + expected[1])
+
+
+def test_svg_closed_subpaths_touching_inside_a_use_copy(tmp_path):
+    # the same bow-tie drawn twice through <use> (SVG 2, 5.6): two closed contours per copy, two paths counted
+    path = tmp_path / "touch.svg"
+    path.write_text('<svg xmlns="http://www.w3.org/2000/svg" xmlns:xlink="http://www.w3.org/1999/xlink" '
+                    'width="40mm" height="40mm" viewBox="0 0 40 40"><defs><path id="bow" '
+                    'd="M0 0 L10 0 L5 8 Z M10 0 L20 0 L15 8 Z M30 0 L38 0" fill="none" stroke="black"/></defs>'
+                    '<use xlink:href="#bow"/><use xlink:href="#bow" y="20"/></svg>')
+    result = measure_file(str(path))
+    assert (result.closed, result.open) == (4, 2)
+    assert result.layers[""].count == 2
+
+
 def test_stacks_and_stars_are_handled_in_reasonable_time(tmp_path, slow):
     # 1,000 copies of one circle, and 1,000 lines through one point: bounded work, honest counts
     doc = ezdxf.new()

@@ -353,6 +353,8 @@ def test_fast_and_careful_parsers_agree(subpaths):
         careful = RawSegments()
         assert parse_careful(d, careful) is None
         for kind, width in ROW_WIDTH.items():
-            expected = np.frombuffer(careful.rows[kind]).reshape(-1, width)
-            got = rows[kind][0][rows[kind][1] == p] if kind in rows else np.zeros((0, width))
+            # each row with its subpath number (moveto count from 0) as one more column
+            expected = np.c_[np.frombuffer(careful.rows[kind]).reshape(-1, width), np.asarray(careful.entity[kind])]
+            mine = rows[kind][1] == p if kind in rows else np.zeros(0, dtype=bool)
+            got = np.c_[rows[kind][0][mine], rows[kind][2][mine]] if kind in rows else np.zeros((0, width + 1))
             np.testing.assert_allclose(np.sort(got, axis=0), np.sort(expected, axis=0), rtol=1e-12, atol=1e-9)

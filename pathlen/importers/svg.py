@@ -31,11 +31,11 @@ import defusedxml.ElementTree as SafeET
 import numpy as np
 
 from pathlen.errors import InputError
-from pathlen.geometry import Drawing, Entity, SegmentCollector, affine
+from pathlen.geometry import Drawing, Entity, IntArray, SegmentCollector, affine
 from pathlen.importers.svg_css import Rule, cascade, parse_stylesheet
 from pathlen.importers.svg_markers import MARKABLE, OrderedSegments, marker_map
 from pathlen.importers.svg_markers import vertices as marker_vertices
-from pathlen.importers.svg_path import parse_careful, parse_many
+from pathlen.importers.svg_path import Rows, parse_careful, parse_many
 from pathlen.importers.svg_segments import ROW_WIDTH, RawSegments, full_ellipse, to_drawing
 from pathlen.importers.svg_values import (
     IDENTITY,
@@ -171,9 +171,9 @@ def parse_safely(path: Path) -> ET.Element:
 CHUNK_CHARS = 2_000_000
 
 
-def _parse_in_chunks(texts: list[str]) -> tuple[dict[str, tuple[np.ndarray, np.ndarray]], np.ndarray]:
+def _parse_in_chunks(texts: list[str]) -> tuple[dict[str, Rows], np.ndarray]:
     """:func:`parse_many` over batches of about :data:`CHUNK_CHARS`, rows tagged with indices into ``texts``."""
-    found: dict[str, list[tuple[np.ndarray, np.ndarray]]] = {}
+    found: dict[str, list[Rows]] = {}
     oks = []
     first = 0
     while first < len(texts):
@@ -182,12 +182,12 @@ def _parse_in_chunks(texts: list[str]) -> tuple[dict[str, tuple[np.ndarray, np.n
             size += len(texts[last])
             last += 1
         rows, ok = parse_many(texts[first:last])
-        for kind, (r, owner) in rows.items():
-            found.setdefault(kind, []).append((r, owner + first))
+        for kind, (r, owner, sub) in rows.items():
+            found.setdefault(kind, []).append((r, owner + first, sub))
         oks.append(ok)
         first = last
-    merged = {k: (np.concatenate([r for r, _ in parts]), np.concatenate([o for _, o in parts]))
-              for k, parts in found.items()}
+    merged = {k: (np.concatenate([r for r, _, _ in parts]), np.concatenate([o for _, o, _ in parts]),
+                  np.concatenate([s for _, _, s in parts])) for k, parts in found.items()}
     return merged, np.concatenate(oks) if oks else np.zeros(0, dtype=bool)
 
 
@@ -833,19 +833,65 @@ class _Importer:
             for kind, width in ROW_WIDTH.items():
                 extra = np.frombuffer(one.rows[kind], dtype=np.float64).reshape(-1, width)
                 if len(extra):
-                    r, owner = rows.get(kind, (np.zeros((0, width)), np.zeros(0, dtype=np.int64)))
-                    rows[kind] = (np.concatenate([r, extra]), np.concatenate([owner, np.full(len(extra), u)]))
-        counts = {kind: np.bincount(owner, minlength=len(texts)) for kind, (_, owner) in rows.items()}
+                    r, owner, sub = rows.get(kind, (np.zeros((0, width)), np.zeros(0, dtype=np.int64),
+                                                    np.zeros(0, dtype=np.int64)))
+                    rows[kind] = (np.concatenate([r, extra]), np.concatenate([owner, np.full(len(extra), u)]),
+                                  np.concatenate([sub, np.frombuffer(one.entity[kind], dtype=np.int64)]))
+        counts = {kind: np.bincount(owner, minlength=len(texts)) for kind, (_, owner, _) in rows.items()}
         if sum(int(c[copy_of].sum()) for c in counts.values()) + self.raw_count() > MAX_SEGMENTS:
             raise InputError(f"more than {MAX_SEGMENTS:,} segments after expanding <use>; file refused")
+        rank, extra_rows = self.closed_subpaths(texts, rows, copy_of, entity)
         copies = np.arange(len(copy_of))
-        for kind, (r, owner) in rows.items():
-            r = r[np.argsort(owner, kind="stable")]  # rows of each distinct path together
+        for kind, (r, owner, _) in rows.items():
+            order = np.argsort(owner, kind="stable")  # rows of each distinct path together
             first = (np.cumsum(counts[kind]) - counts[kind])[copy_of]
             n = counts[kind][copy_of]
-            self.canvas.raw.add(kind, r[expand_ranges(copies, first, first + n)[:, 1]])
-            self.canvas.raw.entity[kind].frombytes(np.repeat(entity, n).tobytes())
+            pick = order[expand_ranges(copies, first, first + n)[:, 1]]
+            self.canvas.raw.add(kind, r[pick])
+            k = rank[kind][pick]
+            own = np.repeat(entity, n)
+            self.canvas.raw.entity[kind].frombytes(np.where(k > 0, np.repeat(extra_rows, n) + k - 1, own).tobytes())
             self.canvas.raw.transform[kind].frombytes(np.repeat(transform, n).tobytes())
+
+    def closed_subpaths(self, texts: list[str], rows: dict[str, Rows], copy_of: IntArray, entity: IntArray
+                        ) -> tuple[dict[str, IntArray], IntArray]:
+        """Closed stays closed per subpath: a path of several drawn subpaths, some ending in a
+        closepath, gets an entity row per subpath (its first keeps the path's own row, the others
+        count no copies of their own), so each closed subpath chains only with itself even where
+        it touches another (:func:`pathlen.contours.join_groups`).
+
+        Returns per kind the rank of each row's subpath among its path's drawn subpaths (0 for a
+        path not split), and per drawn copy the entity row of its second subpath."""
+        pairs = np.concatenate([np.stack([o, s], axis=1) for _, o, s in rows.values()]) if rows else np.zeros((0, 2))
+        unique, inverse = np.unique(pairs.astype(np.int64), axis=0, return_inverse=True)
+        path_of = unique[:, 0]
+        drawn = np.bincount(path_of, minlength=len(texts))
+        lead = np.searchsorted(path_of, path_of)  # first drawn subpath of the same path
+        pair_rank = np.arange(len(unique)) - lead
+        at = np.searchsorted(path_of, np.arange(len(texts)))  # each path's first pair
+        closed = np.zeros(len(unique), dtype=bool)
+        for p in np.flatnonzero(drawn > 1).tolist():
+            ends = [chunk.rstrip()[-1:] in ("z", "Z") for chunk in _MOVES.split(texts[p])[1:]]
+            mine = slice(at[p], at[p] + drawn[p])
+            closed[mine] = [ends[s] if s < len(ends) else False for s in unique[mine, 1].tolist()]
+        split = np.zeros(len(texts), dtype=bool)
+        split[path_of[closed]] = True
+        split &= drawn > 1
+        pair_rank[~split[path_of]] = 0
+        added = np.where(split[copy_of], drawn[copy_of] - 1, 0)
+        extra_rows = len(self.canvas.entities) + np.cumsum(added) - added
+        for c in np.flatnonzero(added).tolist():
+            base = self.canvas.entities[int(entity[c])]
+            p = copy_of[c]
+            ends = closed[at[p]:at[p] + drawn[p]].tolist()
+            base.loop = ends[0]
+            self.canvas.entities.extend(Entity(base.layer, base.handle, base.kind, base.color, copies=0,
+                                               hidden=base.hidden, loop=k, frozen=base.frozen) for k in ends[1:])
+        rank, row = {}, 0
+        for kind, (r, _, _) in rows.items():
+            rank[kind] = pair_rank[inverse.ravel()[row:row + len(r)]]
+            row += len(r)
+        return rank, extra_rows
 
     def raw_count(self) -> int:
         return sum(len(a) for a in self.canvas.raw.entity.values())

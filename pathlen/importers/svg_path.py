@@ -16,6 +16,7 @@ from __future__ import annotations
 import itertools
 import math
 import re
+from collections.abc import Callable
 
 import numpy as np
 
@@ -35,17 +36,9 @@ _ARCS = re.compile(rf"(?:{_ARC_ONE})*+\s*+")
 #: Anything but the path grammar's characters (ASCII digits, signs, point, exponent, separators, commands;
 #: SVG whitespace is space, tab, CR, LF, FF) sends a path to the careful parser.
 _FOREIGN = re.compile(rf"[^0-9eE.+\-, \t\r\n\f{_COMMANDS}]")
+#: rows of one segment kind, the path each row belongs to, and its subpath within that path
+Rows = tuple[np.ndarray, np.ndarray, np.ndarray]
 _ARITY = {"M": 2, "L": 2, "H": 1, "V": 1, "C": 6, "S": 4, "Q": 4, "T": 2, "A": 7, "Z": 0}
-
-
-def parse_path(d: str, out: RawSegments) -> str | None:
-    """Append the segments of path data ``d`` to ``out``; return an error message or None."""
-    rows, ok = parse_many([d])
-    if ok[0]:
-        for kind, (r, _) in rows.items():
-            out.add(kind, r)
-        return None
-    return parse_careful(d, out)
 
 
 # -- the careful parser: one command at a time ----------------------------------------------------
@@ -79,7 +72,24 @@ def _arc_numbers(args: str) -> tuple[list[float], bool]:
 
 
 def parse_careful(d: str, out: RawSegments) -> str | None:
-    """The reference parser: exact error handling, one Python step per segment."""
+    """The reference parser: exact error handling, one Python step per segment.  Rows are tagged
+    (:meth:`RawSegments.tag`, entity field) with their subpath's number, counted by moveto from 0."""
+    tag = getattr(out, "tag", None)
+    moves = [-1]
+
+    def moveto() -> None:
+        if tag is not None and moves[0] >= 0:
+            tag(moves[0], 0)
+        moves[0] += 1
+
+    error = _walk(d, out, moveto)
+    if tag is not None and moves[0] >= 0:
+        tag(moves[0], 0)
+    return error
+
+
+def _walk(d: str, out: RawSegments, moveto: Callable[[], None]) -> str | None:
+    """:func:`parse_careful`'s walk; ``moveto`` is called at the start of every subpath."""
     lines, quads, cubics, arcs = (out.rows[k] for k in ("line", "quad", "cubic", "arc"))
     x = y = 0.0  # current point
     sx = sy = 0.0  # start of the current subpath
@@ -109,6 +119,7 @@ def parse_careful(d: str, out: RawSegments) -> str | None:
             ox, oy = (x, y) if rel else (0.0, 0.0)
             if up == "M" and i == 0:
                 x, y = sx, sy = v[0] + ox, v[1] + oy
+                moveto()
             elif up in "ML":
                 nx, ny = v[i] + ox, v[i + 1] + oy
                 lines.extend((x, y, nx, ny))
@@ -166,10 +177,11 @@ _END_X = np.array([0, 0, 0, -1, 4, 2, 2, 0, 5, -1])
 _END_Y = np.array([1, 1, -1, 0, 5, 3, 3, 1, 6, -1])
 
 
-def parse_many(paths: list[str]) -> tuple[dict[str, tuple[np.ndarray, np.ndarray]], np.ndarray]:
+def parse_many(paths: list[str]) -> tuple[dict[str, Rows], np.ndarray]:
     """Parse many well-formed paths at once.
 
-    Returns ``({kind: (rows, path index of each row)}, ok)``; a path with anything unusual
+    Returns ``({kind: (rows, path index of each row, subpath of each row)}, ok)``, subpaths
+    numbered from 0 by their moveto within each path; a path with anything unusual
     (an error, a partial group, packed numbers) gets ``ok = False`` and no rows: give it to
     :func:`parse_careful`.
     """
@@ -217,12 +229,14 @@ def parse_many(paths: list[str]) -> tuple[dict[str, tuple[np.ndarray, np.ndarray
     seg_rel = (code >= ord("a"))[seg_cmd]
     seg_path = cmd_path[seg_cmd]
     path_start = np.r_[True, seg_path[1:] != seg_path[:-1]] if len(seg_path) else np.zeros(0, dtype=bool)
+    moves = np.cumsum((kind[seg_cmd] == M) & (within == 0))
+    seg_sub = moves - np.maximum.accumulate(np.where(path_start, moves, 0))
     seg_rel[path_start] = False  # a path's first moveto is relative to (0, 0): absolute
     start = (np.cumsum(counts) - counts)[seg_cmd] + within * arity[seg_cmd]
     end_x, end_y = _current_points(nums, seg_kind, seg_rel, start)
     prev_x = np.r_[0.0, end_x[:-1]]
     prev_y = np.r_[0.0, end_y[:-1]]
-    return _emit(nums, seg_kind, seg_rel, start, prev_x, prev_y, end_x, end_y, seg_path), ok
+    return _emit(nums, seg_kind, seg_rel, start, prev_x, prev_y, end_x, end_y, seg_path, seg_sub), ok
 
 
 def _to_floats(tokens: list[list[str]], counts: np.ndarray, cmd_path: np.ndarray, ok: np.ndarray) -> np.ndarray:
@@ -267,8 +281,9 @@ def _current_points(nums: np.ndarray, kind: np.ndarray, rel: np.ndarray,
 
 
 def _emit(nums: np.ndarray, kind: np.ndarray, rel: np.ndarray, start: np.ndarray, px: np.ndarray, py: np.ndarray,
-          ex: np.ndarray, ey: np.ndarray, path: np.ndarray) -> dict[str, tuple[np.ndarray, np.ndarray]]:
-    """Rows of every kind with the path each row belongs to, from the segment table and current points."""
+          ex: np.ndarray, ey: np.ndarray, path: np.ndarray, sub: np.ndarray) -> dict[str, Rows]:
+    """Rows of every kind with the path and subpath each row belongs to, from the segment table and
+    current points."""
     def point(rows: np.ndarray, offset: int) -> tuple[np.ndarray, np.ndarray]:
         """An absolute point given at ``offset`` among each row's numbers."""
         r = rel[rows]
@@ -278,7 +293,8 @@ def _emit(nums: np.ndarray, kind: np.ndarray, rel: np.ndarray, start: np.ndarray
     straight = np.isin(kind, (L, H, V)) | ((kind == Z) & ((px != ex) | (py != ey)))
     lines = [np.stack([px[straight], py[straight], ex[straight], ey[straight]], axis=1)]
     line_path = [path[straight]]
-    out: dict[str, tuple[np.ndarray, np.ndarray]] = {}
+    line_sub = [sub[straight]]
+    out: dict[str, Rows] = {}
 
     cubic = np.flatnonzero((kind == C) | (kind == S))
     c2x, c2y = np.zeros(len(kind)), np.zeros(len(kind))
@@ -294,7 +310,7 @@ def _emit(nums: np.ndarray, kind: np.ndarray, rel: np.ndarray, start: np.ndarray
     c1x[sel] = 2 * px[refl] - c2x[refl - 1]
     c1y[sel] = 2 * py[refl] - c2y[refl - 1]
     out["cubic"] = (np.stack([px[cubic], py[cubic], c1x, c1y, c2x[cubic], c2y[cubic], ex[cubic], ey[cubic]],
-                             axis=1), path[cubic])
+                             axis=1), path[cubic], sub[cubic])
 
     quad = np.flatnonzero((kind == Q) | (kind == T))
     qx, qy = np.zeros(len(kind)), np.zeros(len(kind))
@@ -305,7 +321,8 @@ def _emit(nums: np.ndarray, kind: np.ndarray, rel: np.ndarray, start: np.ndarray
             qx[i], qy[i] = 2 * px[i] - qx[i - 1], 2 * py[i] - qy[i - 1]
         else:
             qx[i], qy[i] = px[i], py[i]
-    out["quad"] = (np.stack([px[quad], py[quad], qx[quad], qy[quad], ex[quad], ey[quad]], axis=1), path[quad])
+    out["quad"] = (np.stack([px[quad], py[quad], qx[quad], qy[quad], ex[quad], ey[quad]], axis=1),
+                   path[quad], sub[quad])
 
     arc = np.flatnonzero(kind == A)
     moved = (ex[arc] != px[arc]) | (ey[arc] != py[arc])  # SVG 1.1 F.6.2: identical endpoints -> omitted
@@ -314,8 +331,9 @@ def _emit(nums: np.ndarray, kind: np.ndarray, rel: np.ndarray, start: np.ndarray
     flat = (rx == 0) | (ry == 0)  # F.6.2: a zero radius -> straight line
     lines.append(np.stack([px[arc[flat]], py[arc[flat]], ex[arc[flat]], ey[arc[flat]]], axis=1))
     line_path.append(path[arc[flat]])
+    line_sub.append(sub[arc[flat]])
     a = arc[~flat]
     out["arc"] = (np.stack([px[a], py[a], rx[~flat], ry[~flat], nums[start[a] + 2], nums[start[a] + 3],
-                            nums[start[a] + 4], ex[a], ey[a]], axis=1), path[a])
-    out["line"] = (np.concatenate(lines), np.concatenate(line_path))
+                            nums[start[a] + 4], ex[a], ey[a]], axis=1), path[a], sub[a])
+    out["line"] = (np.concatenate(lines), np.concatenate(line_path), np.concatenate(line_sub))
     return out
