@@ -27,7 +27,49 @@ def test_billion_laughs_is_refused(tmp_path):
     bomb = tmp_path / "bomb.svg"
     bomb.write_text(f'<?xml version="1.0"?><!DOCTYPE svg [{"".join(levels)}]>'
                     '<svg xmlns="http://www.w3.org/2000/svg"><text>&lol9;</text></svg>')
-    check_fails(bomb, "unsafe XML", "entities")
+    check_fails(bomb, "unsafe XML", "lol6", "expands to more than")
+
+
+INTERNAL_SUBSET = ('<!ENTITY ns_extend "http://example.org/Extensibility/1.0/">'
+                   '<!ENTITY ns_vars "http://example.org/Variables/1.0/"><!ENTITY st "fill:none;stroke:#000;">')
+
+
+@pytest.mark.parametrize("encoding", ["utf-8", "utf-16"])
+def test_internal_entities_in_namespace_attributes_are_honoured(tmp_path, encoding):
+    # XML 1.0 (4.4.2): a referenced internal entity is "included": its replacement text stands where the
+    # reference was.  Older exports of drawing programs declare namespace URIs so; a 30-40-50 line is 50 mm.
+    path = tmp_path / "entities.svg"
+    path.write_bytes((f'<?xml version="1.0" encoding="{encoding}"?>'
+                      '<!DOCTYPE svg PUBLIC "-//W3C//DTD SVG 1.1//EN" '
+                      f'"http://www.w3.org/Graphics/SVG/1.1/DTD/svg11.dtd" [{INTERNAL_SUBSET}]>'
+                      '<svg xmlns="http://www.w3.org/2000/svg" xmlns:x="&ns_extend;" xmlns:v="&ns_vars;" '
+                      'width="100mm" height="100mm" viewBox="0 0 100 100">'
+                      '<line x1="0" y1="0" x2="30" y2="40" style="&st;"/></svg>').encode(encoding))
+    result = measure_file(str(path))
+    assert result.ok, result.error
+    assert result.length_mm == pytest.approx(50.0, rel=1e-12)
+
+
+@pytest.mark.parametrize("encoding", ["utf-8", "utf-16"])
+def test_wide_entity_expansion_is_refused(tmp_path, encoding):
+    # no nesting, but 40,000 references to a 1,000-character entity: 40 million characters if expanded
+    path = tmp_path / "wide.svg"
+    path.write_bytes((f'<?xml version="1.0" encoding="{encoding}"?><!DOCTYPE svg [<!ENTITY w "{"w" * 1000}">]>'
+                      '<svg xmlns="http://www.w3.org/2000/svg"><text>' + "&w;" * 40_000 + '</text></svg>'
+                      ).encode(encoding))
+    check_fails(path, "unsafe XML", "expand")
+
+
+@pytest.mark.parametrize("subset, words", [
+    ('<!ENTITY % p "x">', "parameter entities"),  # XML 1.0 (4.1): parameter entities shape the DTD itself
+    ('<!ENTITY a "&b;"><!ENTITY b "x">', "before it is declared"),
+    ('<!ENTITY pub PUBLIC "-//X//Y//EN" "http://example.org/y.txt">', "external resource"),
+])
+def test_entities_that_could_not_be_bounded_are_refused(tmp_path, subset, words):
+    path = tmp_path / "odd.svg"
+    path.write_text(f'<?xml version="1.0"?><!DOCTYPE svg [{subset}]><svg xmlns="http://www.w3.org/2000/svg">'
+                    '<line x2="5"/></svg>')
+    check_fails(path, "unsafe XML", words)
 
 
 def test_external_entity_is_refused_and_never_read(tmp_path, runner):

@@ -54,6 +54,7 @@ from pathlen.importers.svg_values import (
     translate,
     viewbox_transform,
 )
+from pathlen.importers.xml_entities import declared_entities
 from pathlen.proximity import expand_ranges
 
 #: Largest SVG file read (bytes).  Peak memory measured at about 20x the file size for large files.
@@ -128,7 +129,8 @@ def local_name(tag: object) -> str:
 
 
 def parse_safely(path: Path) -> ET.Element:
-    """Parse XML with entities, external references and deep nesting refused (one-line errors)."""
+    """Parse XML with external references, deep nesting and entities beyond a budget refused (one-line
+    errors; see :mod:`pathlen.importers.xml_entities`)."""
     try:
         size = path.stat().st_size
     except FileNotFoundError:
@@ -142,7 +144,9 @@ def parse_safely(path: Path) -> ET.Element:
     root = None
     depth = 0
     try:
-        for event, elem in SafeET.iterparse(str(path), events=("start", "end"), forbid_dtd=False):
+        entities = declared_entities(path)
+        for event, elem in SafeET.iterparse(str(path), events=("start", "end"), forbid_dtd=False,
+                                            forbid_entities=not entities):
             if event == "end":
                 depth -= 1
                 continue
