@@ -13,9 +13,11 @@ a one-line reason.  Results are yielded as they complete.  Needs ``pip install '
 
 from __future__ import annotations
 
+import contextlib
 import dataclasses
 import os
 import re
+import time
 import uuid
 from collections.abc import Callable, Iterator
 from typing import Any
@@ -25,6 +27,10 @@ from pathlen.errors import PathlenError
 
 #: Seconds to wait for the scheduler to answer before giving up.
 CONNECT_TIMEOUT_S = 10.0
+#: Seconds past the time limit per file (``--timeout``) a cluster batch waits for its next result.
+STALL_GRACE_S = 30.0
+#: Seconds between looks at the cluster while waiting for results.
+POLL_S = 0.05
 
 
 class ClusterError(PathlenError):
@@ -74,32 +80,77 @@ def connect(address: str) -> Any:
 
 
 def run_on_cluster(client: Any, paths: list[str], settings: Any, work: Callable[[str, Any], Any],
-                   failed: Callable[..., Any], limits: Limits) -> Iterator[tuple[int, Any]]:
+                   failed: Callable[..., Any], limits: Limits, lost: list[str] | None = None
+                   ) -> Iterator[tuple[int, Any]]:
     """Yield ``(index, result)`` for every path as its task completes on the cluster.
 
     A task that fails (its workers died too often, or the task raised) gives ``failed(path, ok=False,
     error=...)``.  Results carry the path as given, whatever absolute path the workers were sent.
+    When the scheduler goes away, or no file finishes for ``limits.timeout_s`` plus
+    :data:`STALL_GRACE_S` (a frozen scheduler, no workers left), every file not answered yet is
+    given as not measured, with the cause, and the cause is appended once to ``lost``.
     """
     from distributed import as_completed
 
+    quiet_cluster_logs()
     batch = uuid.uuid4().hex[:12]
     futures = {}
     for i, path in enumerate(paths):
         future = client.submit(run_one, os.path.abspath(path), work, settings, failed, limits,
                                key=f"pathlen-{batch}-{i}", pure=False)
         futures[future] = i
+    pending = set(futures)
+    arriving = as_completed(futures, loop=client.loop)
+    stall_s = limits.timeout_s + STALL_GRACE_S
+    last = time.monotonic()
+    cause = None
     try:
-        for future in as_completed(futures, loop=client.loop):
-            i = futures[future]
-            try:
-                result = future.result()
-            except Exception as exc:  # noqa: BLE001 - any remote failure is this file's one-line error
-                result = failed(paths[i], ok=False, error=_reason(exc), environment=True)
-            if dataclasses.is_dataclass(result) and getattr(result, "path", paths[i]) != paths[i]:
-                result = dataclasses.replace(result, path=paths[i])
-            yield i, result
+        while pending and cause is None:
+            done = set(arriving.next_batch(block=False)) if arriving.has_ready() else set()
+            if not done:
+                time.sleep(POLL_S)
+            pending -= done
+            if client.status != "running" or any(f.cancelled() for f in done):
+                cause = f"the Dask scheduler at {client.scheduler.address} went away mid-batch"
+                pending |= {f for f in done if f.cancelled()}
+                done = {f for f in done if not f.cancelled()}
+            for future in sorted(done, key=futures.__getitem__):
+                yield futures[future], _result(future, paths[futures[future]], failed)
+            if done:
+                last = time.monotonic()
+            elif cause is None and time.monotonic() - last > stall_s:
+                cause = (f"no file finished on the cluster for {stall_s:g} s (--timeout plus {STALL_GRACE_S:g} s): "
+                         "its scheduler or workers stopped answering")
     finally:
-        client.cancel(list(futures))
+        if cause is None and pending:
+            with contextlib.suppress(Exception):
+                client.cancel(list(pending))  # stopped early by the caller: leave no work behind
+    if cause is not None:
+        if lost is not None:
+            lost.append(cause)
+        for i in sorted(futures[f] for f in pending):
+            yield i, failed(paths[i], ok=False, error=f"not measured: {cause}", environment=True)
+
+
+def _result(future: Any, path: str, failed: Callable[..., Any]) -> Any:
+    """A finished task's result under the path as given, or its one-line failure."""
+    try:
+        result = future.result()
+    except Exception as exc:  # noqa: BLE001 - any remote failure is this file's one-line error
+        return failed(path, ok=False, error=_reason(exc), environment=True)
+    if dataclasses.is_dataclass(result) and getattr(result, "path", path) != path:
+        result = dataclasses.replace(result, path=path)
+    return result
+
+
+def quiet_cluster_logs() -> None:
+    """Silence the cluster library's own log lines (its reconnect attempts print whole tracebacks):
+    pathlen says in one line what went wrong."""
+    import logging
+
+    quiet = ("distributed", "asyncio", "tornado")
+    for name in [*quiet, *(n for n in logging.root.manager.loggerDict if n.startswith(quiet))]:
+        logging.getLogger(name).setLevel(logging.CRITICAL + 1)
 
 
 def busy_workers(client: Any) -> tuple[int, int]:

@@ -6,6 +6,7 @@ against closed forms; a cluster run must give the same JSON document, file for f
 
 from __future__ import annotations
 
+import contextlib
 import json
 import os
 import shutil
@@ -189,3 +190,91 @@ def test_a_malformed_scheduler_address_is_one_line_at_once(address) -> None:
     assert res.returncode == 2
     assert "is not a scheduler address" in res.stderr and "Traceback" not in res.stderr
     assert time.monotonic() - start < 15  # far below the 20 s a client's clean-up used to take
+
+
+def _free_port() -> int:
+    import socket
+
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+@pytest.fixture
+def own_cluster(tmp_path: Path):
+    """A scheduler and one worker in processes of their own (each its own process group), so a test can
+    kill or freeze the scheduler; both are killed at the end, whatever state they are in."""
+    import subprocess
+    import sys
+    import time
+
+    address = f"tcp://127.0.0.1:{_free_port()}"
+    quiet = {"stdout": subprocess.DEVNULL, "stderr": subprocess.DEVNULL, "start_new_session": True}
+    scheduler = subprocess.Popen([sys.executable, "-m", "dask", "scheduler", "--host", "127.0.0.1", "--port",
+                                  address.rsplit(":", 1)[1], "--no-dashboard"], **quiet)
+    worker = subprocess.Popen([sys.executable, "-m", "dask", "worker", address, "--nworkers", "1", "--nthreads", "1",
+                               "--no-dashboard"], cwd=tmp_path, **quiet)
+    try:
+        with Client(address, timeout=60, set_as_default=False) as client:
+            client.wait_for_workers(1, timeout=60)
+        time.sleep(0.5)
+        yield address, scheduler
+    finally:
+        for proc in (worker, scheduler):
+            with contextlib.suppress(ProcessLookupError):
+                os.killpg(proc.pid, signal.SIGKILL)  # SIGKILL ends a stopped process too
+            proc.wait(timeout=30)
+
+
+def _slow_batch(folder: Path, count: int) -> list[str]:
+    """SVG files of 150,000 cubic pieces each: a few seconds apiece, so a batch is still running when its
+    scheduler is stopped."""
+    import random
+
+    rng = random.Random(3)
+    d = " ".join(f"M{rng.uniform(0, 900):.2f},{rng.uniform(0, 900):.2f} c1,2 3,4 5,1" for _ in range(150_000))
+    text = ('<svg xmlns="http://www.w3.org/2000/svg" width="1000mm" height="1000mm" viewBox="0 0 1000 1000">'
+            f'<path d="{d}" stroke="black" fill="none"/></svg>')
+    names = []
+    for k in range(count):
+        (folder / f"panel_{k}.svg").write_text(text)
+        names.append(str(folder / f"panel_{k}.svg"))
+    return names
+
+
+@pytest.mark.parametrize("fault", ["kill", "freeze"])
+def test_a_scheduler_lost_mid_batch_is_one_line_in_bounded_time(own_cluster, tmp_path: Path, fault: str) -> None:
+    # killed: the batch ends at once; frozen (SIGSTOP): no file finishes for --timeout plus the stated grace
+    # (30 s), then it ends.  Either way one line says so, every file not answered is named as not measured,
+    # the files answered keep their answers, and no traceback from the cluster library reaches the user.
+    import subprocess
+    import sys
+    import time
+
+    from pathlen.cluster import STALL_GRACE_S
+
+    address, scheduler = own_cluster
+    files = _slow_batch(tmp_path, 8)
+    start = time.monotonic()
+    proc = subprocess.Popen([sys.executable, "-m", "pathlen", "measure", "--scheduler", address, "--timeout", "2",
+                             "--format", "json", *files], stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    try:
+        time.sleep(2.0)
+        os.kill(scheduler.pid, signal.SIGKILL if fault == "kill" else signal.SIGSTOP)
+        out, err = proc.communicate(timeout=2 + STALL_GRACE_S + 60)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+            proc.communicate()
+    took = time.monotonic() - start
+    assert proc.returncode == 1
+    assert "Traceback" not in err
+    cause = "went away mid-batch" if fault == "kill" else "no file finished on the cluster for 32 s"
+    summary = [line for line in err.splitlines() if line.startswith("error cluster:")]
+    assert len(summary) == 1 and cause in summary[0]
+    files_out = json.loads(out)["files"]
+    assert [f["path"] for f in files_out] == files
+    missed = [f for f in files_out if not f["ok"]]
+    assert missed and all(f["error"].startswith("not measured: ") and cause in f["error"] for f in missed)
+    assert summary[0].endswith(f"{len(missed)} files not measured")
+    assert took < (30 if fault == "kill" else 2 + STALL_GRACE_S + 30)

@@ -3,6 +3,7 @@
 
 from __future__ import annotations
 
+import contextlib
 import functools
 import io
 import math
@@ -32,6 +33,8 @@ from pathlen.importers import ImportOptions
 from pathlen.instances import DEFAULT_MAX_SEGMENTS
 from pathlen.measure import DEFAULT_RTOL
 
+#: Seconds to wait for a cluster's scheduler to take leave at the end of a batch.
+CLOSE_TIMEOUT_S = 5.0
 DRAWING_UNITS = tuple(sorted(k for k in MM_PER_UNIT if k not in ("px", "pt", "pc", "q")))
 
 
@@ -208,6 +211,7 @@ def collect(files: list[str], settings: Any, reading: Reading, work: Callable[[s
     results: list[Any] = [None] * len(files)
     console = Console(stderr=True)
     client = None
+    lost: list[str] = []
     if reading.scheduler:
         from pathlen.cluster import ClusterError, connect, run_on_cluster
 
@@ -215,7 +219,7 @@ def collect(files: list[str], settings: Any, reading: Reading, work: Callable[[s
             client = connect(reading.scheduler)
         except ClusterError as exc:
             raise click.UsageError(str(exc)) from None
-        batch = run_on_cluster(client, files, settings, work, failed, reading.limits)
+        batch = run_on_cluster(client, files, settings, work, failed, reading.limits, lost)
     else:
         batch = run_batch(files, settings, reading.jobs, work, failed, reading.limits)
     if console.is_terminal and len(files) > 1:
@@ -230,7 +234,12 @@ def collect(files: list[str], settings: Any, reading: Reading, work: Callable[[s
         for i, r in batch:
             results[i] = r
     if client is not None:
-        client.close()
+        with contextlib.suppress(Exception):
+            client.close(timeout=CLOSE_TIMEOUT_S)  # a frozen scheduler never answers the goodbye
+    if lost:
+        missed = sum(1 for r in results if r is not None and not r.ok and r.error.startswith("not measured: "))
+        console.print(f"[red]error[/red] cluster: {plain(lost[0])}; {missed} file{'s' * (missed != 1)} not measured",
+                      highlight=False, soft_wrap=True)
     done = [r for r in results if r is not None]
     if reading.strict:
         for r in done:

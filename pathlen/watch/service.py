@@ -265,11 +265,11 @@ class Service:
             else:
                 self.settling.forget(c.rel)  # taken again in the next round
 
-    def _batch(self, paths: list[str], task: Task, started: object) -> object:
+    def _batch(self, paths: list[str], task: Task, started: object, lost: list[str]) -> object:
         if self.client is not None:
             from pathlen.cluster import run_on_cluster
 
-            return run_on_cluster(self.client, paths, task.settings, task.work, task.failed, self.cfg.limits)
+            return run_on_cluster(self.client, paths, task.settings, task.work, task.failed, self.cfg.limits, lost)
         return run_batch(paths, task.settings, self.cfg.jobs, task.work, task.failed, self.cfg.limits,
                          started=started, stop=self.stop)  # type: ignore[arg-type]
 
@@ -279,11 +279,9 @@ class Service:
     def _lose_cluster(self, reason: str) -> None:
         self.log("cluster-lost", scheduler=str(self.cfg.scheduler), error=reason[:200],
                  action="running on local workers from now on; the jobs in flight go back to the queue")
-        import logging
+        from pathlen.cluster import quiet_cluster_logs
 
-        quiet = ("distributed", "asyncio", "tornado")  # its reconnect attempts would print tracebacks
-        for name in [*quiet, *(n for n in logging.root.manager.loggerDict if n.startswith(quiet))]:
-            logging.getLogger(name).setLevel(logging.CRITICAL + 1)
+        quiet_cluster_logs()
         with contextlib.suppress(Exception):
             self.client.close()  # type: ignore[union-attr]
         self.client = None
@@ -299,9 +297,10 @@ class Service:
             for _, key, _ in to_run:
                 self.ledger.start(key)
         try:
-            for i, result in self._batch(paths, task, lambda i: self.ledger.start(to_run[i][1])):  # type: ignore
-                if on_cluster and not getattr(result, "ok", True) and self._cluster_down():
-                    raise _ClusterLost(str(getattr(result, "error", "")))
+            lost: list[str] = []
+            for i, result in self._batch(paths, task, lambda i: self.ledger.start(to_run[i][1]), lost):  # type: ignore
+                if on_cluster and (lost or (not getattr(result, "ok", True) and self._cluster_down())):
+                    raise _ClusterLost(lost[0] if lost else str(getattr(result, "error", "")))
                 answered.add(i)
                 self._answer(to_run[i], result, task)
                 if self.stop.is_set():
