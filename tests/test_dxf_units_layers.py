@@ -118,3 +118,35 @@ def test_a_frozen_insert_hides_its_whole_block_an_off_one_its_layer_0_content(tm
     assert any("inside block references on frozen layers" in w and "17.000 mm" in w for w in result.warnings)
     everything = measure_file(str(path), MeasureSettings(import_options=ImportOptions(hidden_layers=True)))
     assert everything.length_mm == pytest.approx(3 * 17)
+
+
+def _r12_binary_dxf(path, header_tags):
+    """A binary DXF as the DXF reference describes it for files without $ACADVER (R12 and before): the
+    22-byte sentinel "AutoCAD Binary DXF" CR LF SUB NUL, then tags of a one-byte group code and a value:
+    strings NUL-terminated, reals 8-byte IEEE little-endian, 16-bit integers 2 bytes little-endian."""
+    import struct
+
+    def tag(code, value):
+        if isinstance(value, str):
+            return bytes([code]) + value.encode("ascii") + b"\x00"
+        if isinstance(value, float):
+            return bytes([code]) + struct.pack("<d", value)
+        return bytes([code]) + struct.pack("<h", value)
+
+    tags = [*header_tags, (0, "SECTION"), (2, "ENTITIES"), (0, "LINE"), (8, "0"), (10, 0.0), (20, 0.0), (30, 0.0),
+            (11, 300.0), (21, 400.0), (31, 0.0), (0, "ENDSEC"), (0, "EOF")]
+    path.write_bytes(b"AutoCAD Binary DXF\r\n\x1a\x00" + b"".join(tag(c, v) for c, v in tags))
+    return path
+
+
+@pytest.mark.parametrize(("header", "mm", "warned"), [
+    ([], 500.0, True),  # no HEADER section: unitless, taken as mm with the warning (as for a text file)
+    ([(0, "SECTION"), (2, "HEADER"), (9, "$INSUNITS"), (70, 4), (0, "ENDSEC")], 500.0, False),  # 4 = mm
+    ([(0, "SECTION"), (2, "HEADER"), (9, "$INSUNITS"), (70, 1), (0, "ENDSEC")], 500.0 * 25.4, False),  # 1 = in
+])
+def test_binary_dxf_units_with_and_without_a_header(tmp_path, header, mm, warned):
+    # a 300-400-500 line: a header-less binary file was read as metres (a new drawing's default header)
+    result = measure_file(str(_r12_binary_dxf(tmp_path / "bin.dxf", header)))
+    assert result.ok, result.error
+    assert result.length_mm == pytest.approx(mm, rel=1e-15)
+    assert any("no units" in w for w in result.warnings) == warned

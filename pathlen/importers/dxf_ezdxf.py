@@ -159,6 +159,8 @@ def _read_whole(path: Path) -> ezdxf.document.Drawing:
     binary = head.startswith(b"AutoCAD Binary DXF")
     if not binary and _SECTION.search(head) is None:
         raise InputError("not a DXF file (no DXF structure found)")
+    if binary and not _has_binary_header(head):
+        return _read_binary_without_header(path.read_bytes())
     if binary or _HEADER_SECTION.search(head) is not None:
         return ezdxf.readfile(path)
     raw = path.read_bytes()
@@ -168,6 +170,26 @@ def _read_whole(path: Path) -> ezdxf.document.Drawing:
         text = raw.decode("cp1252", errors="replace")
     text = text.lstrip("\ufeff").replace("\r\n", "\n")  # CRLF line ends, as ezdxf's file reader takes them
     return ezdxf.read(io.StringIO(MINIMAL_HEADER + text))
+
+
+#: An empty HEADER section in binary DXF with one-byte group codes (what a file without $ACADVER uses)
+EMPTY_BINARY_HEADER = b"\x00SECTION\x00\x02HEADER\x00\x00ENDSEC\x00"
+_BINARY_SENTINEL = 22  # "AutoCAD Binary DXF" CR LF SUB NUL
+
+
+def _has_binary_header(head: bytes) -> bool:
+    """Whether a binary DXF starts with a HEADER section (group code 2 in one byte or two)."""
+    first = head[_BINARY_SENTINEL:_BINARY_SENTINEL + 32]
+    return b"\x02HEADER\x00" in first or b"\x02\x00HEADER\x00" in first
+
+
+def _read_binary_without_header(data: bytes) -> ezdxf.document.Drawing:
+    """A binary DXF without a HEADER section, read with an empty one: ezdxf would otherwise take a new
+    drawing's header, metres and all; without $INSUNITS the drawing is unitless, as for text files."""
+    from ezdxf.document import Drawing
+    from ezdxf.lldxf.tagger import binary_tags_loader
+
+    return Drawing.load(binary_tags_loader(data[:_BINARY_SENTINEL] + EMPTY_BINARY_HEADER + data[_BINARY_SENTINEL:]))
 
 
 _HEADER_SECTION = re.compile(rb"(?m)^[ \t]*0[ \t]*\r?\n[ \t]*SECTION[ \t]*\r?\n"
