@@ -206,3 +206,65 @@ def test_environment_can_rule_the_bulk_reader_out(monkeypatch) -> None:
     monkeypatch.delenv("PATHLEN_DXF_READER")
     with pytest.raises(AssertionError, match="bulk reader was used"):
         read_dxf(FIXTURES / "kl101_bracket.dxf")
+
+
+REST_KINDS = ["DICTIONARY", "LAYOUT", "MATERIAL", "MLINESTYLE", "DICTIONARYVAR", "XRECORD", "VISUALSTYLE",
+              "ACDBPLACEHOLDER", "TABLESTYLE", "FOOBAR", "LINE", "BLOCK_RECORD", "STYLE", "CLASS"]
+
+
+@settings(max_examples=200, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(drawing=drawings(), edits=st.lists(st.tuples(st.sampled_from(["kind", "handle", "delete", "twice", "value"]),
+                                                      st.integers(0, 10**6)), min_size=1, max_size=3))
+def test_the_rest_check_never_vouches_for_what_ezdxf_objects_to(tmp_path: Path, drawing, edits) -> None:
+    """The bulk reader's structural check of header, tables, blocks and objects (pathlen.importers.dxf_rest)
+    spares ezdxf's loading only for files ezdxf loads silently: damage aimed at the links ezdxf follows
+    (object kinds, handles, dictionary entries) is either caught or left to ezdxf."""
+    from pathlen.importers.dxf_bulk import read_plain
+    from pathlen.importers.dxf_ezdxf import loads_silently
+    from pathlen.importers.dxf_tags import NotPlain
+
+    doc, _version = drawing
+    path = tmp_path / "linked.dxf"
+    doc.saveas(path)
+    lines = path.read_text().splitlines()
+    tags = [[lines[i].strip(), lines[i + 1]] for i in range(0, len(lines) - 1, 2)]
+    handles = [v for c, v in tags if c == "5"]
+    for edit, seed in edits:
+        # aimed at the OBJECTS section (R12 files have none: the whole file then) and at the link codes
+        objects = next((i for i, (c, v) in enumerate(tags) if (c, v) == ("2", "OBJECTS")), 0)
+        k = objects + seed % (len(tags) - objects)
+        if edit == "kind":
+            at = [i for i, (c, _) in enumerate(tags) if c == "0" and i > objects] or [0]
+            tags[at[seed % len(at)]][1] = REST_KINDS[seed % len(REST_KINDS)]
+        elif edit == "handle":
+            at = [i for i, (c, _) in enumerate(tags) if c in ("5", "330", "340", "350", "360")]
+            tags[at[seed % len(at)]][1] = [*handles, "FFFF", "0"][seed % (len(handles) + 2)]
+        elif edit == "delete":
+            del tags[k]
+        elif edit == "twice":
+            tags.insert(k, list(tags[k]))
+        else:
+            tags[k][1] = ["0", "1", "-1", "abc", ""][seed % 5]
+    data = "".join(f"{c}\n{v}\n" for c, v in tags).encode()
+    try:
+        plain = read_plain(data, keep_rest=True)
+    except (NotPlain, IndexError, ValueError, TypeError, KeyError, ZeroDivisionError, OverflowError):
+        return  # declined: ezdxf reads it
+    if plain.rest_checked:
+        assert loads_silently(plain.rest)
+
+
+def test_a_file_the_bulk_reader_takes_whole_never_imports_ezdxf(tmp_path: Path) -> None:
+    """README: a plain file is read without loading ezdxf at all (start-up time of small files)."""
+    import subprocess
+    import sys
+
+    doc = ezdxf.new("R2010", units=4)
+    for k in range(40):
+        doc.modelspace().add_line((k, 0), (k, 10))
+    path = tmp_path / "tiny.dxf"
+    doc.saveas(path)
+    probe = ("import sys; from pathlen.batch import measure_file; r = measure_file(sys.argv[1]); "
+             "print(r.ok, r.length_mm, 'ezdxf' in sys.modules)")
+    out = subprocess.run([sys.executable, "-c", probe, str(path)], capture_output=True, text=True, timeout=120)
+    assert out.stdout.split() == ["True", "400.0", "False"], out.stderr

@@ -34,6 +34,7 @@ from pathlen.geometry import (
 from pathlen.importers.dxf_blocks import BlockCache, place_insert
 from pathlen.importers.dxf_fields import Fields
 from pathlen.importers.dxf_layout import MEASURED, Layout, layout
+from pathlen.importers.dxf_rest import rest_is_plain
 from pathlen.importers.dxf_tags import PADDING, NotPlain, TagTable, parse_tags
 from pathlen.importers.nurbs import bezier_pieces, window_beziers
 
@@ -60,19 +61,23 @@ class PlainDxf:
 
     drawing: Drawing
     insunits: int
+    #: the file without its entities, for ezdxf to load: empty when :func:`rest_is_plain` vouched for
+    #: it (unless asked for) and nothing is left to check
     rest: bytes
+    rest_checked: bool = False
 
 
-def read_plain(data: bytes | bytearray, hidden_layers: bool = False) -> PlainDxf:
+def read_plain(data: bytes | bytearray, hidden_layers: bool = False, keep_rest: bool = False) -> PlainDxf:
     """Read a text DXF file's model space from its bytes; raises NotPlain (read it with ezdxf)."""
     tags = parse_tags(data)
     del data  # the tag table keeps the bytes as long as it needs them
     lay = layout(tags)
-    rest = _without_entities(tags, lay)
+    checked = rest_is_plain(tags, lay)
+    rest = _without_entities(tags, lay) if keep_rest or not checked else b""
     reader = _Reader(tags, lay, hidden_layers)
     del tags
     lay.owner = np.zeros(0, dtype=np.int32)  # per tag: no longer needed
-    return PlainDxf(reader.model(), reader.insunits, rest)
+    return PlainDxf(reader.model(), reader.insunits, rest, checked)
 
 
 def _without_entities(tags: TagTable, lay: Layout) -> bytes:

@@ -21,6 +21,8 @@ MEASURED = frozenset({"LINE", "CIRCLE", "ARC", "ELLIPSE", "LWPOLYLINE", "POLYLIN
 #: Kinds counted as "not measured" without reading them; any other kind sends the file to ezdxf.
 NOT_MEASURED = frozenset({"TEXT", "MTEXT", "POINT", "HATCH", "DIMENSION", "ATTDEF", "SOLID", "TRACE", "3DFACE",
                           "LEADER", "VIEWPORT", "XLINE", "RAY"})
+#: Table names of the TABLES section (DXF reference, "TABLES Section").
+TABLES = frozenset({"VPORT", "LTYPE", "LAYER", "STYLE", "VIEW", "UCS", "APPID", "DIMSTYLE", "BLOCK_RECORD"})
 #: Section names ezdxf reads (DXF reference, "DXF Files").
 SECTIONS = frozenset({"HEADER", "CLASSES", "TABLES", "BLOCKS", "ENTITIES", "OBJECTS", "THUMBNAILIMAGE", "ACDSDATA"})
 
@@ -51,6 +53,10 @@ class Layout:
     attributed: set[int]
     #: entity numbers of the ENTITIES section's first entity and its ENDSEC (equal when it is empty)
     entities_body: tuple[int, int] | None = None
+    #: section names in file order
+    sections: list[str] = field(default_factory=list)
+    #: entity numbers of the OBJECTS section's objects
+    objects: list[int] = field(default_factory=list)
 
 
 
@@ -74,6 +80,7 @@ def layout(tags: TagTable) -> Layout:
         if name not in SECTIONS or name in seen:
             raise NotPlain(f"section {name[:20]!r}")
         seen.add(name)
+        out.sections.append(name)
         end = i + 1
         while end < n and kinds[end] not in ("ENDSEC", "SECTION"):
             end += 1
@@ -92,6 +99,8 @@ def layout(tags: TagTable) -> Layout:
         elif name == "ENTITIES":
             out.entities = _graphics(kinds, body, follows, out)
             out.entities_body = (i + 1, end)
+        elif name == "OBJECTS":
+            out.objects = list(body)
         i = end + 1
     if out.header < 0:
         raise NotPlain("no HEADER section")
@@ -134,6 +143,8 @@ def _tables(tags: TagTable, first: NDArray[np.int64], kinds: list[str], body: ra
             if table or tags.codes[head + 1] != 2:
                 raise NotPlain("a TABLE without its name or inside another")
             table = tags.text(head + 1)
+            if table not in TABLES:
+                raise NotPlain(f"a table {table[:20]!r}")
         elif kind == "ENDTAB":
             if not table:
                 raise NotPlain("ENDTAB outside a table")
@@ -243,3 +254,5 @@ def _check_handles(tags: TagTable, owner_of: NDArray[np.int32], kinds: list[str]
         raise NotPlain("a handle that is not hexadecimal")
     if len(np.unique(chars.view("S16").ravel())) != len(handles):
         raise NotPlain("a handle used twice")
+    if np.any(np.all((chars == ord("0")) | (chars == 0), axis=1)):
+        raise NotPlain("a handle 0 (no entity's: ezdxf refuses it)")
