@@ -266,11 +266,15 @@ class _Reader:
 
     def _lines(self, seg: _Segments) -> None:
         e = self.by_kind["LINE"]
+        if len(e) == 0:
+            return
         seg.lines.append((self.f.point(10, e), self.f.point(11, e), e))
 
     def _circles(self, seg: _Segments) -> None:
         for kind in ("CIRCLE", "ARC"):
             e = self.by_kind[kind]
+            if len(e) == 0:
+                continue
             r = self.f.number(40, e)
             if not np.all(r > 0):
                 raise NotPlain("a circle or arc whose radius is not positive")
@@ -289,6 +293,8 @@ class _Reader:
 
     def _ellipses(self, seg: _Segments) -> None:
         e = self.by_kind["ELLIPSE"]
+        if len(e) == 0:
+            return
         center, major = self.f.point(10, e), self.f.point(11, e)
         ratio = self.f.number(40, e)
         t0, t1 = self.f.number(41, e, 0.0), self.f.number(42, e, TWO_PI)
@@ -305,6 +311,8 @@ class _Reader:
 
     def _lwpolylines(self, seg: _Segments) -> None:
         e = self.by_kind["LWPOLYLINE"]
+        if len(e) == 0:
+            return
         wanted = self._mask(e)
         idx, own = self.f.many(10, wanted)
         xyz = self.f.points_at(idx, 10, flat=True)
@@ -322,6 +330,8 @@ class _Reader:
 
     def _polylines(self, seg: _Segments) -> None:
         e = self.by_kind["POLYLINE"]
+        if len(e) == 0:
+            return
         flags = self.f.integer(70, e, 0)
         mesh = (flags & (16 | 64)) != 0
         for m in e[mesh].tolist():
@@ -350,6 +360,8 @@ class _Reader:
 
     def _splines(self, seg: _Segments) -> None:
         e = self.by_kind["SPLINE"]
+        if len(e) == 0:
+            return
         wanted = self._mask(e)
         ctrl_idx, ctrl_own = self.f.many(10, wanted)
         knot_idx, knot_own = self.f.many(40, wanted)
@@ -500,6 +512,8 @@ class _Reader:
         (rows, columns; row and column steps along the rotated OCS axes, not scaled)."""
         f, e = self.f, self.by_kind["INSERT"]
         self.insert_row = {m: k for k, m in enumerate(e.tolist())}
+        if len(e) == 0:
+            return
         self.insert_name = f.text(2, e)
         self.insert_layer = f.text(8, e, "0")
         self.insert_handle = f.text(5, e)
