@@ -114,7 +114,9 @@ def _check_header(tags: TagTable, start: int, stop: int) -> None:
     nine = np.flatnonzero(codes == 9)
     if len(codes) and (len(nine) == 0 or nine[0] != 0):
         raise NotPlain("a header value without its variable name")
-    if any(not name.startswith("$") for name in tags.texts(nine + start)):
+    names = nine + start
+    if np.any((tags.end[names] <= tags.start[names]) | (np.frombuffer(tags.data, dtype=np.uint8)[tags.start[names]]
+                                                        != ord("$"))):
         raise NotPlain("a header variable name without its leading $")
     size = np.diff(np.append(nine, len(codes)))
     if np.any((size < 2) | (size > 4)):

@@ -45,6 +45,8 @@ TEXT_WIDTH = 256
 PADDING = TEXT_WIDTH
 #: Bytes scanned for line ends per numpy pass.
 NEWLINE_CHUNK = 1 << 22
+#: Bytes of windows gathered directly (beyond, through a sliding window view: no index array per byte).
+SMALL_WINDOWS = 1 << 16
 #: Tags handled per numpy pass (bounds the temporary arrays: CHUNK x NUMBER_WIDTH bytes).
 CHUNK = 1 << 18
 
@@ -96,7 +98,11 @@ def windows(data: bytearray, start: NDArray[np.int64], width: int, length: NDArr
             ) -> NDArray[np.uint8]:
     """``[n, width]`` bytes of ``data`` (padded: see :func:`read_padded`) from each ``start``; bytes at or
     past ``length`` (per row) are 0."""
-    rows = np.lib.stride_tricks.sliding_window_view(np.frombuffer(data, dtype=np.uint8), width)[start]
+    raw = np.frombuffer(data, dtype=np.uint8)
+    if len(start) * width <= SMALL_WINDOWS:  # a direct gather: no view machinery for small requests
+        rows = raw[start[:, None] + np.arange(width)]
+    else:
+        rows = np.lib.stride_tricks.sliding_window_view(raw, width)[start]
     if length is not None:
         rows[np.arange(width) >= length[:, None]] = 0
     return rows
