@@ -11,11 +11,12 @@ from typing import Any
 
 import numpy as np
 
-from pathlen.contours import DEFAULT_JOIN_TOL_MM, count_contours
+from pathlen.contour_tree import count_placed
+from pathlen.contours import DEFAULT_JOIN_TOL_MM
 from pathlen.errors import PathlenError, UsageError
-from pathlen.geometry import Drawing, keep_entities
+from pathlen.geometry import Drawing
 from pathlen.importers import SUFFIXES, ImportOptions, read_drawing
-from pathlen.instances import DEFAULT_MAX_SEGMENTS, TooManySegments, expand, segment_total
+from pathlen.instances import DEFAULT_MAX_SEGMENTS, TooManySegments, segment_total
 from pathlen.measure import DEFAULT_RTOL, measure
 
 
@@ -147,8 +148,7 @@ def _measure_file(path: str, settings: MeasureSettings) -> FileResult:
     shown = np.array([not e.hidden for e in drawing.entities], dtype=bool)
     warnings.extend(hidden_note(drawing, result.entity_length))
     try:
-        flat = expand(drawing, settings.max_segments, "counting contours")
-        contours = count_contours(flat if shown.all() else keep_entities(flat, shown), settings.join_tol_mm)
+        contours = count_placed(drawing, settings.join_tol_mm, settings.max_segments)
     except TooManySegments as exc:
         contours = None
         warnings.append(f"contours not counted: {exc}; lengths are exact all the same")

@@ -128,3 +128,114 @@ def test_nested_inserts_six_deep_ten_wide(tmp_path):
     assert result.layers["0"].count == 10**6
     assert result.open == 10**6
     assert time.perf_counter() - start < 30
+
+
+def _written_out_count(drawing):
+    from pathlen.contours import count_contours
+    from pathlen.geometry import keep_entities
+
+    shown = np.array([not e.hidden for e in drawing.entities], dtype=bool)
+    return count_contours(keep_entities(expand(drawing), shown))
+
+
+def _lattice_definition(rng, layer):
+    """Lines and quarter arcs between points of a unit lattice: copies moved by lattice maps share ends."""
+    coll = SegmentCollector()
+    for k in range(rng.integers(1, 5)):
+        e = coll.entity(layer if k % 2 else "0", f"h{k}", "X")
+        a = np.r_[rng.integers(0, 4, size=2), 0].astype(float)
+        b = np.r_[rng.integers(0, 4, size=2), 0].astype(float)
+        if np.any(a != b):
+            coll.add_line(a, b, e)
+        else:  # a quarter circle of radius 1 from a to a + (1, 1)
+            coll.add_arc(a + np.array([1.0, 0.0, 0.0]), (-1.0, 0.0, 0.0), (0.0, 1.0, 0.0), 0.0, math.pi / 2, e)
+    return coll
+
+
+def _lattice_map(rng):
+    """A lattice symmetry (quarter turns, mirror, integer shift) or, now and then, a scaling by 2 or 1/2."""
+    turns = int(rng.integers(0, 4))
+    c, s = [1, 0, -1, 0][turns], [0, 1, 0, -1][turns]
+    lin = np.array([[c, -s, 0], [s, c, 0], [0, 0, 1]], dtype=float) @ np.diag([rng.choice([-1, 1]), 1, 1])
+    if rng.random() < 0.25:
+        lin = lin * rng.choice([0.5, 2.0])
+    return affine(lin, tuple(float(v) for v in rng.integers(-4, 5, size=2)))
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.integers(0, 2**32 - 1))
+def test_contours_counted_through_the_tree_equal_written_out_copies(seed):
+    # Reference: the copies written out and counted as one drawing.  Lattice pieces under lattice maps:
+    # many copies share ends with others or with the drawing's own segments, some are far apart, some
+    # are scaled (a scaled copy may join differently and is written out).
+    from pathlen.contour_tree import count_placed
+
+    rng = np.random.default_rng(seed)
+    far = float(rng.choice([1.0, 100.0]))
+    deepest = _lattice_definition(rng, "L3").drawing()
+    middle = _lattice_definition(rng, "L2")
+    for _ in range(rng.integers(1, 5)):
+        m = _lattice_map(rng)
+        m[:2, 3] *= far
+        middle.add_placement(deepest, m, "d", lambda lay: "MID" if lay == "0" else lay, "d/")
+    middle_d = middle.drawing()
+    top = _lattice_definition(rng, "L1")
+    for k in range(rng.integers(1, 5)):
+        m = _lattice_map(rng)
+        m[:2, 3] *= far
+        top.add_placement(middle_d, m, ("m", k % 2), lambda lay, k=k: f"TOP{k % 2}" if lay == "0" else lay, "m/")
+    drawing = top.drawing()
+    assert count_placed(drawing, 0.01, 10**7) == _written_out_count(drawing)
+
+
+def test_copies_that_share_edges_join_and_scaled_copies_close_a_gap(tmp_path):
+    # squares of four lines, side 10, in a row 10 apart: neighbours share an edge, so the row is one
+    # network, not separate squares; a square with a 0.015 mm gap (over the 0.01 mm join tolerance) is
+    # open, and closed when a copy scales it by 1/2 (the gap becomes 0.0075 mm)
+    from pathlen.contour_tree import count_placed
+
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 4
+    square = doc.blocks.new("SQ")
+    for a, b in (((0, 0), (10, 0)), ((10, 0), (10, 10)), ((10, 10), (0, 10)), ((0, 10), (0, 0))):
+        square.add_line(a, b)
+    gapped = doc.blocks.new("GAP")
+    for a, b in (((0, 0), (10, 0)), ((10, 0), (10, 10)), ((10, 10), (0, 10)), ((0, 10), (0, 0.015))):
+        gapped.add_line(a, b)
+    msp = doc.modelspace()
+    for k in range(4):
+        msp.add_blockref("SQ", (10 * k, 0))  # touching neighbours
+    msp.add_blockref("SQ", (100, 100))  # alone
+    msp.add_blockref("GAP", (200, 0))  # open
+    msp.add_blockref("GAP", (300, 0), dxfattribs={"xscale": 0.5, "yscale": 0.5})  # closed by scaling
+    path = tmp_path / "row.dxf"
+    doc.saveas(path)
+    drawing = read_drawing(path)
+    counted = count_placed(drawing, 0.01, 10**7)
+    assert counted == _written_out_count(drawing)
+    assert counted.open == 1
+    assert counted.closed == 1 + 1 + 1  # the row as one closed network, the lone square, the scaled gap
+
+
+def test_a_tree_of_ten_million_disjoint_copies_is_counted(tmp_path):
+    # 7 levels of 10 copies of (a circle, a line): 10^7 closed and 10^7 open contours by construction,
+    # counted once per block instead of 2 x 10^7 written-out segments (which the segment limit refuses)
+    doc = ezdxf.new()
+    doc.header["$INSUNITS"] = 4
+    leaf = doc.blocks.new("B0")
+    leaf.add_circle((0, 0), 0.25)
+    leaf.add_line((0.5, 0), (0.9, 0))
+    for level in range(1, 8):
+        blk = doc.blocks.new(f"B{level}")
+        for k in range(10):
+            blk.add_blockref(f"B{level - 1}", (0, 2 * k * 10 ** (level - 1)) if level % 2 else
+                             (2 * k * 10 ** (level - 1), 0))
+    doc.modelspace().add_blockref("B7", (0, 0))
+    path = tmp_path / "tree.dxf"
+    doc.saveas(path)
+    start = time.perf_counter()
+    result = measure_file(str(path))
+    assert result.ok and result.contours_counted, result.warnings
+    assert (result.closed, result.open) == (10**7, 10**7)
+    assert result.length_mm == pytest.approx(10**7 * (2 * math.pi * 0.25 + 0.4), rel=1e-12)  # circle 2πr
+    assert time.perf_counter() - start < 60  # a hang guard, not a timing: it was 17 s and 4 GB, then refused
