@@ -36,7 +36,7 @@ from pathlen.importers.dxf_fields import Fields
 from pathlen.importers.dxf_layout import MEASURED, Layout, layout
 from pathlen.importers.dxf_rest import rest_is_plain
 from pathlen.importers.dxf_tags import PADDING, NotPlain, TagTable, parse_tags
-from pathlen.importers.nurbs import bezier_pieces, window_beziers
+from pathlen.importers.nurbs import window_beziers
 
 TWO_PI = 2.0 * math.pi
 Z_AXIS = (0.0, 0.0, 1.0)
@@ -392,8 +392,8 @@ class _Reader:
             group = np.flatnonzero(by_ctrl & (p == deg) & (n == count))
             self._spline_group(seg, e[group], deg, count, ctrl, c_start[group], knots, k_start[group],
                                weights, w_start[group], n_w[group] > 0)
-        for k in np.flatnonzero(~by_ctrl).tolist():
-            self._fit_spline(seg, int(e[k]), fit_idx[fit_own == e[k]])
+        if np.any(~by_ctrl):
+            self._fit_splines(seg, e[~by_ctrl], fit_idx, fit_own)
 
     def _spline_group(self, seg: _Segments, ents: IntArray, p: int, n: int, ctrl: FloatArray, c0: IntArray,
                       knots: FloatArray, k0: IntArray, weights: FloatArray, w0: IntArray, has_w: NDArray[np.bool_]
@@ -418,28 +418,45 @@ class _Reader:
         piece_w = np.where(rational[s_idx][:, None], piece_w, 1.0)
         _add_pieces(seg, piece_ctrl, piece_w, ents[s_idx], p)
 
-    def _fit_spline(self, seg: _Segments, e: int, fit_idx: IntArray) -> None:
-        """A spline given by fit points, through ezdxf's own interpolation (as the ezdxf reader does)."""
+    def _fit_splines(self, seg: _Segments, ents: IntArray, fit_idx: IntArray, fit_own: IntArray) -> None:
+        """Splines given by fit points (``ents``, ascending), through ezdxf's own interpolation (as the ezdxf
+        reader does); the control points it gives are split into Bézier pieces with the others, by degree
+        and count."""
         from ezdxf.math import fit_points_to_cad_cv
 
-        one = np.array([e], dtype=np.int64)
-        start = self.f.first(12, one)[0]
-        end = self.f.first(13, one)[0]
-        tangents = None
-        if start >= 0 and end >= 0:
-            tangents = [tuple(self.f.points_at(np.array([start]), 12)[0]),
-                        tuple(self.f.points_at(np.array([end]), 13)[0])]
-        try:
-            tool = fit_points_to_cad_cv([tuple(p) for p in self.f.points_at(fit_idx, 11)], tangents=tangents)
-            pieces, piece_w = bezier_pieces(np.array(tool.control_points, dtype=float),
-                                            np.array(tool.knots(), dtype=float), tool.degree,
-                                            np.array(tool.weights(), dtype=float) if tool.is_rational else None)
-        except Exception as exc:  # noqa: BLE001 - whatever ezdxf's interpolation raises, ezdxf's reader reports
-            raise NotPlain(f"fit-point spline: {exc}") from None
-        rational = tool.is_rational and np.ptp(np.array(tool.weights())) > 0
-        _add_pieces(seg, pieces, piece_w if rational else np.ones(pieces.shape[:2]), np.full(len(pieces), e),
-                    tool.degree)
-        self.fit_splines.add(e)
+        points = self.f.points_at(fit_idx, 11).tolist()
+        first, last = np.searchsorted(fit_own, ents).tolist(), np.searchsorted(fit_own, ents, side="right").tolist()
+        t_start, t_end = self.f.first(12, ents), self.f.first(13, ents)
+        both = np.flatnonzero((t_start >= 0) & (t_end >= 0))
+        given = dict(zip(both.tolist(), zip(self.f.points_at(t_start[both], 12).tolist(),
+                                            self.f.points_at(t_end[both], 13).tolist(), strict=True), strict=True))
+        ctrl: list[list[float]] = []
+        knots: list[float] = []
+        shapes: list[tuple[int, int]] = []  # (degree, control points) per spline
+        for i, e in enumerate(ents.tolist()):
+            tangents = [tuple(t) for t in given[i]] if i in given else None
+            try:
+                tool = fit_points_to_cad_cv([tuple(p) for p in points[first[i]:last[i]]], tangents=tangents)
+                cps, kv = [list(c) for c in tool.control_points], list(tool.knots())
+            except Exception as exc:  # noqa: BLE001 - whatever ezdxf's interpolation raises, ezdxf's reader reports
+                raise NotPlain(f"fit-point spline: {exc}") from None
+            if tool.is_rational and np.ptp(np.array(tool.weights())) > 0:
+                raise NotPlain("a rational fit-point spline")  # ezdxf's interpolation gives none: read it there
+            if len(kv) != len(cps) + tool.degree + 1 or len(cps) < tool.degree + 1:
+                raise NotPlain("a fit-point spline ezdxf could not interpolate")
+            ctrl.extend(cps)
+            knots.extend(kv)
+            shapes.append((tool.degree, len(cps)))
+            self.fit_splines.add(e)
+        degree = np.array([d for d, _ in shapes], dtype=np.int64)
+        count = np.array([n for _, n in shapes], dtype=np.int64)
+        c_start, k_start = _starts(count), _starts(count + degree + 1)
+        cp, kv_all = np.array(ctrl, dtype=float).reshape(-1, 3), np.array(knots, dtype=float)
+        no_weights = np.zeros(0)
+        for deg, n in sorted(set(shapes)):
+            group = np.flatnonzero((degree == deg) & (count == n))
+            self._spline_group(seg, ents[group], deg, n, cp, c_start[group], kv_all, k_start[group], no_weights,
+                               np.zeros(len(group), dtype=np.int64), np.zeros(len(group), dtype=bool))
 
     def _mask(self, ents: IntArray) -> NDArray[np.bool_]:
         mask = np.zeros(len(self.kinds), dtype=bool)

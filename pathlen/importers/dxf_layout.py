@@ -62,6 +62,8 @@ class Layout:
 
 def layout(tags: TagTable) -> Layout:
     """Walk the code-0 tags of ``tags`` (see the module docstring)."""
+    if np.any(tags.codes == 999):
+        raise NotPlain("comments (group code 999): ezdxf's reader skips them, wherever they stand")
     first = np.flatnonzero(tags.codes == 0)
     if len(first) == 0 or first[0] != 0:
         raise NotPlain("tags before the first entity")
@@ -104,8 +106,36 @@ def layout(tags: TagTable) -> Layout:
         i = end + 1
     if out.header < 0:
         raise NotPlain("no HEADER section")
+    _check_version(tags, int(first[out.header]) + 2, int(first[out.header + 1]))
     _check_handles(tags, owner, kinds)
     return out
+
+
+#: Header variables ezdxf reads while loading a file, with the group code its loading expects.
+LOADED_HEADER_CODES = {b"$ACADVER": 1, b"$DWGCODEPAGE": 3, b"$HANDSEED": 5, b"$HANDLING": 70}
+
+
+def _check_version(tags: TagTable, start: int, stop: int) -> None:
+    """``$ACADVER`` given, and each variable ezdxf reads while loading of the type it expects
+    (:data:`LOADED_HEADER_CODES`); subclass markers (code 100) only from R13 (AC1012) on: ezdxf reads a
+    file without ``$ACADVER`` as R12, whose entries carry no markers."""
+    nine = np.flatnonzero(tags.codes[start:stop] == 9) + start
+    length = tags.end[nine] - tags.start[nine]
+    width = max(len(name) for name in LOADED_HEADER_CODES)
+    names = windows(tags.data, tags.start[nine], width, np.minimum(length, width))
+    version = -1
+    for name, code in LOADED_HEADER_CODES.items():
+        pattern = np.zeros(width, dtype=np.uint8)
+        pattern[:len(name)] = np.frombuffer(name, dtype=np.uint8)
+        hit = nine[np.all(names == pattern, axis=1) & (length == len(name))]
+        if len(hit) > 1 or (len(hit) and (hit[0] + 1 >= stop or tags.codes[hit[0] + 1] != code)):
+            raise NotPlain(f"the header variable {name.decode()} not given once as group code {code}")
+        if name == b"$ACADVER":
+            if len(hit) == 0:
+                raise NotPlain("no $ACADVER in the header")
+            version = int(hit[0] + 1)
+    if tags.text(version).strip().upper() < "AC1012" and np.any(tags.codes == 100):
+        raise NotPlain("subclass markers in a file of DXF R12 or before")
 
 
 def _check_header(tags: TagTable, start: int, stop: int) -> None:

@@ -4,7 +4,8 @@ The bulk reader checks the entities it reads, and :mod:`pathlen.importers.dxf_la
 classes, tables and blocks (known sections once each, table entries of their table's kind with a name
 and the subclass markers ezdxf expects, unique hexadecimal handles ...).  What is left is the OBJECTS
 section, which ezdxf links into its document: a root dictionary, and a layout for each space's block
-record.  A file whose objects are all of the kinds below with their subclass markers, whose first
+record.  A file whose objects are all of the kinds below with their subclass markers (and, for the
+kinds ezdxf parses by position, the group-code layout ezdxf itself writes), whose first
 object is a DICTIONARY, whose block records and layouts name each other and whose dictionaries name
 objects (see :func:`_links_plain`) is taken as it is; any other file is still
 loaded by ezdxf to hear whether it objects (``tests/test_dxf_readers.py`` checks, on random and
@@ -12,6 +13,11 @@ damaged drawings, that a file taken here is one ezdxf loads silently).
 """
 
 from __future__ import annotations
+
+import functools
+import hashlib
+import json
+from pathlib import Path
 
 import numpy as np
 
@@ -65,11 +71,31 @@ def _objects_plain(tags: TagTable, lay: Layout) -> bool:
         found[e].append(name)
     if not all(PLAIN_OBJECTS.get(lay.kinds[e]) == tuple(names) for e, names in found.items()):
         return False
+    known = _signatures()
+    for e in lay.objects:
+        kind = lay.kinds[e]
+        if kind in known:
+            codes = tags.codes[int(lay.first_tag[e]) + 1:int(lay.first_tag[e + 1])]
+            if signature(codes.tolist()) not in known[kind]:
+                return False
     for kind, code in REQUIRED_CODES.items():
         holders = set(lay.owner[np.flatnonzero(tags.codes == code)].tolist())
         if any(lay.kinds[e] == kind and e not in holders for e in lay.objects):
             return False
     return True
+
+
+def signature(codes: list[int]) -> str:
+    """An object's group codes in order, as a short digest (``tools/make_object_signatures.py``)."""
+    return hashlib.sha1(",".join(map(str, codes)).encode()).hexdigest()[:16]
+
+
+@functools.cache
+def _signatures() -> dict[str, frozenset[str]]:
+    """Group-code sequences of the objects ezdxf writes itself, for the kinds its loader parses by
+    position (a count and the groups after it, say): any other layout of such an object is left to ezdxf."""
+    data = json.loads((Path(__file__).parent.parent / "data" / "dxf_object_signatures.json").read_text())
+    return {kind: frozenset(found) for kind, found in data["signatures"].items()}
 
 
 def _links_plain(tags: TagTable, lay: Layout) -> bool:
