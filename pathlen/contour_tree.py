@@ -19,7 +19,7 @@ import numpy as np
 
 from pathlen.contours import ContourCount, count_contours
 from pathlen.geometry import Drawing, Entity, FloatArray, IntArray, Placement, keep_entities
-from pathlen.instances import expand, instance_matrices
+from pathlen.instances import TooManySegments, expand, instance_matrices, segment_total
 from pathlen.segments import arc_boxes
 
 #: Most copies of one drawing whose boxes are compared pair by pair; beyond, every copy is written out.
@@ -64,8 +64,7 @@ def _count(d: Drawing, labels: IntArray, ctx: _Context) -> tuple[ContourCount, B
     if sum(p.copies() for p, _, _ in children) > MAX_PAIRED_COPIES:  # too many to pair: all written out
         touching = list(d.placements)
         rest = Drawing(d.lines, d.arcs, d.beziers, entities, placements=touching)
-        together = count_contours(keep_entities(expand(rest, ctx.max_segments, "counting contours"), shown),
-                                  ctx.join_tol)
+        together = count_contours(keep_entities(_written_out(rest, ctx), shown), ctx.join_tol)
         boxes = [_mapped_union(child_box, instance_matrices(p)) for p, _, child_box in children]
         result = (together, _union([own_box, *boxes]))
         ctx.memo[key] = result
@@ -89,12 +88,20 @@ def _count(d: Drawing, labels: IntArray, ctx: _Context) -> tuple[ContourCount, B
         if n_free < len(mats):
             touching.append(Placement(p.definition, mats[~mine], p.entity))
     rest = Drawing(d.lines, d.arcs, d.beziers, entities, placements=touching)
-    flat = expand(rest, ctx.max_segments, "counting contours")
-    together = count_contours(keep_entities(flat, shown), ctx.join_tol)
+    together = count_contours(keep_entities(_written_out(rest, ctx), shown), ctx.join_tol)
     box = _union([own_box, (lo.min(axis=0), hi.max(axis=0)) if len(lo) else None])
     result = (ContourCount(alone.closed + together.closed, alone.open + together.open), box)
     ctx.memo[key] = result
     return result
+
+
+def _written_out(rest: Drawing, ctx: _Context) -> Drawing:
+    """``rest`` with its copies written out, or :class:`TooManySegments` naming how many that takes."""
+    total = segment_total(rest)
+    if total > ctx.max_segments:
+        raise TooManySegments(f"counting contours needs the copies that may touch one another written out: "
+                              f"{total:,} segments, over the limit of {ctx.max_segments:,} (--max-segments)")
+    return expand(rest, ctx.max_segments)
 
 
 def _may_touch(lo: FloatArray, hi: FloatArray, own_box: Box | None, grow: float) -> np.ndarray:
