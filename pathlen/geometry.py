@@ -166,7 +166,7 @@ class Beziers:
         return np.any(w != w[:, :1], axis=1)
 
 
-@dataclass
+@dataclass(slots=True)
 class Entity:
     """One source entity: where a segment came from."""
 
