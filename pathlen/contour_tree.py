@@ -61,36 +61,24 @@ def _count(d: Drawing, labels: IntArray, ctx: _Context) -> tuple[ContourCount, B
     own_box = _segments_box(own)
     children = [(p, *_count(p.definition, labels[p.entity], ctx)) for p in d.placements]
     children = [(p, child, child_box) for p, child, child_box in children if child_box is not None]  # else hidden
+    alone = ContourCount(0, 0)
     if sum(p.copies() for p, _, _ in children) > MAX_PAIRED_COPIES:  # too many to pair: all written out
         touching = list(d.placements)
-        rest = Drawing(d.lines, d.arcs, d.beziers, entities, placements=touching)
-        together = count_contours(keep_entities(_written_out(rest, ctx), shown), ctx.join_tol)
         boxes = [_mapped_union(child_box, instance_matrices(p)) for p, _, child_box in children]
-        result = (together, _union([own_box, *boxes]))
-        ctx.memo[key] = result
-        return result
-    placed = []  # (placement, its copies' maps, child count, copy boxes lo, hi)
-    for p, child, child_box in children:
-        mats = instance_matrices(p)
-        placed.append((p, mats, child, *_mapped_boxes(child_box, mats)))
-    lo = np.concatenate([c[3] for c in placed]) if placed else np.zeros((0, 3))
-    hi = np.concatenate([c[4] for c in placed]) if placed else np.zeros((0, 3))
-    free = np.concatenate([_rigid(c[1]) for c in placed]) if placed else np.zeros(0, dtype=bool)
-    free &= ~_may_touch(lo, hi, own_box, ctx.join_tol)
-    alone = ContourCount(0, 0)
-    touching: list[Placement] = []
-    at = 0
-    for p, mats, child, _, _ in placed:
-        mine = free[at:at + len(mats)]
-        at += len(mats)
-        n_free = int(np.count_nonzero(mine))
-        alone = ContourCount(alone.closed + n_free * child.closed, alone.open + n_free * child.open)
-        if n_free < len(mats):
-            touching.append(Placement(p.definition, mats[~mine], p.entity))
+    else:
+        touching, boxes = [], []
+        for p, child, child_box in children:
+            mats = instance_matrices(p)
+            lo, hi = _mapped_boxes(child_box, mats)
+            boxes.append((lo.min(axis=0), hi.max(axis=0)))
+            free = _rigid(mats) & ~_may_touch(lo, hi, own_box, children, p, ctx.join_tol)
+            n_free = int(np.count_nonzero(free))
+            alone = ContourCount(alone.closed + n_free * child.closed, alone.open + n_free * child.open)
+            if n_free < len(mats):
+                touching.append(Placement(p.definition, mats[~free], p.entity))
     rest = Drawing(d.lines, d.arcs, d.beziers, entities, placements=touching)
     together = count_contours(keep_entities(_written_out(rest, ctx), shown), ctx.join_tol)
-    box = _union([own_box, (lo.min(axis=0), hi.max(axis=0)) if len(lo) else None])
-    result = (ContourCount(alone.closed + together.closed, alone.open + together.open), box)
+    result = (ContourCount(alone.closed + together.closed, alone.open + together.open), _union([own_box, *boxes]))
     ctx.memo[key] = result
     return result
 
@@ -104,14 +92,19 @@ def _written_out(rest: Drawing, ctx: _Context) -> Drawing:
     return expand(rest, ctx.max_segments)
 
 
-def _may_touch(lo: FloatArray, hi: FloatArray, own_box: Box | None, grow: float) -> np.ndarray:
-    """Which copies (boxes ``lo``, ``hi``) may come within ``grow`` of another copy or of the own
-    segments' box: their boxes grown by ``grow`` overlap."""
+def _may_touch(lo: FloatArray, hi: FloatArray, own_box: Box | None, children: list, p: Placement,
+               grow: float) -> np.ndarray:
+    """Which copies of ``p`` (boxes ``lo``, ``hi``) may come within ``grow`` of another copy, of ``p`` or
+    of another placement among ``children``, or of the own segments' box: boxes grown by ``grow`` overlap."""
     hits = _overlaps(lo - grow, hi + grow, lo - grow, hi + grow)
     np.fill_diagonal(hits, False)
     meets = hits.any(axis=1)
-    if own_box is not None:
-        meets |= _overlaps(lo - grow, hi + grow, own_box[0][None] - grow, own_box[1][None] + grow)[:, 0]
+    others = [own_box] if own_box is not None else []
+    others += [_mapped_boxes(box, instance_matrices(q)) for q, _, box in children if q is not p]
+    if others:
+        o_lo, o_hi = np.concatenate([b[0].reshape(-1, 3) for b in others]), np.concatenate(
+            [b[1].reshape(-1, 3) for b in others])
+        meets |= _overlaps(lo - grow, hi + grow, o_lo - grow, o_hi + grow).any(axis=1)
     return meets
 
 

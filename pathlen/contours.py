@@ -153,15 +153,20 @@ def join_nodes(points: FloatArray, groups: IntArray, tol: float, closed: NDArray
     segments shorter than the tolerance is never folded together, and a segment's two ends never
     join each other (it would become a loop of its own) unless it is ``closed`` (a whole circle,
     say, whose ends differ by rounding).  Identical points are found by sorting a hash of their bits
-    (a collision only leaves two entries for one place, joined below).
+    (-0.0 made +0.0 first); should two distinct points share a hash, all points are sorted by value.
     """
     n = len(points) // 2
-    bits = np.ascontiguousarray(points).view(np.uint64)
-    key = (bits[:, 0] * np.uint64(0x9E3779B97F4A7C15)) ^ (bits[:, 1] * np.uint64(0xC2B2AE3D27D4EB4F)) ^ (
-        bits[:, 2] * np.uint64(0x165667B19E3779F9)) ^ groups.astype(np.uint64)
+    points = np.ascontiguousarray(points) + 0.0  # -0.0 + 0.0 is +0.0: equal coordinates, equal bits
+    bits = points.view(np.uint64)
+    key = _mix(bits[:, 0] ^ _mix(bits[:, 1] ^ _mix(bits[:, 2] ^ groups.astype(np.uint64))))
     order = np.argsort(key)
     p, g = take_rows(points, order), groups[order]
     new = np.r_[True, (p[1:, 0] != p[:-1, 0]) | (p[1:, 1] != p[:-1, 1]) | (p[1:, 2] != p[:-1, 2]) | (g[1:] != g[:-1])]
+    if np.any(new[1:] & (key[order][1:] == key[order][:-1])):  # distinct points share a hash: sort them fully
+        order = np.lexsort((points[:, 2], points[:, 1], points[:, 0], groups))
+        p, g = take_rows(points, order), groups[order]
+        new = np.r_[True, (p[1:, 0] != p[:-1, 0]) | (p[1:, 1] != p[:-1, 1]) | (p[1:, 2] != p[:-1, 2])
+                    | (g[1:] != g[:-1])]
     place_sorted = np.cumsum(new) - 1
     first = np.flatnonzero(new)
     place = np.empty(len(points), dtype=np.int64)
@@ -186,6 +191,15 @@ def join_nodes(points: FloatArray, groups: IntArray, tol: float, closed: NDArray
     best = pick[np.r_[True, src[pick][1:] != src[pick][:-1]]] if len(pick) else pick
     label = components(places, np.r_[src[best], place[:n][shut]], np.r_[dst[best], place[n:][shut]])
     return label[place]
+
+
+def _mix(x: NDArray[np.uint64]) -> NDArray[np.uint64]:
+    """The splitmix64 finalizer (Steele, Lea and Flood, 2014): every input bit moves every output bit,
+    so round coordinates, whose low mantissa bits are all zero, still hash apart."""
+    with np.errstate(over="ignore"):
+        x = (x ^ (x >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
+        x = (x ^ (x >> np.uint64(27))) * np.uint64(0x94D049BB133111EB)
+    return x ^ (x >> np.uint64(31))
 
 
 def join_groups(layer: IntArray, entity: IntArray, entities: list, shut: NDArray[np.bool_]) -> IntArray:

@@ -53,6 +53,34 @@ def test_reversed_segments_chain_into_one_closed_contour():
     assert contours[0].forward.tolist().count(False) == 2
 
 
+def test_negative_zero_is_the_same_point():
+    # IEEE 754 (section 5.11): -0 compares equal to +0, so a vertex written (-0.0, 0.0) by one line and
+    # (0.0, 0.0) by another is one point.  Two triangles meeting there (four ends at the origin) are one
+    # closed network; told apart by their bits they were two.
+    left = [[(0.0, 0.0), (1.0, 0.0)], [(1.0, 0.0), (1.0, 1.0)], [(1.0, 1.0), (0.0, 0.0)]]
+    right = [[(-0.0, 0.0), (-1.0, 0.0)], [(-1.0, 0.0), (-1.0, -1.0)], [(-1.0, -1.0), (-0.0, 0.0)]]
+    apart = [[(10.0 + k, 10.0), (10.0 + k, 10.5)] for k in range(50)]  # 50 open runs elsewhere, in between
+    counted = count_contours(build([("CUT", "polyline", s) for s in left + right + apart])[0], 0.01)
+    assert (counted.closed, counted.open) == (1, 50)
+
+
+def test_points_whose_hashes_collide_are_still_told_apart(monkeypatch):
+    # identical points are found by hashing their bits; if every hash were the same, the count must not
+    # change (distinct points sorted by value instead): unit squares meeting corner to corner along a
+    # diagonal, as separate lines, are one closed network (2 or 4 ends at every corner), plus a lone line
+    import pathlen.contours as contours_module
+
+    sides = []
+    for k in range(6):
+        a, b, c, d = (k, k), (k + 1, k), (k + 1, k + 1), (k, k + 1)
+        sides += [[a, b], [b, c], [c, d], [d, a]]
+    shapes = [("CUT", "polyline", s) for s in sides] + [("CUT", "polyline", [(10, 10), (11, 12)])]
+    expected = count_contours(build(shapes)[0], 0.01)
+    assert (expected.closed, expected.open) == (1, 1)
+    monkeypatch.setattr(contours_module, "_mix", lambda x: np.zeros_like(x))
+    assert count_contours(build(shapes)[0], 0.01) == expected
+
+
 def test_gaps_below_and_above_the_tolerance():
     below = [[(0, 0), (10, 0), (10, 10)], [(10, 10.005), (0, 10), (0, 0)]]  # 0.005 mm: joined at 0.01
     above = [[(20, 0), (30, 0), (30, 10)], [(30, 10.2), (20, 10), (20, 0)]]  # 0.2 mm: a gap
