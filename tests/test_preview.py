@@ -16,10 +16,10 @@ FIXTURES = Path(__file__).resolve().parent.parent / "fixtures"
 @pytest.mark.parametrize("name", ["kl101_bracket.dxf", "kl330_sign_panel.dxf", "kl412_lamp_panel.svg",
                                   "kl214_gasket.dxf"])
 def test_svg_preview_remeasured_gives_the_same_length(runner, tmp_path, name):
-    # the picture is exact: its "measured" group, read back by pathlen, has the drawing's length (to the
+    # the picture is exact: its "measured" group, read back by pathlen (sized in mm), has the drawing's length (to the
     # 1e-6 mm the coordinates are written with); lines, arcs, Béziers and conic arcs stay curves
     out = tmp_path / "p.svg"
-    res = runner.invoke(main, ["preview", str(FIXTURES / name), "-o", str(out)])
+    res = runner.invoke(main, ["preview", str(FIXTURES / name), "-o", str(out), "--real-size"])
     assert res.exit_code == 0, res.output
     back = json.loads(runner.invoke(main, ["measure", str(out), str(FIXTURES / name), "--format", "json"]).stdout)
     picture, drawing = back["files"][0]["layers"]["measured"]["length"], back["files"][1]["length"]
@@ -118,7 +118,7 @@ def test_layers_off_are_ghosted_not_measured(runner, tmp_path):
     path = tmp_path / "ghost.dxf"
     doc.saveas(path)
     out = tmp_path / "ghost.svg"
-    assert runner.invoke(main, ["preview", str(path), "-o", str(out)]).exit_code == 0
+    assert runner.invoke(main, ["preview", str(path), "-o", str(out), "--real-size"]).exit_code == 0
     svg = out.read_text()
     assert 'class="ghost"' in svg and "not measured (layer off or frozen)" in svg
     back = json.loads(runner.invoke(main, ["measure", str(out), "--format", "json"]).stdout)["files"][0]
@@ -148,13 +148,13 @@ def test_preview_heading_legend_and_wrapped_notes(runner, tmp_path):
     assert max(len(n) for n in notes) < len(" ".join(notes))
 
 
-def test_fit_leaves_the_size_to_the_browser(runner, tmp_path):
+def test_the_svg_fits_the_window_unless_real_size_is_asked(runner, tmp_path):
     # SVG 2, 8.2: an outermost svg without width/height takes its container's size (auto), the viewBox
-    # keeps the proportions; the default stays in mm so that measuring it again gives the lengths
+    # keeps the proportions; --real-size gives it mm sizes, so that measuring it again gives the lengths
     import xml.etree.ElementTree as ET
 
     fit, real = tmp_path / "fit.svg", tmp_path / "real.svg"
-    for out, extra in ((fit, ["--fit"]), (real, [])):
+    for out, extra in ((fit, []), (real, ["--real-size"])):
         res = runner.invoke(main, ["preview", str(FIXTURES / "kl101_bracket.dxf"), "-o", str(out), *extra])
         assert res.exit_code == 0, res.output
     a, b = ET.fromstring(fit.read_text()), ET.fromstring(real.read_text())

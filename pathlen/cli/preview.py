@@ -33,13 +33,13 @@ if TYPE_CHECKING:
 @click.option("--allowance", type=click.FloatRange(min=0), default=10.0, show_default=True, metavar="MM")
 @click.option("--cut-layer", "cut_layers", help="Layers or #rrggbb colours of cut lines (with --seam).")
 @click.option("--sew-layer", "sew_layers", help="Layers or #rrggbb colours of drawn sew lines (with --seam).")
-@click.option("--fit", is_flag=True, help="SVG: no size, so a browser fits the picture to its window (by default "
-              "it is sized in mm, so that measuring it again gives the drawing's lengths).")
+@click.option("--real-size", is_flag=True, help="SVG: sized in mm, so that printing it at 100 % or measuring it "
+              "again gives the drawing's lengths (by default it has no size: a browser fits it to its window).")
 @click.option("--plan", "plan_file", type=click.Path(dir_okay=False),
               help="A seam plan (with --seam): its allowances, and its matches listed beside the picture.")
 def preview(path: Path, output: Path, join_tol: float, drawing_units: str | None, svg_dpi: float | None,
             hidden_layers: bool, dpi: float, profile: str | None, profile_files: tuple[str, ...], seam_edges: bool,
-            allowance: float, cut_layers: str | None, sew_layers: str | None, fit: bool, plan_file: str | None
+            allowance: float, cut_layers: str | None, sew_layers: str | None, real_size: bool, plan_file: str | None
             ) -> None:
     """Draw the drawing PATH as pathlen measured it: contours by kind, starts and directions, gaps, scale bar."""
     from pathlen.cli.reading import write_atomic
@@ -72,7 +72,7 @@ def preview(path: Path, output: Path, join_tol: float, drawing_units: str | None
         _seam_marks(scene, path, ImportOptions(drawing_units, svg_dpi, hidden_layers=hidden_layers), join_tol,
                     allowance, cut_layers, sew_layers, plan_file)
     if suffix == ".svg":
-        write_atomic(str(output), scene_svg(scene, fit))
+        write_atomic(str(output), scene_svg(scene, fit=not real_size))
     else:
         from pathlen.atomic import write_file_atomic
 
