@@ -6,19 +6,16 @@ python tools/make_object_signatures.py
 
 from __future__ import annotations
 
-import hashlib
 import io
 import json
 from pathlib import Path
 
 import ezdxf
 
+from pathlen.importers.dxf_rest import signature
+
 KINDS = ("LAYOUT", "PLOTSETTINGS", "MATERIAL", "MLINESTYLE", "MLEADERSTYLE", "VISUALSTYLE")
 OUT = Path(__file__).parent.parent / "pathlen" / "data" / "dxf_object_signatures.json"
-
-
-def signature(codes: list[int]) -> str:
-    return hashlib.sha1(",".join(map(str, codes)).encode()).hexdigest()[:16]
 
 
 def main() -> None:

@@ -40,8 +40,6 @@ PLAIN_OBJECTS: dict[str, tuple[str, ...]] = {
     "XRECORD": ("AcDbXrecord",),
     "VISUALSTYLE": ("AcDbVisualStyle",),
 }
-#: A code ezdxf's loader of the kind takes for granted (it fails without it).
-REQUIRED_CODES = {"VISUALSTYLE": 291}
 #: Sections whose content ezdxf keeps as it is but which are rare enough to leave to ezdxf.
 _LEFT_TO_EZDXF = frozenset({"THUMBNAILIMAGE", "ACDSDATA"})
 
@@ -78,10 +76,6 @@ def _objects_plain(tags: TagTable, lay: Layout) -> bool:
             codes = tags.codes[int(lay.first_tag[e]) + 1:int(lay.first_tag[e + 1])]
             if signature(codes.tolist()) not in known[kind]:
                 return False
-    for kind, code in REQUIRED_CODES.items():
-        holders = set(lay.owner[np.flatnonzero(tags.codes == code)].tolist())
-        if any(lay.kinds[e] == kind and e not in holders for e in lay.objects):
-            return False
     return True
 
 
