@@ -65,17 +65,21 @@ def _count(d: Drawing, labels: IntArray, ctx: _Context) -> tuple[ContourCount, B
     if sum(p.copies() for p, _, _ in children) > MAX_PAIRED_COPIES:  # too many to pair: all written out
         touching = list(d.placements)
         boxes = [_mapped_union(child_box, instance_matrices(p)) for p, _, child_box in children]
-    else:
-        touching, boxes = [], []
-        for p, child, child_box in children:
-            mats = instance_matrices(p)
-            lo, hi = _mapped_boxes(child_box, mats)
-            boxes.append((lo.min(axis=0), hi.max(axis=0)))
-            free = _rigid(mats) & ~_may_touch(lo, hi, own_box, children, p, ctx.join_tol)
-            n_free = int(np.count_nonzero(free))
+    else:  # every copy's box once; a copy is free when rigid and its box meets no other and no own segment
+        mats = [instance_matrices(p) for p, _, _ in children]
+        mapped = [_mapped_boxes(child_box, m) for (_, _, child_box), m in zip(children, mats, strict=True)]
+        lo = np.concatenate([b[0] for b in mapped]) if mapped else np.zeros((0, 3))
+        hi = np.concatenate([b[1] for b in mapped]) if mapped else np.zeros((0, 3))
+        free = np.concatenate([_rigid(m) for m in mats]) if mats else np.zeros(0, dtype=bool)
+        free &= ~_may_touch(lo, hi, own_box, ctx.join_tol)
+        touching, boxes, at = [], [(lo.min(axis=0), hi.max(axis=0))] if len(lo) else [], 0
+        for (p, child, _), m in zip(children, mats, strict=True):
+            mine = free[at:at + len(m)]
+            at += len(m)
+            n_free = int(np.count_nonzero(mine))
             alone = ContourCount(alone.closed + n_free * child.closed, alone.open + n_free * child.open)
-            if n_free < len(mats):
-                touching.append(Placement(p.definition, mats[~free], p.entity))
+            if n_free < len(m):
+                touching.append(Placement(p.definition, m[~mine], p.entity))
     rest = Drawing(d.lines, d.arcs, d.beziers, entities, placements=touching)
     together = count_contours(keep_entities(_written_out(rest, ctx), shown), ctx.join_tol)
     result = (ContourCount(alone.closed + together.closed, alone.open + together.open), _union([own_box, *boxes]))
@@ -92,19 +96,14 @@ def _written_out(rest: Drawing, ctx: _Context) -> Drawing:
     return expand(rest, ctx.max_segments)
 
 
-def _may_touch(lo: FloatArray, hi: FloatArray, own_box: Box | None, children: list, p: Placement,
-               grow: float) -> np.ndarray:
-    """Which copies of ``p`` (boxes ``lo``, ``hi``) may come within ``grow`` of another copy, of ``p`` or
-    of another placement among ``children``, or of the own segments' box: boxes grown by ``grow`` overlap."""
+def _may_touch(lo: FloatArray, hi: FloatArray, own_box: Box | None, grow: float) -> np.ndarray:
+    """Which copies (boxes ``lo``, ``hi``, of every placement) may come within ``grow`` of another copy
+    or of the own segments' box: their boxes grown by ``grow`` overlap."""
     hits = _overlaps(lo - grow, hi + grow, lo - grow, hi + grow)
     np.fill_diagonal(hits, False)
     meets = hits.any(axis=1)
-    others = [own_box] if own_box is not None else []
-    others += [_mapped_boxes(box, instance_matrices(q)) for q, _, box in children if q is not p]
-    if others:
-        o_lo, o_hi = np.concatenate([b[0].reshape(-1, 3) for b in others]), np.concatenate(
-            [b[1].reshape(-1, 3) for b in others])
-        meets |= _overlaps(lo - grow, hi + grow, o_lo - grow, o_hi + grow).any(axis=1)
+    if own_box is not None:
+        meets |= _overlaps(lo - grow, hi + grow, own_box[0][None] - grow, own_box[1][None] + grow)[:, 0]
     return meets
 
 
