@@ -388,12 +388,19 @@ class _Reader:
             raise NotPlain("a SPLINE whose knots decrease")
         if len(weights) and not np.all(weights > 0):
             raise NotPlain("a SPLINE with a weight that is not positive")
-        for deg, count in sorted({(int(a), int(b)) for a, b in zip(p[by_ctrl], n[by_ctrl], strict=True)}):
-            group = np.flatnonzero(by_ctrl & (p == deg) & (n == count))
-            self._spline_group(seg, e[group], deg, count, ctrl, c_start[group], knots, k_start[group],
-                               weights, w_start[group], n_w[group] > 0)
+        self._spline_groups(seg, e[by_ctrl], p[by_ctrl], n[by_ctrl], ctrl, c_start[by_ctrl], knots, k_start[by_ctrl],
+                            weights, w_start[by_ctrl], n_w[by_ctrl] > 0)
         if np.any(~by_ctrl):
             self._fit_splines(seg, e[~by_ctrl], fit_idx, fit_own)
+
+    def _spline_groups(self, seg: _Segments, ents: IntArray, degree: IntArray, count: IntArray, ctrl: FloatArray,
+                       c0: IntArray, knots: FloatArray, k0: IntArray, weights: FloatArray, w0: IntArray,
+                       has_w: NDArray[np.bool_]) -> None:
+        """Splines (arrays aligned with ``ents``) split a group at a time: one group per degree and count."""
+        for deg, n in sorted(set(zip(degree.tolist(), count.tolist(), strict=True))):
+            group = np.flatnonzero((degree == deg) & (count == n))
+            self._spline_group(seg, ents[group], deg, n, ctrl, c0[group], knots, k0[group], weights, w0[group],
+                               has_w[group])
 
     def _spline_group(self, seg: _Segments, ents: IntArray, p: int, n: int, ctrl: FloatArray, c0: IntArray,
                       knots: FloatArray, k0: IntArray, weights: FloatArray, w0: IntArray, has_w: NDArray[np.bool_]
@@ -452,11 +459,8 @@ class _Reader:
         count = np.array([n for _, n in shapes], dtype=np.int64)
         c_start, k_start = _starts(count), _starts(count + degree + 1)
         cp, kv_all = np.array(ctrl, dtype=float).reshape(-1, 3), np.array(knots, dtype=float)
-        no_weights = np.zeros(0)
-        for deg, n in sorted(set(shapes)):
-            group = np.flatnonzero((degree == deg) & (count == n))
-            self._spline_group(seg, ents[group], deg, n, cp, c_start[group], kv_all, k_start[group], no_weights,
-                               np.zeros(len(group), dtype=np.int64), np.zeros(len(group), dtype=bool))
+        self._spline_groups(seg, ents, degree, count, cp, c_start, kv_all, k_start, np.zeros(0),
+                            np.zeros(len(ents), dtype=np.int64), np.zeros(len(ents), dtype=bool))
 
     def _mask(self, ents: IntArray) -> NDArray[np.bool_]:
         mask = np.zeros(len(self.kinds), dtype=bool)
