@@ -37,18 +37,25 @@ def count_contours(drawing: Drawing, join_tol: float = DEFAULT_JOIN_TOL_MM) -> C
     even number of segment ends (each segment can be traversed once in a loop).
     """
     start, end, ent = segment_endpoints(drawing)
-    middle = segment_midpoints(drawing)
     lines = drawing.lines
     real = np.ones(len(ent), dtype=bool)
     real[: len(lines)] = np.any(lines.p0 != lines.p1, axis=1)  # a zero-length line is not a contour
-    start, end, ent, middle = start[real], end[real], ent[real], middle[real]
+    every = bool(np.all(real))
+    if not every:
+        start, end, ent = start[real], end[real], ent[real]
     n = len(ent)
     if n == 0:
         return ContourCount(0, 0)
+    middle = segment_midpoints(drawing)
+    shut = closed_segments(start, end, middle if every else middle[real], join_tol)
+    del middle
     _, seg_layer = segment_layers(drawing, ent)
-    shut = closed_segments(start, end, middle, join_tol)
     group = join_groups(seg_layer, ent, drawing.entities, shut)
-    node = join_nodes(np.concatenate([start, end]), np.concatenate([group, group]), join_tol, shut)
+    del seg_layer, ent
+    points = np.concatenate([start, end])
+    del start, end
+    node = join_nodes(points, np.concatenate([group, group]), join_tol, shut)
+    del points, group
     a, b = node[:n], node[n:]
     comp = components(node.max() + 1, a, b)
     degree = np.bincount(a, minlength=node.max() + 1) + np.bincount(b, minlength=node.max() + 1)
@@ -154,43 +161,83 @@ def join_nodes(points: FloatArray, groups: IntArray, tol: float, closed: NDArray
     join each other (it would become a loop of its own) unless it is ``closed`` (a whole circle,
     say, whose ends differ by rounding).  Identical points are found by sorting a hash of their bits
     (-0.0 made +0.0 first); should two distinct points share a hash, all points are sorted by value.
+
+    Memory: a few arrays of one number per point at a time (columns are hashed and compared one by
+    one); the pairs within ``tol`` are searched among places, not points.
     """
     n = len(points) // 2
-    points = np.ascontiguousarray(points) + 0.0  # -0.0 + 0.0 is +0.0: equal coordinates, equal bits
-    bits = points.view(np.uint64)
-    key = _mix(bits[:, 0] ^ _mix(bits[:, 1] ^ _mix(bits[:, 2] ^ groups.astype(np.uint64))))
-    order = np.argsort(key)
-    p, g = take_rows(points, order), groups[order]
-    new = np.r_[True, (p[1:, 0] != p[:-1, 0]) | (p[1:, 1] != p[:-1, 1]) | (p[1:, 2] != p[:-1, 2]) | (g[1:] != g[:-1])]
-    if np.any(new[1:] & (key[order][1:] == key[order][:-1])):  # distinct points share a hash: sort them fully
+    order = np.argsort(_point_keys(points, groups))
+    new = _differs_from_previous(points, groups, order)
+    if np.any(new[1:] & _same_key_as_previous(points, groups, order)):  # distinct points share a hash
         order = np.lexsort((points[:, 2], points[:, 1], points[:, 0], groups))
-        p, g = take_rows(points, order), groups[order]
-        new = np.r_[True, (p[1:, 0] != p[:-1, 0]) | (p[1:, 1] != p[:-1, 1]) | (p[1:, 2] != p[:-1, 2])
-                    | (g[1:] != g[:-1])]
-    place_sorted = np.cumsum(new) - 1
-    first = np.flatnonzero(new)
+        new = _differs_from_previous(points, groups, order)
+    first = order[new]  # one point of each place (index into points), places in sorted order
     place = np.empty(len(points), dtype=np.int64)
-    place[order] = place_sorted
+    place[order] = np.cumsum(new) - 1
+    del order, new
     places = len(first)
-    ends_at = np.bincount(place, minlength=places)
-    pairs = close_pairs(take_rows(p, first), tol, g[first])
-    a, b = pairs[:, 0], pairs[:, 1]
-    # a segment's own two ends never join: drop pairs of places it links
+    loose = np.bincount(place, minlength=places) % 2 == 1
     shut = np.zeros(n, dtype=bool) if closed is None else closed
-    own = np.unique(np.sort(np.stack([place[:n][~shut], place[n:][~shut]], axis=1), axis=1) @ np.array([places, 1]))
-    pair_key = np.minimum(a, b) * places + np.maximum(a, b)
-    allowed = ~np.isin(pair_key, own) & ((ends_at[a] % 2 == 1) | (ends_at[b] % 2 == 1))
+    src, dst = _nearest_partners(points, groups, first, loose, place, shut, tol)
+    label = components(places, np.r_[src, place[:n][shut]], np.r_[dst, place[n:][shut]])
+    return label[place]
+
+
+def _point_keys(points: FloatArray, groups: IntArray) -> NDArray[np.uint64]:
+    """A hash of each point's coordinate bits and group (-0.0 and +0.0 alike), a column at a time."""
+    key = groups.astype(np.uint64)
+    for k in (2, 1, 0):
+        key = _mix((points[:, k] + 0.0).view(np.uint64) ^ _mix(key))  # -0.0 + 0.0 is +0.0
+    return key
+
+
+def _same_key_as_previous(points: FloatArray, groups: IntArray, order: IntArray) -> NDArray[np.bool_]:
+    key = _point_keys(points, groups)[order]
+    return key[1:] == key[:-1]
+
+
+def _differs_from_previous(points: FloatArray, groups: IntArray, order: IntArray) -> NDArray[np.bool_]:
+    """In ``order``: True where a point differs from the one before it (or its group does)."""
+    new = np.ones(len(order), dtype=bool)
+    for column in (groups, points[:, 0], points[:, 1], points[:, 2]):
+        value = np.take(column, order)
+        new[1:] |= value[1:] != value[:-1]
+    return new
+
+
+def _nearest_partners(points: FloatArray, groups: IntArray, first: IntArray, loose: NDArray[np.bool_],
+                      place: IntArray, shut: NDArray[np.bool_], tol: float) -> tuple[IntArray, IntArray]:
+    """Edges (loose place, its nearest allowed place within ``tol``, same group): a segment's own two
+    places are never a pair, unless it is ``shut``."""
+    none = np.zeros(0, dtype=np.int64)
+    if not np.any(loose) or tol <= 0:
+        return none, none
+    pairs = close_pairs(points[first], tol, groups[first])
+    a, b = pairs[:, 0], pairs[:, 1]
+    del pairs
+    n = len(shut)
+    # a segment's own two ends never join: drop pairs of places it links (such a segment has a loose end)
+    places = len(first)
+    ends = np.flatnonzero(~shut & (loose[place[:n]] | loose[place[n:]]))
+    own = np.sort(np.minimum(place[ends], place[n + ends]) * places + np.maximum(place[ends], place[n + ends]))
+    allowed = ~_sorted_contains(own, np.minimum(a, b) * places + np.maximum(a, b)) & (loose[a] | loose[b])
     a, b = a[allowed], b[allowed]
     # each loose place takes its nearest allowed partner
-    src = np.concatenate([a, b])
-    dst = np.concatenate([b, a])
-    loose = ends_at[src] % 2 == 1
-    src, dst = src[loose], dst[loose]
-    dist = np.linalg.norm(take_rows(p, first[src]) - take_rows(p, first[dst]), axis=1)
+    src, dst = np.concatenate([a, b]), np.concatenate([b, a])
+    keep = loose[src]
+    src, dst = src[keep], dst[keep]
+    dist = np.linalg.norm(points[first[src]] - points[first[dst]], axis=1)
     pick = np.lexsort((dst, dist, src))
     best = pick[np.r_[True, src[pick][1:] != src[pick][:-1]]] if len(pick) else pick
-    label = components(places, np.r_[src[best], place[:n][shut]], np.r_[dst[best], place[n:][shut]])
-    return label[place]
+    return src[best], dst[best]
+
+
+def _sorted_contains(sorted_keys: IntArray, keys: IntArray) -> NDArray[np.bool_]:
+    """Whether each of ``keys`` is in ``sorted_keys`` (ascending): a binary search, no hash table."""
+    if len(sorted_keys) == 0:
+        return np.zeros(len(keys), dtype=bool)
+    at = np.minimum(np.searchsorted(sorted_keys, keys), len(sorted_keys) - 1)
+    return sorted_keys[at] == keys
 
 
 def _mix(x: NDArray[np.uint64]) -> NDArray[np.uint64]:

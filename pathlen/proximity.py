@@ -47,10 +47,14 @@ def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -
         keys = keys[order]
         if width <= tol or np.diff(np.flatnonzero(np.r_[True, keys[1:] != keys[:-1], True])).max() <= CROWDED:
             break
-    cell, grp, pts = take_rows(cell, order), group[order], take_rows(pts, order)
+    # one array reordered at a time (the unordered one freed before the next): the peak stays low
+    cell = take_rows(cell, order)
+    pts = take_rows(pts, order)
     where = pts / width - cell  # position inside the cell, 0 .. 1 per axis
     margin = tol / width + 1e-9
     near_low, near_high = where < margin, where > 1.0 - margin
+    del where
+    grp = group[order]
 
     def near(pairs: IntArray) -> IntArray:
         """Keep candidate pairs (positions in sorted order) within ``tol`` and in one group."""

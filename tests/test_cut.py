@@ -381,3 +381,30 @@ def test_running_out_of_memory_names_the_step(monkeypatch):
     assert not result.ok
     assert result.error.startswith("needed more than") and "while finding which of" in result.error
     assert "contours lie inside which" in result.error
+
+
+@pytest.mark.parametrize("chunk", [1, 7, 1 << 17])
+def test_motion_planned_in_runs_of_contours_equals_one_pass(monkeypatch, chunk):
+    # the planner works through the contours in runs of about MOTION_CHUNK pieces (bounded memory); the
+    # times must not depend on where the runs are cut (chunk 1: every contour planned alone); the one-pass
+    # planner itself is held to the sequential planner in test_kinematics
+    from pathlen.contours import chain_contours
+    from pathlen.estimates import cut_contours
+    from pathlen.importers import read_drawing
+    from pathlen.instances import expand
+    from pathlen.measure import measure
+    from pathlen.segments import segment_layers, segment_table
+
+    drawing = expand(read_drawing(FIXTURES / "kl330_sign_panel.dxf"))
+    table = segment_table(drawing, measure(drawing))
+    contours = chain_contours(table, segment_layers(drawing, table)[1])
+    w = cut_contours.walk(table, contours)
+    n = len(contours)
+    rng = np.random.default_rng(5)
+    feed, lead = rng.uniform(10, 60, n), np.where(rng.random(n) < 0.5, 2.0, 0.0)
+    change = np.zeros(n)
+    monkeypatch.setattr(cut_contours, "MOTION_CHUNK", chunk)
+    got = cut_contours.motion_times(table, contours, w, feed, lead, lead, change, 2000.0, 0.05)
+    monkeypatch.setattr(cut_contours, "MOTION_CHUNK", 1 << 40)
+    whole = cut_contours.motion_times(table, contours, w, feed, lead, lead, change, 2000.0, 0.05)
+    assert n > 10 and got == pytest.approx(whole, rel=1e-12, abs=1e-12)

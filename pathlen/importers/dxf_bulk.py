@@ -35,7 +35,7 @@ from pathlen.importers.dxf_blocks import BlockCache, place_insert
 from pathlen.importers.dxf_fields import Fields
 from pathlen.importers.dxf_layout import MEASURED, Layout, layout
 from pathlen.importers.dxf_rest import rest_is_plain
-from pathlen.importers.dxf_tags import PADDING, NotPlain, TagTable, parse_tags
+from pathlen.importers.dxf_tags import PADDING, NotPlain, TagTable, decode_texts, parse_tags
 from pathlen.importers.nurbs import window_beziers
 
 TWO_PI = 2.0 * math.pi
@@ -44,6 +44,9 @@ Z_AXIS = (0.0, 0.0, 1.0)
 FIT_POINTS_WARNING = ("SPLINE given by fit points only: curve reconstructed by ezdxf's fit-point "
                       "interpolation, which may differ from the drawing program's")
 
+
+#: Splines split into Bézier pieces per numpy pass.
+SPLINE_CHUNK = 16384
 
 #: Subclass markers of each kind read here, as written since DXF R2000 (DXF reference, the entities'
 #: group code tables): AcDbEntity, then the kind's own (ARC: AcDbCircle, AcDbArc; VERTEX: AcDbVertex and
@@ -75,8 +78,9 @@ def read_plain(data: bytes | bytearray, hidden_layers: bool = False, keep_rest: 
     checked = rest_is_plain(tags, lay)
     rest = _without_entities(tags, lay) if keep_rest or not checked else b""
     reader = _Reader(tags, lay, hidden_layers)
-    del tags
+    del tags  # the reader let go of it: the file's bytes and the tag table are freed here
     lay.owner = np.zeros(0, dtype=np.int32)  # per tag: no longer needed
+    reader.sort_batches()
     return PlainDxf(reader.model(), reader.insunits, rest, checked)
 
 
@@ -120,19 +124,33 @@ class _Segments:
         self.arcs: list[tuple[FloatArray, FloatArray, FloatArray, FloatArray, FloatArray, IntArray]] = []
         self.beziers: dict[int, list[tuple[FloatArray, FloatArray, IntArray]]] = {}
 
-    def batches(self) -> tuple[Lines, EllipticArcs, dict[int, Beziers]]:
-        """Concatenated batches whose ``entity`` is the entity number (rows not yet sorted)."""
-        if self.lines:
-            lines = Lines(*(np.concatenate(col) for col in zip(*self.lines, strict=True)))
-        else:
-            lines = Lines(np.zeros((0, 3)), np.zeros((0, 3)), np.zeros(0, dtype=np.int64))
-        if self.arcs:
-            arcs = EllipticArcs(*(np.concatenate(col) for col in zip(*self.arcs, strict=True)))
-        else:
-            arcs = EllipticArcs(*[np.zeros((0, 3))] * 3, np.zeros(0), np.zeros(0), np.zeros(0, dtype=np.int64))
-        beziers = {d: Beziers(*(np.concatenate(col) for col in zip(*rows, strict=True)))
-                   for d, rows in self.beziers.items()}
+    def sorted_batches(self) -> tuple[Lines, EllipticArcs, dict[int, Beziers]]:
+        """The batches with rows in entity-number order (file order, as the ezdxf reader appends them),
+        whose ``entity`` is the entity number.  The pieces are let go column by column as they are
+        joined: the peak is the pieces plus one column, not the pieces plus a joined and a sorted copy."""
+        lines = Lines(*_sorted_columns(self.lines, 3)) if self.lines else \
+            Lines(np.zeros((0, 3)), np.zeros((0, 3)), np.zeros(0, dtype=np.int64))
+        arcs = EllipticArcs(*_sorted_columns(self.arcs, 6)) if self.arcs else \
+            EllipticArcs(*[np.zeros((0, 3))] * 3, np.zeros(0), np.zeros(0), np.zeros(0, dtype=np.int64))
+        beziers = {d: Beziers(*_sorted_columns(self.beziers[d], 3)) for d in sorted(self.beziers)}
+        self.lines, self.arcs, self.beziers = [], [], {}
         return lines, arcs, beziers
+
+
+def _sorted_columns(pieces: list[tuple], width: int) -> list[NDArray]:
+    """Columns of ``pieces`` (tuples whose last column is the entity number) joined and sorted by entity
+    number (stable); each piece's column is dropped once joined."""
+    columns = [list(col) for col in zip(*pieces, strict=True)]
+    pieces.clear()
+    entity = np.concatenate(columns[width - 1])
+    order = np.argsort(entity, kind="stable")
+    out = []
+    for k in range(width):
+        joined = np.concatenate(columns[k]) if k < width - 1 else entity
+        columns[k] = []
+        out.append(take_rows(joined, order) if joined.ndim > 1 else joined[order])
+        del joined
+    return out
 
 
 class _Reader:
@@ -188,7 +206,7 @@ class _Reader:
         lay = self.lay
         records = np.array(lay.block_records, dtype=np.int64)
         record_names = [n.lower() for n in self.f.text(2, records, "")]
-        record_handles = self.f.text(5, records, "")
+        record_handles = self.f.text(5, records, "", repeated=False)
         model = dict(zip(record_names, record_handles, strict=True))
         names = self.f.text(2, np.array([b.head for b in lay.blocks], dtype=np.int64), "")
         for b, name in zip(lay.blocks, names, strict=True):
@@ -234,8 +252,7 @@ class _Reader:
         rows = np.setdiff1d(measured, np.array(sorted(self.skipped_rows), dtype=np.int64))
         self.row_entities = rows  # entities that get an entity row, file order
         self.row_layers = self.f.text(8, rows, "0")
-        self.row_handles = self.f.text(5, rows)
-        self._batches()
+        self.row_handles: list[str] | NDArray[np.bytes_] = self.f.required_raw_text(5, rows)  # decoded when sorted
 
     def _check_subclasses(self) -> None:
         """Subclass markers (group code 100) as ezdxf loads them: none (R12), or the kind's own count with
@@ -396,11 +413,14 @@ class _Reader:
     def _spline_groups(self, seg: _Segments, ents: IntArray, degree: IntArray, count: IntArray, ctrl: FloatArray,
                        c0: IntArray, knots: FloatArray, k0: IntArray, weights: FloatArray, w0: IntArray,
                        has_w: NDArray[np.bool_]) -> None:
-        """Splines (arrays aligned with ``ents``) split a group at a time: one group per degree and count."""
+        """Splines (arrays aligned with ``ents``) split a group at a time: one group per degree and count,
+        at most :data:`SPLINE_CHUNK` splines per pass (bounds the temporaries of the knot insertion)."""
         for deg, n in sorted(set(zip(degree.tolist(), count.tolist(), strict=True))):
-            group = np.flatnonzero((degree == deg) & (count == n))
-            self._spline_group(seg, ents[group], deg, n, ctrl, c0[group], knots, k0[group], weights, w0[group],
-                               has_w[group])
+            whole = np.flatnonzero((degree == deg) & (count == n))
+            for lo in range(0, len(whole), SPLINE_CHUNK):
+                group = whole[lo:lo + SPLINE_CHUNK]
+                self._spline_group(seg, ents[group], deg, n, ctrl, c0[group], knots, k0[group], weights, w0[group],
+                                   has_w[group])
 
     def _spline_group(self, seg: _Segments, ents: IntArray, p: int, n: int, ctrl: FloatArray, c0: IntArray,
                       knots: FloatArray, k0: IntArray, weights: FloatArray, w0: IntArray, has_w: NDArray[np.bool_]
@@ -468,18 +488,11 @@ class _Reader:
         return mask
 
     # ----- assembly ------------------------------------------------------------------------------
-    def _batches(self) -> None:
-        """Sort every batch by entity number (file order), as the ezdxf reader appends them."""
-        lines, arcs, beziers = self.segments.batches()
-        order = np.argsort(lines.entity, kind="stable")
-        self.lines = Lines(take_rows(lines.p0, order), take_rows(lines.p1, order), lines.entity[order])
-        order = np.argsort(arcs.entity, kind="stable")
-        self.arcs = EllipticArcs(take_rows(arcs.center, order), take_rows(arcs.u, order), take_rows(arcs.v, order),
-                                 arcs.t0[order], arcs.t1[order], arcs.entity[order])
-        self.beziers = {}
-        for d, b in sorted(beziers.items()):
-            order = np.argsort(b.entity, kind="stable")
-            self.beziers[d] = Beziers(take_rows(b.ctrl, order), take_rows(b.weights, order), b.entity[order])
+    def sort_batches(self) -> None:
+        """Join and sort every batch by entity number (call once the tag table is let go)."""
+        self.lines, self.arcs, self.beziers = self.segments.sorted_batches()
+        del self.segments
+        self.row_handles = decode_texts(self.row_handles, repeated=False)
 
     def model(self) -> Drawing:
         """Model space, with the blocks it places."""
@@ -537,7 +550,7 @@ class _Reader:
             return
         self.insert_name = f.text(2, e)
         self.insert_layer = f.text(8, e, "0")
-        self.insert_handle = f.text(5, e)
+        self.insert_handle = f.text(5, e, repeated=False)
         scale = np.stack([f.number(c, e, 1.0) for c in (41, 42, 43)], axis=1)
         angle = np.radians(f.number(50, e, 0.0))
         c, s = np.cos(angle)[:, None], np.sin(angle)[:, None]
@@ -685,26 +698,33 @@ def _add_pieces(seg: _Segments, ctrl: FloatArray, weights: FloatArray, ents: Int
 
 def _own_lines(lines: Lines, rows: IntArray) -> Lines:
     pick, local = _local(lines.entity, rows)
-    return Lines(take_rows(lines.p0, pick), take_rows(lines.p1, pick), local)
+    return Lines(_rows(lines.p0, pick), _rows(lines.p1, pick), local)
 
 
 def _own_arcs(arcs: EllipticArcs, rows: IntArray) -> EllipticArcs:
     pick, local = _local(arcs.entity, rows)
-    return EllipticArcs(take_rows(arcs.center, pick), take_rows(arcs.u, pick), take_rows(arcs.v, pick),
-                        arcs.t0[pick], arcs.t1[pick], local)
+    return EllipticArcs(_rows(arcs.center, pick), _rows(arcs.u, pick), _rows(arcs.v, pick),
+                        _rows(arcs.t0, pick), _rows(arcs.t1, pick), local)
 
 
 def _own_beziers(b: Beziers, rows: IntArray) -> Beziers:
     pick, local = _local(b.entity, rows)
-    return Beziers(take_rows(b.ctrl, pick), take_rows(b.weights, pick), local)
+    return Beziers(_rows(b.ctrl, pick), _rows(b.weights, pick), local)
 
 
-def _local(entity: IntArray, rows: IntArray) -> tuple[IntArray, IntArray]:
-    """Segments (sorted by entity number) whose entity is one of ``rows`` (sorted), and their row number."""
+def _rows(a: NDArray, pick: IntArray | slice) -> NDArray:
+    """Rows ``pick`` of ``a``: a view for a run of rows (no copy of a big model space), else a copy."""
+    return a[pick] if isinstance(pick, slice) else take_rows(a, pick)
+
+
+def _local(entity: IntArray, rows: IntArray) -> tuple[IntArray | slice, IntArray]:
+    """Segments (sorted by entity number) whose entity is one of ``rows`` (sorted), and their row number;
+    the segments as a slice when they are a run."""
     lo = np.searchsorted(entity, rows[0]) if len(rows) else 0
     hi = np.searchsorted(entity, rows[-1], side="right") if len(rows) else 0
-    pick = np.arange(lo, hi)
-    local = np.searchsorted(rows, entity[pick])
-    inside = (local < len(rows)) & (rows[np.minimum(local, len(rows) - 1)] == entity[pick])
-    return pick[inside], local[inside].astype(np.int64)
+    local = np.searchsorted(rows, entity[lo:hi])
+    inside = (local < len(rows)) & (rows[np.minimum(local, len(rows) - 1)] == entity[lo:hi])
+    if np.all(inside):
+        return slice(int(lo), int(hi)), local.astype(np.int64)
+    return lo + np.flatnonzero(inside), local[inside].astype(np.int64)
 

@@ -84,16 +84,24 @@ class Fields:
         out[:, 2] = np.where(has_z, number[z_at], 0.0)
         return out
 
-    def text(self, code: int, entities: IntArray, default: str | None = None) -> list[str]:
-        """Text field per entity."""
+    def text(self, code: int, entities: IntArray, default: str | None = None, repeated: bool = True) -> list[str]:
+        """Text field per entity; ``repeated``: see :meth:`TagTable.texts` (False for handles)."""
         at = self.first(code, entities)
         if np.any(at < 0) and default is None:
             raise NotPlain(f"an entity without group code {code}")
-        values = self.tags.texts(at[at >= 0])
+        values = self.tags.texts(at[at >= 0], repeated)
         if len(values) == len(at):
             return values
         it = iter(values)
         return [next(it) if a >= 0 else default for a in at.tolist()]  # type: ignore[misc]
+
+    def required_raw_text(self, code: int, entities: IntArray) -> NDArray[np.bytes_]:
+        """Text field every one of ``entities`` has (else :class:`NotPlain`), as a bytes array (see
+        :meth:`TagTable.raw_texts`): decoded later, once the tag table is let go."""
+        at = self.first(code, entities)
+        if np.any(at < 0):
+            raise NotPlain(f"an entity without group code {code}")
+        return self.tags.raw_texts(at)
 
     def many(self, code: int, wanted: NDArray[np.bool_]) -> tuple[IntArray, IntArray]:
         """Every tag of ``code`` whose entity is ``wanted`` (mask over entities): (tag indices, entities)."""

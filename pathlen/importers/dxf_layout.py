@@ -191,7 +191,7 @@ def _tables(tags: TagTable, first: NDArray[np.int64], kinds: list[str], body: ra
                 out.block_records.append(e)
 
 
-def _check_entry(codes: NDArray[np.int32], kind: str) -> None:
+def _check_entry(codes: NDArray[np.int16], kind: str) -> None:
     """A table entry as ezdxf loads it: a name, and either no subclass markers (R12) or two
     (AcDbSymbolTableRecord and the table's own) with the name after the second."""
     names = np.flatnonzero(codes == 2)

@@ -98,7 +98,7 @@ def _links_plain(tags: TagTable, lay: Layout) -> bool:
     dictionary's entries (350, 360) that name an entity of the file name objects."""
     kinds = np.array([*lay.kinds, ""], dtype=object)
     five = np.flatnonzero(tags.codes == 5)
-    handle_of = dict(zip((h.upper() for h in tags.texts(five)), lay.owner[five].tolist(), strict=True))
+    handle_of = dict(zip((h.upper() for h in tags.texts(five, repeated=False)), lay.owner[five].tolist(), strict=True))
 
     def targets(codes: tuple[int, ...], owner_kind: str) -> tuple[list[str], np.ndarray]:
         pick = np.flatnonzero(np.isin(tags.codes, codes))

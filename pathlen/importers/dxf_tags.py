@@ -37,6 +37,8 @@ POINT_CODES = np.array([10, 11, 12, 13, 14, 15, 16, 17, 18, 110, 111, 112, 210, 
 BINARY_CODES = np.array([310, 311, 312, 313, 314, 315, 316, 317, 318, 319, 1004])
 _HEX_LINE = re.compile(rb"(?:[0-9A-Fa-f]{2})*")
 
+#: Largest group code kept in bulk (codes are stored as int16; the DXF reference lists none above 1071).
+MAX_GROUP_CODE = 32767
 #: Longest group-code line (spaces and digits) and numeric value read in bulk; longer ones are parsed one by one.
 CODE_WIDTH = 6
 NUMBER_WIDTH = 32
@@ -47,6 +49,8 @@ PADDING = TEXT_WIDTH
 NEWLINE_CHUNK = 1 << 22
 #: Bytes of windows gathered directly (beyond, through a sliding window view: no index array per byte).
 SMALL_WINDOWS = 1 << 16
+#: Lists of texts from this length on share one ``str`` per distinct value (see :meth:`TagTable.texts`).
+SHARED_TEXTS_FROM = 1024
 #: Tags handled per numpy pass (bounds the temporary arrays: CHUNK x NUMBER_WIDTH bytes).
 CHUNK = 1 << 18
 
@@ -64,7 +68,7 @@ class TagTable:
     """Tags ``0 .. len-1`` of a DXF file up to (not including) its EOF tag."""
 
     data: bytearray  # the file's bytes, then PADDING zero bytes
-    codes: NDArray[np.int32]
+    codes: NDArray[np.int16]
     start: NDArray[np.int64]
     end: NDArray[np.int64]
     number: NDArray[np.float64]
@@ -79,19 +83,45 @@ class TagTable:
             raise NotPlain("text that is not ASCII")
         return raw.decode("ascii")
 
-    def texts(self, index: NDArray[np.int64]) -> list[str]:
-        """Values of the tags ``index`` as text (ASCII; anything else raises :class:`NotPlain`)."""
+    def texts(self, index: NDArray[np.int64], repeated: bool = True) -> list[str]:
+        """Values of the tags ``index`` as text (ASCII; anything else raises :class:`NotPlain`).
+
+        ``repeated`` (kinds, layer names: few distinct values): equal values share one ``str`` object,
+        so a million entities on three layers hold three strings, not a million."""
+        index = np.asarray(index, dtype=np.int64)
+        if len(index) and int((self.end[index] - self.start[index]).max()) > TEXT_WIDTH:
+            return [self.text(i) for i in index.tolist()]
+        return decode_texts(self.raw_texts(index), repeated)
+
+    def raw_texts(self, index: NDArray[np.int64]) -> NDArray[np.bytes_]:
+        """Values of the tags ``index`` as one fixed-width bytes array (ASCII checked; trailing zero bytes
+        dropped): a few bytes per value, no Python object each (see :func:`decode_texts`)."""
         index = np.asarray(index, dtype=np.int64)
         if len(index) == 0:
-            return []
+            return np.zeros(0, dtype="S1")
         start, length = self.start[index], self.end[index] - self.start[index]
-        width = int(length.max())
+        width = max(int(length.max()), 1)
         if width > TEXT_WIDTH:
-            return [self.text(i) for i in index.tolist()]
-        chars = windows(self.data, start, max(width, 1), length)
+            values = [bytes(self.data[a:b]) for a, b in zip(start.tolist(), (start + length).tolist(), strict=True)]
+            if not all(v.isascii() for v in values):
+                raise NotPlain("text that is not ASCII")
+            return np.array(values, dtype=f"S{width}")
+        chars = windows(self.data, start, width, length)
         if chars.max(initial=0) >= 128:
             raise NotPlain("text that is not ASCII")
-        return chars.view(f"S{max(width, 1)}").ravel().astype(f"U{max(width, 1)}").tolist()
+        return chars.view(f"S{width}").ravel()
+
+
+def decode_texts(raw: NDArray[np.bytes_], repeated: bool = True) -> list[str]:
+    """``raw`` (ASCII, from :meth:`TagTable.raw_texts`) as a list of ``str``; ``repeated``: equal values
+    share one object."""
+    if len(raw) == 0:
+        return []
+    text = f"U{raw.dtype.itemsize}"
+    if not repeated or len(raw) < SHARED_TEXTS_FROM:
+        return raw.astype(text).tolist()
+    distinct, which = np.unique(raw, return_inverse=True)
+    return np.array(distinct.astype(text).tolist(), dtype=object)[which.ravel()].tolist()
 
 
 def windows(data: bytearray, start: NDArray[np.int64], width: int, length: NDArray[np.int64] | None = None
@@ -174,7 +204,7 @@ def _newlines(buf: NDArray[np.uint8], position: type) -> tuple[NDArray[np.intege
     return (np.concatenate(parts) if parts else np.zeros(0, dtype=position)), returns
 
 
-def _check_points_and_binary(data: bytes, codes: NDArray[np.int32], start: NDArray[np.int64],
+def _check_points_and_binary(data: bytes, codes: NDArray[np.int16], start: NDArray[np.int64],
                              end: NDArray[np.int64]) -> None:
     """A point's x followed by its y; binary chunks in hexadecimal: ezdxf's tag compiler refuses others."""
     x = np.flatnonzero(np.isin(codes, POINT_CODES))
@@ -185,9 +215,9 @@ def _check_points_and_binary(data: bytes, codes: NDArray[np.int32], start: NDArr
             raise NotPlain("binary data that is not hexadecimal")
 
 
-def _group_codes(data: bytearray, start: NDArray[np.int64], end: NDArray[np.int64]) -> NDArray[np.int32]:
+def _group_codes(data: bytearray, start: NDArray[np.int64], end: NDArray[np.int64]) -> NDArray[np.int16]:
     """Integer group codes; -1 where the line is not optional spaces followed by digits."""
-    out = np.full(len(start), -1, dtype=np.int32)
+    out = np.full(len(start), -1, dtype=np.int16)
     powers = 10 ** np.arange(CODE_WIDTH - 1, -1, -1, dtype=np.int32)
     for lo in range(0, len(start), CHUNK):
         s, e = start[lo:lo + CHUNK], end[lo:lo + CHUNK]
@@ -200,14 +230,17 @@ def _group_codes(data: bytearray, start: NDArray[np.int64], end: NDArray[np.int6
         spaces_only = np.all(digit | (chars == 32), axis=1)
         value = ((chars.astype(np.int32) - 48) * digit * powers).sum(axis=1)
         ok = (length <= CODE_WIDTH) & (length > 0) & monotone & spaces_only
-        out[lo:lo + CHUNK] = np.where(ok, value, -1)
+        value = np.where(ok, value, -1)
         for k in np.flatnonzero(e < CODE_WIDTH).tolist():  # a line near the start of the file
             text = bytes(data[s[k]:e[k]])
-            out[lo + k] = int(text) if text.lstrip(b" ").isdigit() else -1
+            value[k] = int(text) if text.lstrip(b" ").isdigit() else -1
+        if value.max(initial=-1) > MAX_GROUP_CODE:
+            raise NotPlain("a group code beyond those the DXF reference lists")
+        out[lo:lo + CHUNK] = value
     return out
 
 
-def _eof_index(data: bytearray, codes: NDArray[np.int32], start: NDArray[np.int64], end: NDArray[np.int64]) -> int:
+def _eof_index(data: bytearray, codes: NDArray[np.int16], start: NDArray[np.int64], end: NDArray[np.int64]) -> int:
     """Index of the (0, "EOF") tag, which must be the file's last tag and its only EOF."""
     zero = np.flatnonzero(codes == 0)
     eof = [int(i) for i in zero[end[zero] - start[zero] == 3].tolist() if data[start[i]:end[i]] == b"EOF"]
@@ -220,7 +253,7 @@ def _eof_index(data: bytearray, codes: NDArray[np.int32], start: NDArray[np.int6
     return eof[0]
 
 
-def _numbers(data: bytearray, codes: NDArray[np.int32], start: NDArray[np.int64],
+def _numbers(data: bytearray, codes: NDArray[np.int16], start: NDArray[np.int64],
              end: NDArray[np.int64]) -> NDArray[np.float64]:
     """Values of the numeric codes as floats (NaN for other tags), parsed as Python's float() does."""
     number = np.full(len(codes), np.nan)
