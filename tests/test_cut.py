@@ -384,7 +384,7 @@ def test_running_out_of_memory_names_the_step(monkeypatch):
 
 
 @pytest.mark.parametrize("chunk", [1, 7, 1 << 17])
-def test_motion_planned_in_runs_of_contours_equals_one_pass(monkeypatch, chunk):
+def test_motion_planned_in_runs_of_contours_equals_one_pass(monkeypatch, tmp_path, chunk):
     # the planner works through the contours in runs of about MOTION_CHUNK pieces (bounded memory); the
     # times must not depend on where the runs are cut (chunk 1: every contour planned alone); the one-pass
     # planner itself is held to the sequential planner in test_kinematics
@@ -395,7 +395,17 @@ def test_motion_planned_in_runs_of_contours_equals_one_pass(monkeypatch, chunk):
     from pathlen.measure import measure
     from pathlen.segments import segment_layers, segment_table
 
-    drawing = expand(read_drawing(FIXTURES / "kl330_sign_panel.dxf"))
+    doc = ezdxf.new("R2010", setup=False)
+    doc.header["$INSUNITS"] = 4
+    msp = doc.modelspace()
+    for k in range(12):  # closed and open contours of several kinds and sizes
+        x = 30.0 * k
+        msp.add_lwpolyline([(x, 0, 0.4), (x + 10, 0, 0), (x + 10, 8, -0.3), (x, 8 + k, 0)], format="xyb", close=True)
+        msp.add_circle((x + 5, 20), 1 + k / 4)
+        msp.add_line((x, 30), (x + 4 + k, 33))
+        msp.add_spline([(x, 40), (x + 3, 45), (x + 6, 38), (x + 9, 44)])
+    doc.saveas(tmp_path / "parts.dxf")
+    drawing = expand(read_drawing(tmp_path / "parts.dxf"))
     table = segment_table(drawing, measure(drawing))
     contours = chain_contours(table, segment_layers(drawing, table)[1])
     w = cut_contours.walk(table, contours)
@@ -407,4 +417,4 @@ def test_motion_planned_in_runs_of_contours_equals_one_pass(monkeypatch, chunk):
     got = cut_contours.motion_times(table, contours, w, feed, lead, lead, change, 2000.0, 0.05)
     monkeypatch.setattr(cut_contours, "MOTION_CHUNK", 1 << 40)
     whole = cut_contours.motion_times(table, contours, w, feed, lead, lead, change, 2000.0, 0.05)
-    assert n > 10 and got == pytest.approx(whole, rel=1e-12, abs=1e-12)
+    assert n == 48 and got == pytest.approx(whole, rel=1e-12, abs=1e-12)
