@@ -110,6 +110,24 @@ class ContourSet:
     def __iter__(self) -> Iterator[Contour]:
         return (self[k] for k in range(len(self)))
 
+    def run(self, c0: int, c1: int) -> ContourSet:
+        """Contours ``c0 .. c1-1`` as a set of their own (views: their steps are consecutive)."""
+        s0 = int(self.first[c0]) if c1 > c0 else 0
+        s1 = int(self.first[c1 - 1] + self.size[c1 - 1]) if c1 > c0 else 0
+        part = slice(c0, c1)
+        return ContourSet(self.steps[s0:s1], self.forward[s0:s1], self.first[part] - s0, self.size[part],
+                          self.closed[part], self.layer[part], self.length[part], self.bound[part], self.start[part],
+                          self.end[part])
+
+    def runs(self, steps: int) -> Iterator[tuple[int, int]]:
+        """``(c0, c1)`` ranges of whole contours of about ``steps`` steps each (at least one contour)."""
+        ends = self.first + self.size
+        c0 = 0
+        while c0 < len(self):
+            c1 = max(int(np.searchsorted(ends, self.first[c0] + steps, side="right")), c0 + 1)
+            yield c0, c1
+            c0 = c1
+
 
 def chain_contours(table: SegmentTable, layer: IntArray, join_tol: float = DEFAULT_JOIN_TOL_MM,
                    keep: NDArray[np.bool_] | None = None) -> ContourSet:

@@ -383,38 +383,32 @@ def test_running_out_of_memory_names_the_step(monkeypatch):
     assert "contours lie inside which" in result.error
 
 
-@pytest.mark.parametrize("chunk", [1, 7, 1 << 17])
-def test_motion_planned_in_runs_of_contours_equals_one_pass(monkeypatch, tmp_path, chunk):
-    # the planner works through the contours in runs of about MOTION_CHUNK pieces (bounded memory); the
-    # times must not depend on where the runs are cut (chunk 1: every contour planned alone); the one-pass
-    # planner itself is held to the sequential planner in test_kinematics
-    from pathlen.contours import chain_contours
-    from pathlen.estimates import cut_contours
-    from pathlen.importers import read_drawing
-    from pathlen.instances import expand
-    from pathlen.measure import measure
-    from pathlen.segments import segment_layers, segment_table
+@pytest.mark.parametrize("run_steps", [1, 7])
+def test_contours_estimated_in_runs_equal_one_pass(monkeypatch, tmp_path, profile_file, run_steps):
+    # cut works through the contours in runs of about CUT_RUN_STEPS steps (bounded memory): the estimate
+    # must not depend on where the runs are cut (run_steps 1: every contour alone)
+    from pathlen.estimates import cut as cut_module
 
     doc = ezdxf.new("R2010", setup=False)
     doc.header["$INSUNITS"] = 4
     msp = doc.modelspace()
-    for k in range(12):  # closed and open contours of several kinds and sizes
+    for k in range(12):  # closed and open contours of several kinds and sizes, small holes among them
         x = 30.0 * k
         msp.add_lwpolyline([(x, 0, 0.4), (x + 10, 0, 0), (x + 10, 8, -0.3), (x, 8 + k, 0)], format="xyb", close=True)
-        msp.add_circle((x + 5, 20), 1 + k / 4)
+        msp.add_circle((x + 5, 4), 0.5 + k / 8)
         msp.add_line((x, 30), (x + 4 + k, 33))
         msp.add_spline([(x, 40), (x + 3, 45), (x + 6, 38), (x + 9, 44)])
     doc.saveas(tmp_path / "parts.dxf")
-    drawing = expand(read_drawing(tmp_path / "parts.dxf"))
-    table = segment_table(drawing, measure(drawing))
-    contours = chain_contours(table, segment_layers(drawing, table)[1])
-    w = cut_contours.walk(table, contours)
-    n = len(contours)
-    rng = np.random.default_rng(5)
-    feed, lead = rng.uniform(10, 60, n), np.where(rng.random(n) < 0.5, 2.0, 0.0)
-    change = np.zeros(n)
-    monkeypatch.setattr(cut_contours, "MOTION_CHUNK", chunk)
-    got = cut_contours.motion_times(table, contours, w, feed, lead, lead, change, 2000.0, 0.05)
-    monkeypatch.setattr(cut_contours, "MOTION_CHUNK", 1 << 40)
-    whole = cut_contours.motion_times(table, contours, w, feed, lead, lead, change, 2000.0, 0.05)
-    assert n == 48 and got == pytest.approx(whole, rel=1e-12, abs=1e-12)
+    profile_file.write_text(PROFILE.replace("accel_mm_s2 = 1e12", "accel_mm_s2 = 2000.0"))
+    settings = CutSettings(profile(profile_file, kerf_mm=0.3, kerf_offset="true", lead_in_mm=2.0,
+                                   small_hole_ratio=1.0))
+    monkeypatch.setattr(cut_module, "CUT_RUN_STEPS", run_steps)
+    runs = estimate_file(str(tmp_path / "parts.dxf"), settings)
+    monkeypatch.setattr(cut_module, "CUT_RUN_STEPS", 1 << 40)
+    whole = estimate_file(str(tmp_path / "parts.dxf"), settings)
+    assert whole.ok and whole.closed == 24 and whole.open == 24 and whole.pierces == 48
+    assert whole.kerf_change_mm != 0 and any("small holes" in w for w in whole.warnings)
+    assert whole.warnings == runs.warnings
+    for field in ("cut_length_mm", "kerf_change_mm", "lead_length_mm", "rapid_length_mm", "part_time_s", "pierces"):
+        assert getattr(runs, field) == pytest.approx(getattr(whole, field), rel=1e-12), field
+    assert runs.time_s == pytest.approx(whole.time_s, rel=1e-12) and runs.cost == pytest.approx(whole.cost, rel=1e-12)

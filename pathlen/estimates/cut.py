@@ -111,6 +111,10 @@ def _role_of_entities(drawing_entities: list, s: CutSettings) -> np.ndarray:
     return roles
 
 
+#: Contour steps whose samples, motion pieces and outlines are built at once (see :func:`_estimate`).
+CUT_RUN_STEPS = 1 << 16
+
+
 def _estimate(path: str, s: CutSettings) -> CutEstimate:
     p = s.profile
     with stage("reading the drawing"):
@@ -153,20 +157,34 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
     result = CutEstimate(path, ok=True, quantity=s.quantity, feed_mm_min=feed, warnings=warnings)
     cut = ~engraved
     hole = contours.closed & (depth % 2 == 1) & cut
-    with stage(f"building the outlines of {int(contours.closed.sum()):,} closed contours"):
-        steps = walk(table, contours)
-        shapes = outlines(table, contours, steps)
-    small = hole & (shapes.perimeter > 0) & (
-        4.0 * shapes.area / np.where(shapes.perimeter > 0, shapes.perimeter, 1.0) < p.small_hole_ratio * p.thickness_mm)
-    f = np.where(engraved, float(p.engrave_feed_mm_min or 0.0), feed) * np.where(small, p.small_hole_feed_factor, 1.0)
     offset = bool(p.kerf_offset and p.kerf_mm > 0)
     outward = np.where(hole, -0.5, 0.5) * p.kerf_mm
-    with stage("offsetting the contours by half the kerf"):
-        change, trouble = kerf_changes(table, contours, steps, shapes, outward, cut & contours.closed & offset)
-    del shapes  # the outline polygons and the steps' samples are not needed past here: free them first
-    steps.samples = np.zeros((0, 0, 3))
     lead_in = np.where(cut, p.lead_in_mm, 0.0)
     lead_out = np.where(cut, p.lead_out_mm, 0.0)
+    n = len(contours)
+    small, f, motion = np.zeros(n, dtype=bool), np.zeros(n), np.zeros(n)
+    change, trouble = np.zeros(n), np.zeros(n, dtype=np.int64)
+    # contour by contour facts, in runs of about CUT_RUN_STEPS steps: each run's samples, motion pieces
+    # and outlines are let go before the next, so memory stays bounded whatever the drawing's size
+    for c0, c1 in contours.runs(CUT_RUN_STEPS):
+        run, part = contours.run(c0, c1), slice(c0, c1)
+        with stage(f"building the outlines of {int(contours.closed.sum()):,} closed contours"):
+            steps = walk(table, run)
+            shapes = outlines(table, run, steps)
+        small[part] = hole[part] & (shapes.perimeter > 0) & (
+            4.0 * shapes.area / np.where(shapes.perimeter > 0, shapes.perimeter, 1.0)
+            < p.small_hole_ratio * p.thickness_mm)
+        f[part] = np.where(engraved[part], float(p.engrave_feed_mm_min or 0.0), feed) * np.where(
+            small[part], p.small_hole_feed_factor, 1.0)
+        with stage("offsetting the contours by half the kerf"):
+            change[part], trouble[part] = kerf_changes(table, run, steps, shapes, outward[part],
+                                                       (cut & contours.closed)[part] & offset)
+        del shapes  # the outline polygons and the steps' samples are not needed past here: free them first
+        steps.samples = np.zeros((0, 0, 3))
+        with stage(f"planning the motion of {n:,} contours"):
+            motion[part] = motion_times(table, run, steps, f[part] / 60.0, lead_in[part], lead_out[part],
+                                        change[part], p.accel_mm_s2, p.corner_tolerance_mm)
+        del steps
     path_mm = contours.length + change + lead_in + lead_out
     result.engrave_length_mm = float(contours.length[engraved].sum())
     result.pierces = int(cut.sum())
@@ -175,9 +193,7 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
     result.bound_mm = float(contours.bound.sum())
     result.cut_length_mm = float(path_mm[cut].sum())
     cutting_s = float(np.sum(path_mm / (f / 60.0))) if len(contours) else 0.0
-    with stage(f"planning the motion along {len(steps.piece_length):,} pieces"):
-        motion_s = float(motion_times(table, contours, steps, f / 60.0, lead_in, lead_out, change, p.accel_mm_s2,
-                                      p.corner_tolerance_mm).sum())
+    motion_s = float(motion.sum())
     small_holes = int(small.sum())
     narrow_holes = int((trouble == TROUBLE.index("narrow")).sum())
     rough_offsets = int((trouble == TROUBLE.index("rough")).sum())

@@ -171,39 +171,11 @@ def motion_times(table: SegmentTable, contours: ContourSet, w: Walk, feed: Float
     """Per contour, the time (s) to cut it from rest to rest at ``feed`` (mm/s): its motion pieces
     (scaled to the kerf-changed length), arcs limited to √(a·r), corners to :func:`corner_speed`,
     and straight tangent leads before and after (lengths 0: none)."""
-    n = len(contours)
-    out = np.zeros(n)
-    if n == 0:
-        return out
-    # contours in runs of about MOTION_CHUNK pieces: a contour's steps and pieces are consecutive, so each
-    # run is a slice of every array, and the temporaries stay bounded whatever the drawing's size
-    piece_end = np.r_[w.piece_first, len(w.piece_length)]
-    step_end = contours.first + contours.size
-    pieces_before = piece_end[step_end]  # per contour: pieces up to its end
-    c0 = 0
-    while c0 < n:
-        c1 = max(int(np.searchsorted(pieces_before, piece_end[contours.first[c0]] + MOTION_CHUNK, side="right")),
-                 c0 + 1)
-        s0, s1 = int(contours.first[c0]), int(step_end[c1 - 1])
-        p0, p1 = int(piece_end[s0]), int(piece_end[s1])
-        out[c0:c1] = _motion_times_run(
-            table, contours.steps[s0:s1], contours.forward[s0:s1], w.contour[s0:s1] - c0, w.piece_length[p0:p1],
-            w.piece_radius[p0:p1], w.piece_first[s0:s1] - p0, contours.length[c0:c1], feed[c0:c1], lead_in[c0:c1],
-            lead_out[c0:c1], change[c0:c1], accel, corner_tolerance)
-        c0 = c1
-    return out
-
-
-#: Motion pieces planned per numpy pass in :func:`motion_times`.
-MOTION_CHUNK = 1 << 17
-
-
-def _motion_times_run(table: SegmentTable, steps: IntArray, fwd: np.ndarray, cid: IntArray,
-                      length: FloatArray, radius: FloatArray, pfirst: IntArray, c_length: FloatArray,
-                      feed: FloatArray, lead_in: FloatArray, lead_out: FloatArray, change: FloatArray, accel: float,
-                      corner_tolerance: float) -> FloatArray:
-    """:func:`motion_times` of a run of whole contours (``cid`` and ``pfirst`` counted from the run's start)."""
+    steps, fwd, cid = contours.steps, contours.forward, w.contour
+    length, radius, pfirst, c_length = w.piece_length, w.piece_radius, w.piece_first, contours.length
     n = len(c_length)
+    if n == 0:
+        return np.zeros(0)
     count = np.diff(np.r_[pfirst, len(length)])
     piece_step = np.repeat(np.arange(len(steps)), count)
     piece_c = cid[piece_step]
