@@ -10,7 +10,7 @@ import numpy as np
 import shapely
 
 from pathlen.contours import Contour, ContourSet
-from pathlen.geometry import IntArray, take_rows
+from pathlen.geometry import IntArray, distinct, take_rows
 from pathlen.proximity import cell_keys, expand_ranges
 from pathlen.segments import CURVE_SAMPLES, SegmentTable
 
@@ -86,10 +86,18 @@ def _starts_inside(table: SegmentTable, contours: ContourSet, starts: np.ndarray
     if len(point_i) == 0:
         return np.zeros(0, dtype=bool)
     k = CURVE_SAMPLES - 1
-    pts = table.travel_samples(contours.steps, contours.forward)[:, :, :2]
+    # outlines of the containers only (usually few of all contours), their steps gathered together
+    holders, container = distinct(container, return_inverse=True)
+    size = contours.size[holders]
+    first = np.cumsum(size) - size
+    _, rows = expand_ranges(np.zeros(len(holders), dtype=np.int64), contours.first[holders],
+                            contours.first[holders] + size).T
+    pts = table.travel_samples(contours.steps[rows], contours.forward[rows])[:, :, :2]
+    del rows
     ax, ay = np.ascontiguousarray(pts[:, :-1, 0]).ravel(), np.ascontiguousarray(pts[:, :-1, 1]).ravel()
     bx, by = np.ascontiguousarray(pts[:, 1:, 0]).ravel(), np.ascontiguousarray(pts[:, 1:, 1]).ravel()
-    edge_lo, edge_n = k * contours.first, k * contours.size
+    del pts
+    edge_lo, edge_n = k * first, k * size
     hits = np.zeros(len(point_i), dtype=bool)
     point_x, point_y = starts[point_i, 0], starts[point_i, 1]
     per_pair = edge_n[container]

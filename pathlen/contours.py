@@ -62,7 +62,7 @@ def count_contours(drawing: Drawing, join_tol: float = DEFAULT_JOIN_TOL_MM) -> C
     used = degree > 0
     odd = np.zeros(node.max() + 1, dtype=bool)
     odd[comp[used & (degree % 2 == 1)]] = True
-    roots = np.unique(comp[used])
+    roots = np.flatnonzero(used & (comp == np.arange(len(comp))))  # a piece's label is its smallest node
     closed = int(np.count_nonzero(~odd[roots]))
     return ContourCount(closed, len(roots) - closed)
 

@@ -15,6 +15,7 @@ import math
 from collections import Counter
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
@@ -64,6 +65,22 @@ def take_rows(a: NDArray, index: NDArray) -> NDArray:
     """``a[index]`` for a 2-D or 3-D array and integer ``index``: ``np.take`` along axis 0, several times
     faster than fancy indexing of rows on the numpy builds measured here."""
     return np.take(a, index, axis=0)
+
+
+def distinct(a: NDArray, return_inverse: bool = False) -> Any:
+    """The sorted distinct values of 1-D ``a`` (and, with ``return_inverse``, each element's index among
+    them), as ``np.unique`` gives them, found by sorting: numpy 2.4's hash-based ``np.unique`` took about
+    20 times longer on millions of integers on the machines measured here."""
+    a = np.asarray(a).ravel()
+    if not return_inverse:
+        s = np.sort(a)
+        return s[np.r_[True, s[1:] != s[:-1]]] if len(s) else s
+    order = np.argsort(a, kind="stable")
+    s = a[order]
+    new = np.r_[True, s[1:] != s[:-1]] if len(s) else np.zeros(0, dtype=bool)
+    inverse = np.empty(len(a), dtype=np.int64)
+    inverse[order] = np.cumsum(new) - 1
+    return s[new], inverse
 
 
 def identity() -> FloatArray:

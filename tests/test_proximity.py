@@ -2,6 +2,8 @@
 
 import numpy as np
 import pytest
+from hypothesis import given
+from hypothesis import strategies as st
 from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
 from scipy.spatial import cKDTree
@@ -49,3 +51,16 @@ def test_crowded_cluster_and_sparse_points():
     ours = {tuple(x) for x in close_pairs(p, 0.01)}
     ref = {tuple(sorted(x)) for x in cKDTree(p).query_pairs(0.01, output_type="ndarray")}
     assert ours == ref and len(ref) > 100
+
+
+@given(st.lists(st.integers(-5, 5), max_size=60), st.sampled_from(["int64", "S3"]))
+def test_distinct_is_numpys_unique(values, dtype):
+    # pathlen.geometry.distinct replaces np.unique on big arrays (sorting, not hashing): the reference is
+    # numpy's own np.unique, values and inverse alike
+    from pathlen.geometry import distinct
+
+    a = np.array([str(v).encode() if dtype == "S3" else v for v in values], dtype=dtype)
+    want, want_inverse = np.unique(a, return_inverse=True)
+    got, inverse = distinct(a, return_inverse=True)
+    assert got.tolist() == want.tolist() and distinct(a).tolist() == want.tolist()
+    assert inverse.tolist() == want_inverse.ravel().tolist()

@@ -112,7 +112,7 @@ def _role_of_entities(drawing_entities: list, s: CutSettings) -> np.ndarray:
 
 
 #: Contour steps whose samples, motion pieces and outlines are built at once (see :func:`_estimate`).
-CUT_RUN_STEPS = 1 << 16
+CUT_RUN_STEPS = 1 << 14
 
 
 def _estimate(path: str, s: CutSettings) -> CutEstimate:

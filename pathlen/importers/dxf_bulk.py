@@ -29,6 +29,7 @@ from pathlen.geometry import (
     IntArray,
     Lines,
     SegmentCollector,
+    distinct,
     take_rows,
 )
 from pathlen.importers.dxf_blocks import BlockCache, place_insert
@@ -113,7 +114,7 @@ def _repeated_single_codes(tags: TagTable, lay: Layout) -> bool:
     if len(pick) == 0:
         return False
     key = owner[pick].astype(np.int64) * 1024 + codes[pick]
-    return len(np.unique(key)) < len(key)
+    return len(distinct(key)) < len(key)
 
 
 class _Segments:
@@ -249,7 +250,7 @@ class _Reader:
         self.segments = seg
         self._inserts()
         measured = np.concatenate([v for k, v in self.by_kind.items() if k != "INSERT"])
-        rows = np.setdiff1d(measured, np.array(sorted(self.skipped_rows), dtype=np.int64))
+        rows = np.setdiff1d(np.sort(measured), np.array(sorted(self.skipped_rows), dtype=np.int64), assume_unique=True)
         self.row_entities = rows  # entities that get an entity row, file order
         self.row_layers = self.f.text(8, rows, "0")
         self.row_handles: list[str] | NDArray[np.bytes_] = self.f.required_raw_text(5, rows)  # decoded when sorted
@@ -336,7 +337,7 @@ class _Reader:
         bulge = np.zeros(len(idx))
         b_idx, b_own = self.f.many(42, wanted)
         vertex = np.searchsorted(idx, b_idx) - 1
-        if np.any(vertex < 0) or np.any(own[np.maximum(vertex, 0)] != b_own) or len(np.unique(vertex)) < len(vertex):
+        if np.any(vertex < 0) or np.any(own[np.maximum(vertex, 0)] != b_own) or len(distinct(vertex)) < len(vertex):
             raise NotPlain("a bulge that does not follow its vertex")
         bulge[vertex] = self.tags.number[b_idx]
         flags = self.f.integer(70, e, 0)

@@ -14,6 +14,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.typing import NDArray
 
+from pathlen.geometry import distinct
 from pathlen.importers.dxf_tags import POINT_CODES, NotPlain, TagTable, windows
 
 #: Entity kinds pathlen measures (the same set as the ezdxf reader's handlers) and INSERT.
@@ -276,7 +277,7 @@ def _check_handles(tags: TagTable, owner_of: NDArray[np.int32], kinds: list[str]
     one_oh_five = np.flatnonzero(tags.codes == 105)
     one_oh_five = one_oh_five[dimstyles[owner_of[one_oh_five]]]
     handles = np.concatenate((five, one_oh_five))
-    if len(np.unique(owner_of[handles])) != len(handles):
+    if len(distinct(owner_of[handles])) != len(handles):
         raise NotPlain("an entity with two handles")
     width = tags.end[handles] - tags.start[handles]
     if len(handles) and (width.max() > 16 or width.min() < 1):
@@ -284,7 +285,7 @@ def _check_handles(tags: TagTable, owner_of: NDArray[np.int32], kinds: list[str]
     chars = windows(tags.data, tags.start[handles], 16, width)
     if not np.all(HEX[chars] | (chars == 0)):
         raise NotPlain("a handle that is not hexadecimal")
-    if len(np.unique(chars.view("S16").ravel())) != len(handles):
+    if len(distinct(chars.view("S16").ravel())) != len(handles):
         raise NotPlain("a handle used twice")
     if np.any(np.all((chars == ord("0")) | (chars == 0), axis=1)):
         raise NotPlain("a handle 0 (no entity's: ezdxf refuses it)")

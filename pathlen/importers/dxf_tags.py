@@ -20,6 +20,8 @@ from pathlib import Path
 import numpy as np
 from numpy.typing import NDArray
 
+from pathlen.geometry import distinct
+
 #: Group codes with numeric values (DXF reference, "Group Code Value Types"; the ranges ezdxf converts):
 #: every one must be a number, as ezdxf refuses the file otherwise.
 #: Of those, the integer codes: ezdxf refuses a value that is not a finite number there.
@@ -120,8 +122,8 @@ def decode_texts(raw: NDArray[np.bytes_], repeated: bool = True) -> list[str]:
     text = f"U{raw.dtype.itemsize}"
     if not repeated or len(raw) < SHARED_TEXTS_FROM:
         return raw.astype(text).tolist()
-    distinct, which = np.unique(raw, return_inverse=True)
-    return np.array(distinct.astype(text).tolist(), dtype=object)[which.ravel()].tolist()
+    values, which = distinct(raw, return_inverse=True)
+    return np.array(values.astype(text).tolist(), dtype=object)[which].tolist()
 
 
 def windows(data: bytearray, start: NDArray[np.int64], width: int, length: NDArray[np.int64] | None = None
