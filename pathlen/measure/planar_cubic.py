@@ -35,9 +35,9 @@ from __future__ import annotations
 import os
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
+from functools import cache
 
 import numpy as np
-from numpy.polynomial.legendre import leggauss
 
 from pathlen.geometry import FloatArray, IntArray, take_rows
 from pathlen.measure.closed_forms import EPS
@@ -46,7 +46,16 @@ from pathlen.measure.quadrature import split_intervals
 
 #: Gauss–Legendre orders tried, smallest first; intervals needing more are split.
 ORDERS = np.array([2, 3, 4, 5, 6, 7, 8, 10, 12, 14, 16, 20, 24, 28, 32])
-_RULES = {int(n): leggauss(int(n)) for n in ORDERS}
+
+
+@cache
+def _rule(order: int) -> tuple[FloatArray, FloatArray]:
+    """Gauss-Legendre nodes and weights on [-1, 1] (computed on first use: numpy.polynomial costs start-up)."""
+    from numpy.polynomial.legendre import leggauss
+
+    return leggauss(order)
+
+
 MAX_PASSES = 64
 #: A curve with more unsettled pieces than this goes to the adaptive integrator.
 MAX_OPEN_PIECES = 64
@@ -432,7 +441,7 @@ def _gauss_sums(coeff: FloatArray, pieces: list[_Accepted], maps: _SinhMaps, n: 
     for acc in pieces:
         mapped = acc.kind[0] >= 0
         for k in np.unique(acc.order):
-            nodes, weights = _RULES[int(k)]
+            nodes, weights = _rule(int(k))
             sel = np.nonzero(acc.order == k)[0]
             step = max(1, NODES_PER_BLOCK // int(k))
             for s in range(0, len(sel), step):
