@@ -40,10 +40,10 @@ def write_drawing(path: Path, entities: int) -> None:
 
 
 def run(cmd: list[str]) -> tuple[float, float, str]:
-    """Wall seconds, peak RSS (MB) and stdout of a fresh process."""
+    """Wall seconds, peak RSS (MB of 10^6 bytes, as the file size) and stdout of a fresh process."""
     out = subprocess.run(["/usr/bin/time", "-f", "%e %M", *cmd], capture_output=True, text=True, check=False)
     wall, kb = out.stderr.strip().splitlines()[-1].split()
-    return float(wall), int(kb) / 1024.0, out.stdout
+    return float(wall), int(kb) * 1024 / 1e6, out.stdout
 
 
 def main() -> None:

@@ -216,7 +216,8 @@ def _same_key_as_previous(points: FloatArray, groups: IntArray, order: IntArray)
 
 def _differs_from_previous(points: FloatArray, groups: IntArray, order: IntArray) -> NDArray[np.bool_]:
     """In ``order``: True where a point differs from the one before it (or its group does)."""
-    new = np.ones(len(order), dtype=bool)
+    new = np.zeros(len(order), dtype=bool)
+    new[:1] = True
     for column in (groups, points[:, 0], points[:, 1], points[:, 2]):
         value = np.take(column, order)
         new[1:] |= value[1:] != value[:-1]

@@ -53,6 +53,18 @@ def test_reversed_segments_chain_into_one_closed_contour():
     assert contours[0].forward.tolist().count(False) == 2
 
 
+@pytest.mark.parametrize("tol", [0.0, 0.01])
+def test_identical_ends_are_one_place_whatever_the_tolerance(tol):
+    # Ends at the same point meet there with no tolerance at all: a square drawn as four lines is one
+    # closed contour (every vertex joins two ends: even degree, Euler), and so is a bow-tie of two
+    # triangles sharing a vertex (four ends there); a lone line is one open contour
+    sides = [[(0, 0), (10, 0)], [(10, 10), (10, 0)], [(10, 10), (0, 10)], [(0, 0), (0, 10)]]
+    bow = [[(20, 0), (25, 5)], [(25, 5), (20, 10)], [(20, 10), (20, 0)],
+           [(25, 5), (30, 0)], [(30, 0), (30, 10)], [(30, 10), (25, 5)]]
+    counted = count_contours(build([("CUT", "polyline", s) for s in sides + bow + [[(40, 0), (41, 0)]]])[0], tol)
+    assert (counted.closed, counted.open) == (2, 1)
+
+
 def test_negative_zero_is_the_same_point():
     # IEEE 754 (section 5.11): -0 compares equal to +0, so a vertex written (-0.0, 0.0) by one line and
     # (0.0, 0.0) by another is one point.  Two triangles meeting there (four ends at the origin) are one

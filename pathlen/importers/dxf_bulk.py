@@ -93,7 +93,7 @@ def _without_entities(tags: TagTable, lay: Layout) -> bytes:
     first, endsec = (int(lay.first_tag[k]) for k in lay.entities_body)
 
     def line_start(t: int) -> int:  # where tag t's group-code line begins
-        return data.index(b"\n", int(tags.end[t - 1])) + 1
+        return data.index(b"\n", tags.end(t - 1)) + 1
 
     return bytes(data[:line_start(first)] + data[line_start(endsec):size])
 
@@ -192,7 +192,7 @@ class _Reader:
         head = int(self.lay.first_tag[self.lay.header])
         stop = int(self.lay.first_tag[self.lay.header + 1]) if self.lay.header + 1 < len(self.kinds) else len(codes)
         nine = np.flatnonzero(codes[head:stop] == 9) + head
-        found = [i for i in nine.tolist() if self.tags.data[self.tags.start[i]:self.tags.end[i]] == b"$INSUNITS"]
+        found = [i for i in nine.tolist() if self.tags.data[self.tags.start[i]:self.tags.end(i)] == b"$INSUNITS"]
         if not found:
             return 0
         if len(found) > 1 or codes[found[0] + 1] != 70:

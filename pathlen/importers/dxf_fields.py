@@ -126,7 +126,7 @@ def _application_groups(tags: TagTable, owner: NDArray[np.int32]) -> NDArray[np.
         return np.zeros(0, dtype=bool)
     data = tags.data
     opens = np.array([data[s:s + 1] == b"{" for s in tags.start[marks].tolist()], dtype=bool)
-    closes = np.array([data[s:e] == b"}" for s, e in zip(tags.start[marks].tolist(), tags.end[marks].tolist(),
+    closes = np.array([data[s:e] == b"}" for s, e in zip(tags.start[marks].tolist(), tags.end(marks).tolist(),
                                                          strict=True)], dtype=bool)
     if not np.all(opens | closes):
         raise NotPlain("group code 102 that neither opens nor closes a group")

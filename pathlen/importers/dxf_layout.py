@@ -121,7 +121,7 @@ def _check_version(tags: TagTable, start: int, stop: int) -> None:
     (:data:`LOADED_HEADER_CODES`); subclass markers (code 100) only from R13 (AC1012) on: ezdxf reads a
     file without ``$ACADVER`` as R12, whose entries carry no markers."""
     nine = np.flatnonzero(tags.codes[start:stop] == 9) + start
-    length = tags.end[nine] - tags.start[nine]
+    length = tags.width[nine].astype(np.int64)
     width = max(len(name) for name in LOADED_HEADER_CODES)
     names = windows(tags.data, tags.start[nine], width, np.minimum(length, width))
     version = -1
@@ -146,7 +146,7 @@ def _check_header(tags: TagTable, start: int, stop: int) -> None:
     if len(codes) and (len(nine) == 0 or nine[0] != 0):
         raise NotPlain("a header value without its variable name")
     names = nine + start
-    if np.any((tags.end[names] <= tags.start[names]) | (np.frombuffer(tags.data, dtype=np.uint8)[tags.start[names]]
+    if np.any((tags.width[names] == 0) | (np.frombuffer(tags.data, dtype=np.uint8)[tags.start[names]]
                                                         != ord("$"))):
         raise NotPlain("a header variable name without its leading $")
     size = np.diff(np.append(nine, len(codes)))
@@ -279,7 +279,7 @@ def _check_handles(tags: TagTable, owner_of: NDArray[np.int32], kinds: list[str]
     handles = np.concatenate((five, one_oh_five))
     if len(distinct(owner_of[handles])) != len(handles):
         raise NotPlain("an entity with two handles")
-    width = tags.end[handles] - tags.start[handles]
+    width = tags.width[handles].astype(np.int64)
     if len(handles) and (width.max() > 16 or width.min() < 1):
         raise NotPlain("a handle of unusual width")
     chars = windows(tags.data, tags.start[handles], 16, width)

@@ -2,7 +2,7 @@
 
 A DXF file is a sequence of tags, each two lines: a group code (an integer) and a value whose type the
 code fixes (DXF reference, "Group Code Value Types").  Here the whole file is one ``bytes`` object and
-every tag is a row of arrays: ``codes[i]``, the value's byte range ``[start[i], end[i])`` and, for the
+every tag is a row of arrays: ``codes[i]``, the value's byte range ``[start[i], start[i] + width[i])`` and, for the
 numeric codes pathlen reads, ``number[i]`` (NaN otherwise).  Nothing is made per tag in Python.
 
 Anything outside the plain form (a binary DXF, a byte-order mark, a lone carriage return, a group code
@@ -72,15 +72,21 @@ class TagTable:
     data: bytearray  # the file's bytes, then PADDING zero bytes
     codes: NDArray[np.int16]
     start: NDArray[np.int64]
-    end: NDArray[np.int64]
+    width: NDArray[np.integer]  # bytes of each value: uint8, uint16 or int32, the narrowest that holds them
     number: NDArray[np.float64]
 
     def __len__(self) -> int:
         return len(self.codes)
 
+    def end(self, index: NDArray[np.integer] | int) -> NDArray[np.int64] | int:
+        """Where the values of the tags ``index`` end (exclusive byte positions)."""
+        if isinstance(index, (int, np.integer)):
+            return int(self.start[index]) + int(self.width[index])
+        return self.start[index].astype(np.int64) + self.width[index]
+
     def text(self, i: int) -> str:
         """Value of tag ``i`` as text (ASCII; anything else raises :class:`NotPlain`)."""
-        raw = self.data[self.start[i]:self.end[i]]
+        raw = self.data[self.start[i]:self.start[i] + self.width[i]]
         if not raw.isascii():
             raise NotPlain("text that is not ASCII")
         return raw.decode("ascii")
@@ -91,7 +97,7 @@ class TagTable:
         ``repeated`` (kinds, layer names: few distinct values): equal values share one ``str`` object,
         so a million entities on three layers hold three strings, not a million."""
         index = np.asarray(index, dtype=np.int64)
-        if len(index) and int((self.end[index] - self.start[index]).max()) > TEXT_WIDTH:
+        if len(index) and int(self.width[index].max()) > TEXT_WIDTH:
             return [self.text(i) for i in index.tolist()]
         return decode_texts(self.raw_texts(index), repeated)
 
@@ -101,7 +107,7 @@ class TagTable:
         index = np.asarray(index, dtype=np.int64)
         if len(index) == 0:
             return np.zeros(0, dtype="S1")
-        start, length = self.start[index], self.end[index] - self.start[index]
+        start, length = self.start[index], self.width[index].astype(np.int64)
         width = max(int(length.max()), 1)
         if width > TEXT_WIDTH:
             values = [bytes(self.data[a:b]) for a, b in zip(start.tolist(), (start + length).tolist(), strict=True)]
@@ -192,7 +198,14 @@ def parse_tags(data: bytes | bytearray) -> TagTable:
     if np.any(codes < 0):
         raise NotPlain("a group code that is not a plain integer")
     _check_points_and_binary(data, codes, value_start, value_end)
-    return TagTable(data, codes, value_start, value_end, _numbers(data, codes, value_start, value_end))
+    number = _numbers(data, codes, value_start, value_end)
+    return TagTable(data, codes, value_start, _narrowest(value_end - value_start), number)
+
+
+def _narrowest(width: NDArray[np.integer]) -> NDArray[np.integer]:
+    """``width`` (non-negative) in the narrowest of uint8, uint16 and int32 that holds it."""
+    top = int(width.max(initial=0))
+    return width.astype(np.uint8 if top < 2**8 else np.uint16 if top < 2**16 else np.int32)
 
 
 def _newlines(buf: NDArray[np.uint8], position: type) -> tuple[NDArray[np.integer], int]:
