@@ -9,7 +9,7 @@ from __future__ import annotations
 import numpy as np
 import shapely
 
-from pathlen.contours import Contour, ContourSet
+from pathlen.contours import Contour, ContourSet, equal_rows
 from pathlen.geometry import IntArray, distinct, take_rows
 from pathlen.proximity import cell_keys, expand_ranges
 from pathlen.segments import CURVE_SAMPLES, SegmentTable
@@ -49,9 +49,11 @@ def nesting_depth(table: SegmentTable, contours: ContourSet) -> tuple[IntArray, 
     box_hi = np.maximum.reduceat(take_rows(seg_hi[:, :2], contours.steps), contours.first)
     box_size = (box_hi - box_lo).prod(axis=1)
     starts = contours.start[:, :2]
-    key = np.concatenate([box_lo, box_hi, starts, contours.closed[:, None].astype(float)], axis=1)
-    _, rep, cls, copies = np.unique(key, axis=0, return_index=True, return_inverse=True, return_counts=True)
-    cls = cls.ravel()
+    order, new = equal_rows([contours.closed, *box_lo.T, *box_hi.T, *starts.T])
+    rep = order[new]  # the first contour of each class of equal boxes and starts
+    cls = np.empty(len(order), dtype=np.int64)
+    cls[order] = np.cumsum(new) - 1
+    copies = np.diff(np.r_[np.flatnonzero(new), len(order)])
     shut = rep[contours.closed[rep]]  # one closed contour per class
     point_i, box_j = points_in_boxes(starts[rep], take_rows(box_lo, shut), take_rows(box_hi, shut))
     point_i, container = rep[point_i], shut[box_j]

@@ -184,11 +184,7 @@ def join_nodes(points: FloatArray, groups: IntArray, tol: float, closed: NDArray
     one); the pairs within ``tol`` are searched among places, not points.
     """
     n = len(points) // 2
-    order = np.argsort(_point_keys(points, groups))
-    new = _differs_from_previous(points, groups, order)
-    if np.any(new[1:] & _same_key_as_previous(points, groups, order)):  # distinct points share a hash
-        order = np.lexsort((points[:, 2], points[:, 1], points[:, 0], groups))
-        new = _differs_from_previous(points, groups, order)
+    order, new = equal_rows([groups, points[:, 0], points[:, 1], points[:, 2]])
     first = order[new]  # one point of each place (index into points), places in sorted order
     place = np.empty(len(points), dtype=np.int64)
     place[order] = np.cumsum(new) - 1
@@ -201,24 +197,37 @@ def join_nodes(points: FloatArray, groups: IntArray, tol: float, closed: NDArray
     return label[place]
 
 
-def _point_keys(points: FloatArray, groups: IntArray) -> NDArray[np.uint64]:
-    """A hash of each point's coordinate bits and group (-0.0 and +0.0 alike), a column at a time."""
-    key = groups.astype(np.uint64)
-    for k in (2, 1, 0):
-        key = _mix((points[:, k] + 0.0).view(np.uint64) ^ _mix(key))  # -0.0 + 0.0 is +0.0
+def equal_rows(columns: list[NDArray]) -> tuple[IntArray, NDArray[np.bool_]]:
+    """Rows (one value of each column; equal lengths) sorted so that equal rows are neighbours:
+    ``(order, new)``, ``new[k]`` True where row ``order[k]`` differs from the one before it.  Rows
+    compare by value (-0.0 equals +0.0); among equal rows the lowest index comes first.
+
+    A hash of each row's bits is sorted (a column at a time: one number per row in memory at once);
+    should two different rows share a hash, the rows are sorted by value instead.  (``np.unique``
+    with ``axis=0`` sorts the rows as bytes: several times slower, and -0.0 is not +0.0 there.)"""
+    order = np.argsort(_row_keys(columns), kind="stable")
+    new = _differs_from_previous(columns, order)
+    key = _row_keys(columns)[order]
+    if np.any(new[1:] & (key[1:] == key[:-1])):  # different rows share a hash
+        order = np.lexsort(columns[::-1])
+        new = _differs_from_previous(columns, order)
+    return order, new
+
+
+def _row_keys(columns: list[NDArray]) -> NDArray[np.uint64]:
+    """A hash of each row's bits (-0.0 and +0.0 alike), a column at a time."""
+    key = np.zeros(len(columns[0]), dtype=np.uint64)
+    for column in columns:
+        bits = (column + 0.0).view(np.uint64) if column.dtype == np.float64 else column.astype(np.uint64)
+        key = _mix(bits ^ _mix(key))  # -0.0 + 0.0 is +0.0
     return key
 
 
-def _same_key_as_previous(points: FloatArray, groups: IntArray, order: IntArray) -> NDArray[np.bool_]:
-    key = _point_keys(points, groups)[order]
-    return key[1:] == key[:-1]
-
-
-def _differs_from_previous(points: FloatArray, groups: IntArray, order: IntArray) -> NDArray[np.bool_]:
-    """In ``order``: True where a point differs from the one before it (or its group does)."""
+def _differs_from_previous(columns: list[NDArray], order: IntArray) -> NDArray[np.bool_]:
+    """In ``order``: True where a row differs from the one before it (the first row: True)."""
     new = np.zeros(len(order), dtype=bool)
     new[:1] = True
-    for column in (groups, points[:, 0], points[:, 1], points[:, 2]):
+    for column in columns:
         value = np.take(column, order)
         new[1:] |= value[1:] != value[:-1]
     return new
@@ -447,10 +456,12 @@ def duplicate_segments(table: SegmentTable, layer: IntArray, tol: float = DEFAUL
     flip = _lexically_less(table.end, table.start)
     lo = np.where(flip[:, None], table.end, table.start)
     hi = np.where(flip[:, None], table.start, table.end)
-    exact = np.concatenate([lo, hi, middle, layer[:, None].astype(float)], axis=1)
-    _, rep, cls = np.unique(exact, axis=0, return_index=True, return_inverse=True)
-    cls = cls.ravel()
-    rep_of = rep[cls]  # the first row of each exact class
+    order, new = equal_rows([layer, *lo.T, *hi.T, *middle.T])
+    del lo, hi
+    rep = order[new]  # the first row of each exact class
+    cls = np.empty(len(order), dtype=np.int64)
+    cls[order] = np.cumsum(new) - 1
+    rep_of = rep[cls]
     sub = np.sort(rep)
     pairs = close_pairs(middle[sub], tol, layer[sub])
     a, b = sub[pairs[:, 0]], sub[pairs[:, 1]]

@@ -96,19 +96,21 @@ def estimate_file(path: str, settings: CutSettings) -> CutEstimate:
 
 
 def _role_of_entities(drawing_entities: list, s: CutSettings) -> np.ndarray:
-    """0 ignored, 1 cut, 2 engraved, per entity (a selector is a layer name or a #rrggbb colour)."""
-    def hit(e: object, selectors: tuple[str, ...]) -> bool:
-        return e.layer in selectors or (bool(e.color) and e.color in selectors)  # type: ignore[attr-defined]
+    """0 ignored, 1 cut, 2 engraved, per entity (a selector is a layer name or a #rrggbb colour); decided
+    once per distinct (layer, colour, hidden)."""
+    def role(layer: str, color: str, hidden: bool) -> int:
+        def hit(selectors: tuple[str, ...]) -> bool:
+            return layer in selectors or (bool(color) and color in selectors)
 
-    roles = np.zeros(len(drawing_entities), dtype=np.int64)
-    for i, e in enumerate(drawing_entities):
-        if e.hidden or hit(e, s.ignore):
-            continue
-        if hit(e, s.engrave):
-            roles[i] = 2
-        elif not s.cut or hit(e, s.cut):
-            roles[i] = 1
-    return roles
+        if hidden or hit(s.ignore):
+            return 0
+        if hit(s.engrave):
+            return 2
+        return 1 if not s.cut or hit(s.cut) else 0
+
+    keys = [(e.layer, e.color, e.hidden) for e in drawing_entities]
+    of_key = {key: role(*key) for key in set(keys)}
+    return np.array([of_key[key] for key in keys], dtype=np.int64)
 
 
 #: Contour steps whose samples, motion pieces and outlines are built at once (see :func:`_estimate`).
