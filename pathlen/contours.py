@@ -200,18 +200,23 @@ def join_nodes(points: FloatArray, groups: IntArray, tol: float, closed: NDArray
 def equal_rows(columns: list[NDArray]) -> tuple[IntArray, NDArray[np.bool_]]:
     """Rows (one value of each column; equal lengths) sorted so that equal rows are neighbours:
     ``(order, new)``, ``new[k]`` True where row ``order[k]`` differs from the one before it.  Rows
-    compare by value (-0.0 equals +0.0); among equal rows the lowest index comes first.
+    compare by value (-0.0 equals +0.0); equal rows come in no particular order (:func:`first_rows`).
 
     A hash of each row's bits is sorted (a column at a time: one number per row in memory at once);
     should two different rows share a hash, the rows are sorted by value instead.  (``np.unique``
     with ``axis=0`` sorts the rows as bytes: several times slower, and -0.0 is not +0.0 there.)"""
-    order = np.argsort(_row_keys(columns), kind="stable")
+    order = np.argsort(_row_keys(columns))
     new = _differs_from_previous(columns, order)
     key = _row_keys(columns)[order]
     if np.any(new[1:] & (key[1:] == key[:-1])):  # different rows share a hash
         order = np.lexsort(columns[::-1])
         new = _differs_from_previous(columns, order)
     return order, new
+
+
+def first_rows(order: IntArray, new: NDArray[np.bool_]) -> IntArray:
+    """The lowest row of each group of equal rows found by :func:`equal_rows` (groups in its order)."""
+    return np.minimum.reduceat(order, np.flatnonzero(new)) if len(order) else order
 
 
 def _row_keys(columns: list[NDArray]) -> NDArray[np.uint64]:
@@ -458,7 +463,7 @@ def duplicate_segments(table: SegmentTable, layer: IntArray, tol: float = DEFAUL
     hi = np.where(flip[:, None], table.start, table.end)
     order, new = equal_rows([layer, *lo.T, *hi.T, *middle.T])
     del lo, hi
-    rep = order[new]  # the first row of each exact class
+    rep = first_rows(order, new)  # the first row of each exact class
     cls = np.empty(len(order), dtype=np.int64)
     cls[order] = np.cumsum(new) - 1
     rep_of = rep[cls]
