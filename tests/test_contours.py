@@ -129,6 +129,14 @@ def test_duplicates_found_either_way_round():
     assert table.length[dup].sum() == pytest.approx(10 + 4 * math.pi)
 
 
+def test_a_stack_of_copies_keeps_its_first_row():
+    # 300 copies of one line among others: the first drawn is cut, the other 299 are the duplicates
+    shapes = [("CUT", "polyline", [(0, 0), (10, 0)])] * 300 + [("CUT", "polyline", [(0, k + 1), (10, k + 1)])
+                                                              for k in range(100)]
+    _, table, _, layer = build(shapes)
+    assert sorted(duplicate_segments(table, layer).tolist()) == list(range(1, 300))
+
+
 def test_nesting_depth_and_parent():
     shapes = [("CUT", "polyline", square(0, 0, 100)), ("CUT", "polyline", square(10, 10, 50)),
               ("CUT", "polyline", square(20, 20, 10)), ("CUT", "arc", circle(80, 80, 5)),
