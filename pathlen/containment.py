@@ -9,7 +9,7 @@ from __future__ import annotations
 import numpy as np
 import shapely
 
-from pathlen.contours import Contour, ContourSet, equal_rows, first_rows
+from pathlen.contours import Contour, ContourSet, equal_rows
 from pathlen.geometry import IntArray, distinct, take_rows
 from pathlen.proximity import cell_keys, expand_ranges
 from pathlen.segments import CURVE_SAMPLES, SegmentTable
@@ -50,7 +50,7 @@ def nesting_depth(table: SegmentTable, contours: ContourSet) -> tuple[IntArray, 
     box_size = (box_hi - box_lo).prod(axis=1)
     starts = contours.start[:, :2]
     order, new = equal_rows([contours.closed, *box_lo.T, *box_hi.T, *starts.T])
-    rep = first_rows(order, new)  # the first contour of each class of equal boxes and starts
+    rep = order[new]  # a contour of each class of equal boxes and starts
     cls = np.empty(len(order), dtype=np.int64)
     cls[order] = np.cumsum(new) - 1
     copies = np.diff(np.r_[np.flatnonzero(new), len(order)])

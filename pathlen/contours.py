@@ -200,7 +200,7 @@ def join_nodes(points: FloatArray, groups: IntArray, tol: float, closed: NDArray
 def equal_rows(columns: list[NDArray]) -> tuple[IntArray, NDArray[np.bool_]]:
     """Rows (one value of each column; equal lengths) sorted so that equal rows are neighbours:
     ``(order, new)``, ``new[k]`` True where row ``order[k]`` differs from the one before it.  Rows
-    compare by value (-0.0 equals +0.0); equal rows come in no particular order (:func:`first_rows`).
+    compare by value (-0.0 equals +0.0); equal rows come in no particular order.
 
     A hash of each row's bits is sorted (a column at a time: one number per row in memory at once);
     should two different rows share a hash, the rows are sorted by value instead.  (``np.unique``
@@ -212,11 +212,6 @@ def equal_rows(columns: list[NDArray]) -> tuple[IntArray, NDArray[np.bool_]]:
         order = np.lexsort(columns[::-1])
         new = _differs_from_previous(columns, order)
     return order, new
-
-
-def first_rows(order: IntArray, new: NDArray[np.bool_]) -> IntArray:
-    """The lowest row of each group of equal rows found by :func:`equal_rows` (groups in its order)."""
-    return np.minimum.reduceat(order, np.flatnonzero(new)) if len(order) else order
 
 
 def _row_keys(columns: list[NDArray]) -> NDArray[np.uint64]:
@@ -463,7 +458,7 @@ def duplicate_segments(table: SegmentTable, layer: IntArray, tol: float = DEFAUL
     hi = np.where(flip[:, None], table.start, table.end)
     order, new = equal_rows([layer, *lo.T, *hi.T, *middle.T])
     del lo, hi
-    rep = first_rows(order, new)  # the first row of each exact class
+    rep = order[new]  # a row of each exact class (the components below keep each class's lowest row)
     cls = np.empty(len(order), dtype=np.int64)
     cls[order] = np.cumsum(new) - 1
     rep_of = rep[cls]
