@@ -192,7 +192,9 @@ class _Reader:
         head = int(self.lay.first_tag[self.lay.header])
         stop = int(self.lay.first_tag[self.lay.header + 1]) if self.lay.header + 1 < len(self.kinds) else len(codes)
         nine = np.flatnonzero(codes[head:stop] == 9) + head
-        found = [i for i in nine.tolist() if self.tags.data[self.tags.start[i]:self.tags.end(i)] == b"$INSUNITS"]
+        named = nine[self.tags.width[nine] == len(b"$INSUNITS")]
+        found = [i for i, a in zip(named.tolist(), self.tags.start[named].tolist(), strict=True)
+                 if self.tags.data[a:a + len(b"$INSUNITS")] == b"$INSUNITS"]
         if not found:
             return 0
         if len(found) > 1 or codes[found[0] + 1] != 70:
