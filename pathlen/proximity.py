@@ -17,6 +17,8 @@ import numpy as np
 
 from pathlen.geometry import FloatArray, IntArray, take_rows
 
+#: Up to this many points every pair is tested directly (no grid).
+FEW_POINTS = 64
 #: Most points in one cell before the grid falls back to cells one tolerance wide.
 CROWDED = 32
 
@@ -33,6 +35,11 @@ def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -
     if n < 2:
         return np.zeros((0, 2), dtype=np.int64)
     group = np.zeros(n, dtype=np.int64) if group is None else np.asarray(group, dtype=np.int64)
+    if n <= FEW_POINTS:  # every pair at once: cheaper than building a grid for a small drawing
+        i, j = np.triu_indices(n, k=1)
+        d = points[i] - points[j]
+        keep = (np.einsum("ij,ij->i", d, d) <= tol * tol) & (group[i] == group[j])
+        return np.stack([i[keep], j[keep]], axis=1)
     origin = points.min(axis=0)
     span = points.max(axis=0) - origin
     axes = np.flatnonzero(span > 0)  # coordinates that vary (a flat drawing has two)
