@@ -138,7 +138,7 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
         else:
             warnings.append(f"{len(duplicates)} segments drawn twice ({extra:.3f} mm): cut twice; "
                             "--dedupe cuts them once")
-    others = np.setdiff1d(np.flatnonzero(keep), duplicates)
+    others = np.setdiff1d(np.flatnonzero(keep), duplicates, assume_unique=True)  # both sorted, distinct
     overlaps, overlap_mm = overlapping_lines(table, layer, others, s.join_tol_mm)
     if overlaps:
         if s.dedupe:

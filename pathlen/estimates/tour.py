@@ -18,6 +18,7 @@ import numpy as np
 from scipy.spatial import cKDTree
 
 from pathlen.geometry import FloatArray, IntArray, take_rows
+from pathlen.proximity import expand_ranges
 
 #: Largest number of contours for which 2-opt compares every pair of positions.
 FULL_2OPT = 400
@@ -195,9 +196,12 @@ def _two_opt(points: FloatArray, order: IntArray, parent: IntArray, home: FloatA
         in_play[:] = False
         taken = bytearray(n + 2)
         saved = 0.0
-        for g in good[np.argsort(gain[good])].tolist():
-            r, stop = int(i[g]), int(j[g, best[g]])
-            if any(taken[r:stop + 2]) or (nested and not _stretch_keeps_holes_first(order[r:stop], parent)):
+        ranked = good[np.argsort(gain[good])]
+        starts, stops = i[ranked], j[ranked, best[ranked]]
+        # moves that apply do not overlap, so each one's stretch holds what it held before the round
+        keeps = _stretches_keep_holes_first(order, parent, starts, stops) if nested else np.ones(len(ranked), bool)
+        for g, r, stop, keep in zip(ranked.tolist(), starts.tolist(), stops.tolist(), keeps.tolist(), strict=True):
+            if not keep or any(taken[r:stop + 2]):
                 continue
             order[r:stop] = order[r:stop][::-1].copy()
             taken[r:stop + 2] = b"\x01" * (stop + 2 - r)
@@ -208,10 +212,17 @@ def _two_opt(points: FloatArray, order: IntArray, parent: IntArray, home: FloatA
     return order
 
 
-def _stretch_keeps_holes_first(stretch: IntArray, parent: IntArray) -> bool:
-    """Reversing ``stretch`` is allowed when no contour in it has its container in it too."""
-    members = set(stretch.tolist())
-    return not any(p in members for p in parent[stretch].tolist() if p >= 0)
+def _stretches_keep_holes_first(order: IntArray, parent: IntArray, starts: IntArray, stops: IntArray
+                                ) -> np.ndarray:
+    """Per move: reversing positions ``starts[k] .. stops[k] - 1`` of ``order`` is allowed when no contour
+    there has its container there too (all moves at once)."""
+    position = np.empty(len(order), dtype=np.int64)
+    position[order] = np.arange(len(order))
+    move, at = expand_ranges(np.arange(len(starts)), starts, stops).T
+    holder = parent[order[at]]
+    where = position[np.maximum(holder, 0)]
+    inside = (holder >= 0) & (where >= starts[move]) & (where < stops[move])
+    return np.bincount(move, weights=inside, minlength=len(starts)) == 0
 
 
 def _orient(start: FloatArray, end: FloatArray, closed: np.ndarray, order: IntArray, home: FloatArray) -> Tour:
