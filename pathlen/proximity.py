@@ -18,7 +18,7 @@ import numpy as np
 from pathlen.geometry import FloatArray, IntArray, take_rows
 
 #: Up to this many points every pair is tested directly (no grid).
-FEW_POINTS = 64
+FEW_POINTS = 128
 #: Most points in one cell before the grid falls back to cells one tolerance wide.
 CROWDED = 32
 
@@ -35,11 +35,13 @@ def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -
     if n < 2:
         return np.zeros((0, 2), dtype=np.int64)
     group = np.zeros(n, dtype=np.int64) if group is None else np.asarray(group, dtype=np.int64)
-    if n <= FEW_POINTS:  # every pair at once: cheaper than building a grid for a small drawing
-        i, j = np.triu_indices(n, k=1)
-        d = points[i] - points[j]
-        keep = (np.einsum("ij,ij->i", d, d) <= tol * tol) & (group[i] == group[j])
-        return np.stack([i[keep], j[keep]], axis=1)
+    if n <= FEW_POINTS:  # every pair at once (an n x n table): cheaper than a grid for a small drawing
+        squared = np.zeros((n, n))
+        for axis in range(points.shape[1]):
+            c = points[:, axis]
+            squared += (c[:, None] - c[None, :]) ** 2
+        i, j = np.nonzero(np.triu((squared <= tol * tol) & (group[:, None] == group[None, :]), 1))
+        return np.stack([i, j], axis=1).astype(np.int64)
     origin = points.min(axis=0)
     span = points.max(axis=0) - origin
     axes = np.flatnonzero(span > 0)  # coordinates that vary (a flat drawing has two)

@@ -13,9 +13,10 @@ from pathlen.proximity import close_pairs, components
 
 @pytest.mark.parametrize(("n", "tol", "dims", "seed"), [(500, 0.3, 3, 1), (3000, 0.05, 2, 2), (2000, 0.0, 2, 3),
                                                         (50, 100.0, 3, 4), (1, 1.0, 2, 5),
-                                                        (30, 3.0, 2, 6), (40, 0.0, 3, 8)])  # the last two: few
+                                                        (30, 3.0, 2, 6), (40, 0.0, 3, 8), (80, 2.0, 3, 9)])
 def test_close_pairs_match_kdtree(n, tol, dims, seed):
     # Reference: scipy.spatial.cKDTree.query_pairs (all pairs within a distance), filtered by group.
+    # The last three cases have at most FEW_POINTS points: every pair tested directly, no grid.
     rng = np.random.default_rng(seed)
     p = np.zeros((n, 3))
     p[:, :dims] = rng.uniform(-20, 20, (n, dims))
