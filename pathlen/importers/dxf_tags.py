@@ -86,7 +86,7 @@ class TagTable:
 
     def text(self, i: int) -> str:
         """Value of tag ``i`` as text (ASCII; anything else raises :class:`NotPlain`)."""
-        raw = self.data[self.start[i]:self.start[i] + self.width[i]]
+        raw = self.data[self.start[i]:self.end(i)]
         if not raw.isascii():
             raise NotPlain("text that is not ASCII")
         return raw.decode("ascii")
@@ -110,7 +110,7 @@ class TagTable:
         start, length = self.start[index], self.width[index].astype(np.int64)
         width = max(int(length.max()), 1)
         if width > TEXT_WIDTH:
-            values = [bytes(self.data[a:b]) for a, b in zip(start.tolist(), (start + length).tolist(), strict=True)]
+            values = [bytes(self.data[a:b]) for a, b in zip(start.tolist(), self.end(index).tolist(), strict=True)]
             if not all(v.isascii() for v in values):
                 raise NotPlain("text that is not ASCII")
             return np.array(values, dtype=f"S{width}")
