@@ -15,7 +15,7 @@ from pathlen.contour_tree import count_placed
 from pathlen.contours import DEFAULT_JOIN_TOL_MM
 from pathlen.errors import PathlenError, UsageError
 from pathlen.geometry import Drawing
-from pathlen.importers import SUFFIXES, ImportOptions, read_drawing
+from pathlen.importers import SUFFIXES, ImportOptions, load_readers, read_drawing
 from pathlen.instances import DEFAULT_MAX_SEGMENTS, TooManySegments, segment_total
 from pathlen.measure import DEFAULT_RTOL, measure
 
@@ -297,9 +297,10 @@ def parent_gone() -> bool:
 
 
 def _worker(conn: Any, work: Callable[[str, Any], Any], settings: Any, limits: Limits, own_threads: bool,
-            parent: int) -> None:
+            parent: int, kinds: tuple[str, ...] = SUFFIXES) -> None:
     """A worker process: measure the files it is sent, one at a time, under the memory limit and under
-    an alarm of its own (the time limit plus a grace), tied to its parent's life."""
+    an alarm of its own (the time limit plus a grace), tied to its parent's life.  The readers of the
+    file ``kinds`` (suffixes) are imported before the first file comes, while the parent goes on."""
     import signal
 
     global _PARENT
@@ -320,6 +321,7 @@ def _worker(conn: Any, work: Callable[[str, Any], Any], settings: Any, limits: L
         _limit_memory(limits.max_memory_mb)
     except (OSError, ValueError, StopIteration):
         pass  # no /proc or no rlimits here: the timeout still holds
+    load_readers(kinds)
     while True:
         try:
             job = conn.recv()
@@ -338,10 +340,10 @@ class _Slot:
     """One worker process and the file it is working on."""
 
     def __init__(self, ctx: Any, work: Callable[[str, Any], Any], settings: Any, limits: Limits,
-                 own_threads: bool) -> None:
+                 own_threads: bool, kinds: tuple[str, ...] = SUFFIXES) -> None:
         self.conn, child = ctx.Pipe()
-        self.process = ctx.Process(target=_worker, args=(child, work, settings, limits, own_threads, os.getpid()),
-                                   daemon=True)
+        self.process = ctx.Process(target=_worker, args=(child, work, settings, limits, own_threads, os.getpid(),
+                                                         kinds), daemon=True)
         self.process.start()
         child.close()
         self.index: int | None = None
@@ -396,7 +398,8 @@ def run_batch(paths: list[str], settings: Any, jobs: int = 1,
 
     workers = max(1, min((os.cpu_count() or 1) if jobs == 0 else jobs, len(paths)))
     ctx = multiprocessing.get_context("fork")
-    spawn = lambda: _Slot(ctx, work, settings, limits, own_threads=workers == 1)  # noqa: E731
+    kinds = tuple(sorted({Path(p).suffix.lower() for p in paths}))
+    spawn = lambda: _Slot(ctx, work, settings, limits, own_threads=workers == 1, kinds=kinds)  # noqa: E731
     slots = [spawn() for _ in range(workers)]
     return _drive(paths, slots, spawn, failed, limits, started=started, stop=stop)
 

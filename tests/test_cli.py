@@ -255,6 +255,21 @@ def test_help_starts_without_numpy():
     assert out.strip().splitlines()[-1] == "False"
 
 
+def test_measure_command_loads_rich_and_readers_only_when_it_runs():
+    # the command's module and the batch load no rich (the report loads it while the workers start)
+    # and no reader; load_readers takes the readers of the kinds asked for, and only those
+    import subprocess
+    import sys
+
+    code = ("import sys; import pathlen.cli.measure, pathlen.batch\n"
+            "print(any(m == 'rich' or m.startswith('rich.') for m in sys.modules),"
+            " 'pathlen.importers.dxf' in sys.modules, 'pathlen.importers.svg' in sys.modules)\n"
+            "from pathlen.importers import load_readers; load_readers(['.svg', '.txt'])\n"
+            "print('pathlen.importers.dxf' in sys.modules, 'pathlen.importers.svg' in sys.modules)")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout
+    assert out.split() == ["False", "False", "False", "False", "True"]
+
+
 def test_tables_keep_numbers_whole_at_80_columns():
     # a long file name folds; every number stays on one line
     import io

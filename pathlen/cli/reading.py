@@ -11,11 +11,9 @@ import sys
 from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import click
-from rich.console import Console
-from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
 
 from pathlen.batch import (
     DEFAULT_MAX_MEMORY_MB,
@@ -27,11 +25,14 @@ from pathlen.batch import (
     run_batch,
 )
 from pathlen.errors import PathlenError
-from pathlen.export import OUTPUT_UNITS, plain
+from pathlen.export import OUTPUT_UNITS, load_rich, plain
 from pathlen.geometry import MM_PER_UNIT
 from pathlen.importers import ImportOptions
 from pathlen.instances import DEFAULT_MAX_SEGMENTS
 from pathlen.measure import DEFAULT_RTOL
+
+if TYPE_CHECKING:
+    from rich.console import Console
 
 #: Seconds to wait for a cluster's scheduler to take leave at the end of a batch.
 CLOSE_TIMEOUT_S = 5.0
@@ -167,6 +168,8 @@ def emit(results: list[Any], fmt: str, output: str | None, table: Callable[[Cons
     """Report a batch (errors and warnings on standard error), the HTML ``report`` of ``document()`` if
     asked for (with ``figures``, titled SVG pictures, after the files), and exit 0, or 1 if a file
     failed or ``failed`` (something else the command could not do, said in the report)."""
+    from rich.console import Console
+
     err = Console(stderr=True, highlight=False, soft_wrap=True)
     for r in results:
         if not r.ok:
@@ -209,7 +212,6 @@ def collect(files: list[str], settings: Any, reading: Reading, work: Callable[[s
     """Run the batch under the reading's limits, with a progress bar when standard error is a terminal;
     with ``--strict`` a file with warnings fails, its first warning as the reason."""
     results: list[Any] = [None] * len(files)
-    console = Console(stderr=True)
     client = None
     lost: list[str] = []
     if reading.scheduler:
@@ -222,7 +224,13 @@ def collect(files: list[str], settings: Any, reading: Reading, work: Callable[[s
         batch = run_on_cluster(client, files, settings, work, failed, reading.limits, lost)
     else:
         batch = run_batch(files, settings, reading.jobs, work, failed, reading.limits)
+    load_rich()  # while the workers load their readers: side by side on two cores
+    from rich.console import Console
+
+    console = Console(stderr=True)
     if console.is_terminal and len(files) > 1:
+        from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+
         columns = (TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn())
         with Progress(*columns, console=console, transient=True) as bar:
             task = bar.add_task(verb, total=len(files))

@@ -4,14 +4,15 @@ from __future__ import annotations
 
 import re
 from collections.abc import Sequence
+from functools import cache
 from html import escape as html_escape
-from typing import Any
-
-from rich.console import Console
-from rich.markup import escape
-from rich.table import Table
+from typing import TYPE_CHECKING, Any
 
 from pathlen.geometry import MM_PER_UNIT
+
+if TYPE_CHECKING:
+    from rich.console import Console
+    from rich.table import Table
 
 #: Output units a person can choose.
 OUTPUT_UNITS = ("mm", "in")
@@ -28,28 +29,46 @@ def markup_text(text: object) -> str:
     return html_escape(_NOT_XML.sub("\ufffd", str(text)))
 
 
+#: The parts of rich every report uses: loaded when first needed, not at start-up (about 30 ms).
+RICH_MODULES = ("rich.console", "rich.markup", "rich.table", "rich.text")
+
+
+def load_rich() -> None:
+    """Import :data:`RICH_MODULES` now (a batch does it while its workers start)."""
+    from importlib import import_module
+
+    for name in RICH_MODULES:
+        import_module(name)
+
+
 def plain(text: object) -> str:
     """Text from a drawing, a file name or an error, made safe to print through rich: never markup."""
+    from rich.markup import escape
+
     return escape(str(text))
 
 
-class _NumbersWhole(Table):
-    """A table whose right-justified (number) columns are never narrower than their widest value:
-    on a narrow terminal the text columns (file names) fold instead."""
+@cache
+def _numbers_whole() -> type[Table]:
+    """A rich table class whose right-justified (number) columns are never narrower than their widest
+    value: on a narrow terminal the text columns (file names) fold instead."""
+    from rich.table import Table
+    from rich.text import Text
 
-    def __rich_console__(self, console: Console, options: Any) -> Any:
-        from rich.text import Text
+    class NumbersWhole(Table):
+        def __rich_console__(self, console: Console, options: Any) -> Any:
+            for column in self.columns:
+                if column.justify == "right":
+                    widest = max((Text.from_markup(str(c)).cell_len for c in column._cells), default=0)
+                    column.min_width = max(column.min_width or 0, widest)
+            yield from super().__rich_console__(console, options)
 
-        for column in self.columns:
-            if column.justify == "right":
-                widest = max((Text.from_markup(str(c)).cell_len for c in column._cells), default=0)
-                column.min_width = max(column.min_width or 0, widest)
-        yield from super().__rich_console__(console, options)
+    return NumbersWhole
 
 
 def report_table(title: str, columns: list[tuple[str, str]]) -> Table:
     """A rich table with ``(head, "left" | "right")`` columns; long text folds, numbers stay whole."""
-    table = _NumbersWhole(title=title)
+    table = _numbers_whole()(title=title)
     for name, justify in columns:
         table.add_column(name, justify=justify, overflow="fold")  # type: ignore[arg-type]
     return table

@@ -2,11 +2,13 @@
 
 from __future__ import annotations
 
-from rich.console import Console
-from rich.table import Table
+from typing import TYPE_CHECKING
 
 from pathlen.batch import FileResult
 from pathlen.export import from_mm, plain, print_notes
+
+if TYPE_CHECKING:
+    from rich.console import Console
 
 
 def fmt_length(mm: float, units: str) -> str:
@@ -19,6 +21,8 @@ def fmt_bound(mm: float, units: str) -> str:
 
 
 def render(results: list[FileResult], units: str, console: Console) -> None:
+    from rich.table import Table
+
     table = Table(title="Path lengths", show_lines=False)
     table.add_column("File", overflow="fold")
     table.add_column("Layer")

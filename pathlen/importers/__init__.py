@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Iterable
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -27,6 +28,20 @@ class ImportOptions:
     recover: bool = False  # DXF: measure what structural recovery can read of a damaged file
     hidden_layers: bool = False  # DXF: measure layers that are off or frozen too
     svg_language: str | None = None  # SVG systemLanguage: the user's language (None: from the environment)
+
+
+#: The module that reads each file kind (imported on first use: a batch of DXF files never loads the SVG reader).
+READERS = {".dxf": "pathlen.importers.dxf", ".svg": "pathlen.importers.svg"}
+
+
+def load_readers(suffixes: Iterable[str]) -> None:
+    """Import the readers of the file kinds ``suffixes`` now (others are ignored): a worker does this
+    before its first file comes, beside the parent's own start."""
+    from importlib import import_module
+
+    for suffix in suffixes:
+        if suffix in READERS:
+            import_module(READERS[suffix])
 
 
 def read_drawing(path: Path, options: ImportOptions = ImportOptions()) -> Drawing:

@@ -33,7 +33,6 @@ whose pieces do not settle are returned for the adaptive integrator.
 from __future__ import annotations
 
 import os
-from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 from functools import cache
 
@@ -494,6 +493,8 @@ def planar_cubic_lengths(coeff: FloatArray, rtol: float) -> tuple[FloatArray, Fl
     parts = min(THREADS, n // MIN_CURVES_PER_THREAD)
     if parts <= 1:
         return _lengths(coeff, rtol)
+    from concurrent.futures import ThreadPoolExecutor  # here: its import (logging and all) costs every start 6 ms
+
     edges = np.linspace(0, n, parts + 1).astype(int)
     with ThreadPoolExecutor(max_workers=parts) as pool:
         done = list(pool.map(lambda a, b: _lengths(coeff[a:b], rtol), edges[:-1], edges[1:]))
