@@ -76,3 +76,39 @@ def test_hilbert_start_is_a_permutation():
     assert sorted(order.tolist()) == list(range(3000))
     # a space-filling curve keeps neighbours near: far shorter than a random order
     assert tour_length(p, order, HOME) < 0.2 * tour_length(p, rng.permutation(3000), HOME)
+
+
+def _greedy_orientation(start, end, closed, order, home):
+    """The rule stated plainly, one contour after another: an open contour is cut from its nearer
+    end (forwards on a tie); the head is left at its far end, a closed contour's at its start."""
+    import math
+
+    x, y = home[0], home[1]
+    reverse, moves = np.zeros(len(start), dtype=bool), []
+    for i in order:
+        d_start = math.hypot(start[i][0] - x, start[i][1] - y)
+        d_end = math.hypot(end[i][0] - x, end[i][1] - y)
+        if not closed[i] and d_end < d_start:
+            reverse[i] = True
+            moves.append(d_end)
+            x, y = start[i][0], start[i][1]
+        else:
+            moves.append(d_start)
+            x, y = (start[i][0], start[i][1]) if closed[i] else (end[i][0], end[i][1])
+    return reverse, np.array(moves)
+
+
+@pytest.mark.parametrize("seed", range(40))
+def test_orientation_of_runs_at_once_equals_one_after_another(seed):
+    # runs of open contours between closed ones are decided a step at a time for all runs together;
+    # integer points (every other seed) make ties, which must go forwards as in the plain loop
+    rng = np.random.default_rng(seed)
+    n = int(rng.integers(1, 80))
+    points = (lambda k: rng.integers(0, 4, (k, 3)).astype(float)) if seed % 2 else (lambda k: rng.uniform(0, 9, (k, 3)))
+    start, end, home = points(n), points(n), points(1)[0]
+    closed = rng.random(n) < rng.random()
+    order = rng.permutation(n)
+    got = tour_module._orient(start, end, closed, order, home)
+    reverse, moves = _greedy_orientation(start, end, closed, order.tolist(), home)
+    assert np.array_equal(got.reverse, reverse)
+    np.testing.assert_allclose(got.rapid_moves, moves, rtol=1e-15, atol=0)

@@ -11,7 +11,6 @@ so a pass costs ``O(n · window)``.  The file's own order is kept when it is val
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -226,25 +225,36 @@ def _stretches_keep_holes_first(order: IntArray, parent: IntArray, starts: IntAr
 
 
 def _orient(start: FloatArray, end: FloatArray, closed: np.ndarray, order: IntArray, home: FloatArray) -> Tour:
-    """Choose, in order, which way round to cut each open contour (the nearer end first)."""
-    n = len(start)
-    reverse = np.zeros(n, dtype=bool)
-    if closed.all():  # every exit is the entry: one vectorised pass
-        path = np.vstack([home[None, :], take_rows(start, order)])
-        return Tour(order, reverse, np.linalg.norm(np.diff(path, axis=0), axis=1))
-    sx, sy = start[:, 0].tolist(), start[:, 1].tolist()
-    ex, ey = end[:, 0].tolist(), end[:, 1].tolist()
-    shut = closed.tolist()
-    moves = []
-    x, y = float(home[0]), float(home[1])
-    for i in order.tolist():
-        d_start = math.hypot(sx[i] - x, sy[i] - y)
-        d_end = math.hypot(ex[i] - x, ey[i] - y)
-        if not shut[i] and d_end < d_start:
-            reverse[i] = True
-            moves.append(d_end)
-            x, y = sx[i], sy[i]
-        else:
-            moves.append(d_start)
-            x, y = (sx[i], sy[i]) if shut[i] else (ex[i], ey[i])
-    return Tour(order, reverse, np.array(moves))
+    """Choose, in order, which way round to cut each open contour (the nearer end first; on a tie,
+    forwards).
+
+    A closed contour is left where it was entered, so each run of open contours after one (or
+    after home) is a chain of its own: the k-th open contour of every run is decided in one
+    vectorised step, k = 0, 1, … (as many steps as the longest run).  Moves are measured in the
+    plane (x, y), whether or not every contour is closed."""
+    reverse = np.zeros(len(start), dtype=bool)
+    first, last = take_rows(start[:, :2], order), take_rows(end[:, :2], order)  # in cutting order
+    shut = closed[order]
+    position = np.arange(len(order))
+    rank = position - np.maximum.accumulate(np.where(shut, position, -1)) - 1  # place in its run of open ones
+    open_at = np.flatnonzero(~shut)
+    open_at = open_at[np.argsort(rank[open_at], kind="stable")]
+    exit_at = first.copy()  # where the head is after each contour (closed: where it went in)
+    backwards = np.zeros(len(order), dtype=bool)
+    home_xy = np.asarray(home[:2], dtype=float)
+    done = 0
+    for count in np.bincount(rank[open_at]).tolist():
+        p = open_at[done:done + count]
+        done += count
+        here = np.where((p > 0)[:, None], exit_at[np.maximum(p - 1, 0)], home_xy)
+        back = _distance(last[p], here) < _distance(first[p], here)
+        backwards[p] = back
+        exit_at[p] = np.where(back[:, None], first[p], last[p])
+    here = np.vstack([home_xy[None, :], exit_at[:-1]])
+    reverse[order] = backwards
+    return Tour(order, reverse, _distance(np.where(backwards[:, None], last, first), here))
+
+
+def _distance(a: FloatArray, b: FloatArray) -> FloatArray:
+    """Plane distance between rows of ``a`` and ``b`` (x, y)."""
+    return np.hypot(a[:, 0] - b[:, 0], a[:, 1] - b[:, 1])
