@@ -153,10 +153,13 @@ def _exact_changes(table: SegmentTable, contours: ContourSet, w: Walk, outward: 
     np.minimum.at(c_lo, cid, lo)
     np.maximum.at(c_hi, cid, hi)
     suspect |= ((c_hi - c_lo).min(axis=1) < 4.0 * d) & (contours.size > 0)
-    # segments of one contour, not neighbours, whose boxes come within 2|d|
-    grow = dd  # both boxes grown by |d|: they meet where the segments' boxes come within 2|d|
-    boxes = shapely.box(lo[:, 0] - grow, lo[:, 1] - grow, hi[:, 0] + grow, hi[:, 1] + grow)
+    # segments of one contour, not neighbours, whose boxes come within 2|d|: only in contours of four
+    # segments or more (in fewer, every two are neighbours) not already suspect
+    look = np.flatnonzero((contours.size[cid] >= 4) & ~suspect[cid])
+    grow = dd[look]  # both boxes grown by |d|: they meet where the segments' boxes come within 2|d|
+    boxes = shapely.box(lo[look, 0] - grow, lo[look, 1] - grow, hi[look, 0] + grow, hi[look, 1] + grow)
     i, j = shapely.STRtree(boxes).query(boxes, predicate="intersects")
+    i, j = look[i], look[j]
     same = (cid[i] == cid[j]) & (i < j)
     i, j = i[same], j[same]
     gap = j - i
