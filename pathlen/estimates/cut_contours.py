@@ -56,8 +56,8 @@ class Outlines:
 
 
 def outlines(table: SegmentTable, contours: ContourSet, w: Walk) -> Outlines:
-    """Every closed contour as the polygon through its sample points (mended by a zero buffer, as
-    :func:`pathlen.containment.contour_polygon` does)."""
+    """Every closed contour as the polygon through its sample points, each joint once (mended by a zero
+    buffer where it crosses itself, as :func:`pathlen.containment.contour_polygon` does)."""
     n = len(contours)
     polygon = np.full(n, None, dtype=object)
     valid = np.zeros(n, dtype=bool)
@@ -66,7 +66,9 @@ def outlines(table: SegmentTable, contours: ContourSet, w: Walk) -> Outlines:
     if len(closed) == 0:
         return Outlines(polygon, valid, area, perimeter)
     mask = contours.closed[w.contour]
-    pts = w.samples[mask][:, :, :2]
+    # each step from its second sample on: its first is the previous step's last (joined within the
+    # tolerance; two copies a rounding apart would make a spike that crosses itself)
+    pts = w.samples[mask][:, 1:, :2]
     ring = np.searchsorted(closed, np.repeat(w.contour[mask], pts.shape[1]))
     polys = shapely.polygons(shapely.linearrings(pts.reshape(-1, 2), indices=ring))
     mended = polys.copy()
