@@ -368,6 +368,33 @@ def _compare_kerf(table, contours, outward):
             assert TROUBLE[trouble[k]] == "" and change[k] == pytest.approx(exact, rel=1e-9, abs=1e-12)
 
 
+def test_outline_of_near_straight_bulges_needs_no_mending(tmp_path, monkeypatch):
+    # a right triangle (legs 4 mm: area 8 mm², perimeter 8 + 4√2 mm) closed by two bulges of 1e-6 and
+    # 1e-7: their arcs' ends round apart from the line's by ~1e-9 mm; each joint is one outline vertex,
+    # so the polygon is simple as drawn (a zero buffer, which would mend a spike, is never needed)
+    import shapely
+
+    from pathlen.contours import chain_contours
+    from pathlen.estimates.cut_contours import outlines, walk
+    from pathlen.importers import read_drawing
+    from pathlen.measure import measure
+    from pathlen.segments import segment_layers, segment_table
+
+    doc = ezdxf.new("R2010", setup=False)
+    doc.header["$INSUNITS"] = 4  # millimetres
+    doc.modelspace().add_lwpolyline([(3800, 2500, 1e-6), (3804, 2500, 0), (3804, 2504, 1e-7)], format="xyb",
+                                    close=True)
+    doc.saveas(tmp_path / "triangle.dxf")
+    drawing = read_drawing(tmp_path / "triangle.dxf")
+    table = segment_table(drawing, measure(drawing))
+    contours = chain_contours(table, segment_layers(drawing, table)[1])
+    monkeypatch.setattr(shapely, "buffer", lambda *a, **k: pytest.fail("outline mended by a buffer"))
+    out = outlines(table, contours, walk(table, contours))
+    assert out.valid.tolist() == [True]
+    assert out.area[0] == pytest.approx(8.0, rel=1e-5)  # the bulges add under 1e-5 mm²
+    assert out.perimeter[0] == pytest.approx(8.0 + 4.0 * math.sqrt(2.0), rel=1e-6)
+
+
 def test_running_out_of_memory_names_the_step(monkeypatch):
     # a file that runs out of memory says which step it was in, not only that it was big
     import pathlen.estimates.cut as cut_module
