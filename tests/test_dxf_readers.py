@@ -268,3 +268,29 @@ def test_a_file_the_bulk_reader_takes_whole_never_imports_ezdxf(tmp_path: Path) 
              "print(r.ok, r.length_mm, 'ezdxf' in sys.modules)")
     out = subprocess.run([sys.executable, "-c", probe, str(path)], capture_output=True, text=True, timeout=120)
     assert out.stdout.split() == ["True", "400.0", "False"], out.stderr
+
+
+@pytest.mark.parametrize(("values", "plain"), [
+    ("10\n1.0\n20\n2.0\n30\n3.0", True),  # a point with z (DXF reference: header 3-D point, codes 10 20 30)
+    ("10\n1.0\n20\n2.0", True),  # a 2-D point
+    ("70\n1", True),  # one value
+    ("70\n1\n71\n2", False),  # two values that are no point
+    ("10\n1.0\n30\n3.0", False),  # x then z: no y
+    ("10\n1.0\n20\n2.0\n40\n3.0", False),  # x, y, then a third that is not z
+    ("11\n1.0\n21\n2.0\n31\n3.0", True),  # another point code
+])
+def test_header_variables_take_one_value_or_one_point(values, plain):
+    # the bulk reader takes a header it reads as ezdxf does: "9 $NAME" then one value or a point's
+    # x, y (and z); anything else is left to ezdxf
+    from pathlen.importers.dxf_layout import _check_header
+    from pathlen.importers.dxf_tags import NotPlain, parse_tags
+
+    def check() -> None:
+        tags = parse_tags(f"9\n$INSBASE\n{values}\n9\n$ANGBASE\n50\n0.0\n0\nEOF\n".encode())
+        _check_header(tags, 0, len(tags))  # the table ends before EOF
+
+    if plain:
+        check()
+    else:
+        with pytest.raises(NotPlain):  # x then z fails sooner, as any point without its y
+            check()

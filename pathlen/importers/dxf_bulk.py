@@ -36,7 +36,7 @@ from pathlen.importers.dxf_blocks import BlockCache, place_insert
 from pathlen.importers.dxf_fields import Fields
 from pathlen.importers.dxf_layout import MEASURED, Layout, layout
 from pathlen.importers.dxf_rest import rest_is_plain
-from pathlen.importers.dxf_tags import PADDING, NotPlain, TagTable, decode_texts, parse_tags
+from pathlen.importers.dxf_tags import PADDING, NotPlain, TagTable, code_table, decode_texts, has_code, parse_tags
 from pathlen.importers.nurbs import window_beziers
 
 TWO_PI = 2.0 * math.pi
@@ -56,6 +56,7 @@ SUBCLASS_MARKERS = {"LINE": 2, "CIRCLE": 2, "ARC": 3, "ELLIPSE": 2, "LWPOLYLINE"
                     "INSERT": 2, "VERTEX": 3}
 #: Group codes of the fields read here from the kinds' own subclasses.
 FIELD_CODES = np.array([2, 10, 11, 12, 13, 38, 40, 41, 42, 43, 44, 45, 50, 51, 66, 70, 71, 72, 73, 74, 210])
+_FIELD_TABLE = code_table(FIELD_CODES)
 
 
 @dataclass
@@ -275,7 +276,7 @@ class _Reader:
         second[own[rank == 1]] = markers[rank == 1]
         wanted = np.zeros(len(kinds), dtype=bool)
         wanted[ents] = True
-        fields = np.flatnonzero(np.isin(self.tags.codes, FIELD_CODES))
+        fields = np.flatnonzero(has_code(self.tags.codes, _FIELD_TABLE))
         owner = self.lay.owner[fields]
         check = wanted[owner] & (second[owner] >= 0)
         if np.any(fields[check] < second[owner[check]]):

@@ -15,7 +15,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from pathlen.geometry import distinct
-from pathlen.importers.dxf_tags import POINT_CODES, NotPlain, TagTable, windows
+from pathlen.importers.dxf_tags import POINT_TABLE, NotPlain, TagTable, has_code, windows
 
 #: Entity kinds pathlen measures (the same set as the ezdxf reader's handlers) and INSERT.
 MEASURED = frozenset({"LINE", "CIRCLE", "ARC", "ELLIPSE", "LWPOLYLINE", "POLYLINE", "SPLINE"})
@@ -150,13 +150,14 @@ def _check_header(tags: TagTable, start: int, stop: int) -> None:
                                                         != ord("$"))):
         raise NotPlain("a header variable name without its leading $")
     size = np.diff(np.append(nine, len(codes)))
-    if np.any((size < 2) | (size > 4)):
+    if ((size < 2) | (size > 4)).any():
         raise NotPlain("a header variable without one value")
-    for k in np.flatnonzero(size > 2).tolist():
-        x = int(codes[nine[k] + 1])
-        parts = codes[nine[k] + 1:nine[k] + size[k]].tolist()
-        if x not in POINT_CODES or parts != [x, x + 10, x + 20][:len(parts)]:
-            raise NotPlain("a header variable with more than one value")
+    at = nine[size > 2] + 1  # the first of two or three values: a point's x, then its y (and z)
+    x = codes[at].astype(np.int64)
+    three = size[size > 2] == 4
+    point = has_code(x, POINT_TABLE) & (codes[at + 1] == x + 10)
+    if not (point & (~three | (codes[np.where(three, at + 2, at)] == x + 20))).all():
+        raise NotPlain("a header variable with more than one value")
 
 
 def _section_name(tags: TagTable, first: NDArray[np.int64], i: int) -> str:

@@ -22,7 +22,7 @@ from pathlib import Path
 import numpy as np
 
 from pathlen.importers.dxf_layout import Layout
-from pathlen.importers.dxf_tags import NotPlain, TagTable
+from pathlen.importers.dxf_tags import NotPlain, TagTable, code_table, has_code
 
 #: Objects ezdxf reads as plain data, with the subclass markers (group 100) each carries (as ezdxf writes
 #: them; DXF reference, OBJECTS section): a kind with other markers is left to ezdxf.
@@ -101,7 +101,7 @@ def _links_plain(tags: TagTable, lay: Layout) -> bool:
     handle_of = dict(zip((h.upper() for h in tags.texts(five, repeated=False)), lay.owner[five].tolist(), strict=True))
 
     def targets(codes: tuple[int, ...], owner_kind: str) -> tuple[list[str], np.ndarray]:
-        pick = np.flatnonzero(np.isin(tags.codes, codes))
+        pick = np.flatnonzero(has_code(tags.codes, code_table(codes)))
         pick = pick[kinds[lay.owner[pick]] == owner_kind]
         named = tags.texts(pick)
         return named, np.array([handle_of.get(h.upper(), len(lay.kinds)) for h in named], dtype=np.int64)
