@@ -159,7 +159,7 @@ class _Reader:
     def __init__(self, tags: TagTable, lay: Layout, hidden_layers: bool) -> None:
         self.tags = tags
         self.lay = lay
-        if np.any((tags.codes == 60) & (tags.number != 0) & (lay.owner >= 0)):
+        if ((tags.codes == 60) & (tags.number != 0) & (lay.owner >= 0)).any():
             raise NotPlain("entities marked invisible (group 60)")  # ezdxf's reader leaves them out
         if _repeated_single_codes(tags, lay):
             raise NotPlain("a group code given twice in one entity")  # damage: ezdxf's reader names it
@@ -269,7 +269,7 @@ class _Reader:
         markers = f.tags_of(100)
         own = self.lay.owner[markers].astype(np.int64)
         found = np.bincount(own, minlength=len(kinds))[ents]
-        if np.any((found != 0) & (found != expected)):
+        if ((found != 0) & (found != expected)).any():
             raise NotPlain("an entity whose subclass markers are not its kind's")
         rank = np.arange(len(own)) - np.searchsorted(own, own)
         second = np.full(len(kinds), -1, dtype=np.int64)
@@ -279,7 +279,7 @@ class _Reader:
         fields = np.flatnonzero(has_code(self.tags.codes, _FIELD_TABLE))
         owner = self.lay.owner[fields]
         check = wanted[owner] & (second[owner] >= 0)
-        if np.any(fields[check] < second[owner[check]]):
+        if (fields[check] < second[owner[check]]).any():
             raise NotPlain("a field before its subclass marker")
 
     def _ocs_to_wcs(self, ents: IntArray) -> _Ocs:
@@ -297,7 +297,7 @@ class _Reader:
             if len(e) == 0:
                 continue
             r = self.f.number(40, e)
-            if not np.all(r > 0):
+            if not (r > 0).all():
                 raise NotPlain("a circle or arc whose radius is not positive")
             ocs = self._ocs_to_wcs(e)
             zero = np.zeros_like(r)
@@ -322,7 +322,7 @@ class _Reader:
         extrusion = self.f.point(210, e, Z_AXIS)
         cross = np.cross(extrusion, major)
         length = _magnitude(cross)
-        if np.any(length == 0):
+        if (length == 0).any():
             raise NotPlain("an ellipse whose major axis is parallel to its extrusion")
         minor = cross * ((_magnitude(major) * ratio) / length)[:, None]
         part = np.abs((t1 - t0) - TWO_PI) > 1e-12
@@ -340,7 +340,7 @@ class _Reader:
         bulge = np.zeros(len(idx))
         b_idx, b_own = self.f.many(42, wanted)
         vertex = np.searchsorted(idx, b_idx) - 1
-        if np.any(vertex < 0) or np.any(own[np.maximum(vertex, 0)] != b_own) or len(distinct(vertex)) < len(vertex):
+        if (vertex < 0).any() or (own[np.maximum(vertex, 0)] != b_own).any() or len(distinct(vertex)) < len(vertex):
             raise NotPlain("a bulge that does not follow its vertex")
         bulge[vertex] = self.tags.number[b_idx]
         flags = self.f.integer(70, e, 0)
@@ -364,15 +364,15 @@ class _Reader:
         own = np.repeat(e, [len(v) for v in vertex_lists])
         keep = (self.f.integer(70, verts, 0) & 16) == 0  # 16: spline frame control point
         verts, own = verts[keep], own[keep]
-        if len(e) and np.any(np.bincount(np.searchsorted(e, own), minlength=len(e)) < 2):
+        if len(e) and (np.bincount(np.searchsorted(e, own), minlength=len(e)) < 2).any():
             raise NotPlain("a POLYLINE with fewer than two vertices")
         location = self.f.point(10, verts)
         self.loops[e[closed]] = True
         three_d = (flags & 8) != 0
-        if np.any(three_d):
+        if three_d.any():
             _polyline_3d(seg, location, own, e[three_d], closed[three_d])
         flat = ~three_d
-        if np.any(flat):
+        if flat.any():
             pick = np.isin(own, e[flat])
             elevation = self.f.point(10, e[flat], (0.0, 0.0, 0.0))[:, 2]
             bulge = self.f.number(42, verts[pick], 0.0)
@@ -398,20 +398,20 @@ class _Reader:
         knots = self.tags.number[knot_idx]
         weights = self.tags.number[w_idx]
         by_ctrl = n_ctrl > 0
-        if np.any(~by_ctrl & (n_fit == 0)):
+        if (~by_ctrl & (n_fit == 0)).any():
             raise NotPlain("a SPLINE without control or fit points")
         p, n = degree, n_ctrl
         bad = by_ctrl & ((p < 1) | (n < p + 1) | (n_knot != n + p + 1) | ((n_w != 0) & (n_w != n)))
-        if np.any(bad):
+        if bad.any():
             raise NotPlain("a SPLINE with inconsistent counts")
         c_start, k_start, w_start = _starts(n_ctrl), _starts(n_knot), _starts(n_w)
-        if len(knots) and np.any(np.diff(knots)[(np.diff(np.searchsorted(e, knot_own)) == 0)] < 0):
+        if len(knots) and (np.diff(knots)[(np.diff(np.searchsorted(e, knot_own)) == 0)] < 0).any():
             raise NotPlain("a SPLINE whose knots decrease")
-        if len(weights) and not np.all(weights > 0):
+        if len(weights) and not (weights > 0).all():
             raise NotPlain("a SPLINE with a weight that is not positive")
         self._spline_groups(seg, e[by_ctrl], p[by_ctrl], n[by_ctrl], ctrl, c_start[by_ctrl], knots, k_start[by_ctrl],
                             weights, w_start[by_ctrl], n_w[by_ctrl] > 0)
-        if np.any(~by_ctrl):
+        if (~by_ctrl).any():
             self._fit_splines(seg, e[~by_ctrl], fit_idx, fit_own)
 
     def _spline_groups(self, seg: _Segments, ents: IntArray, degree: IntArray, count: IntArray, ctrl: FloatArray,
@@ -435,7 +435,7 @@ class _Reader:
         w = np.ones((len(ents), n))
         given = np.flatnonzero(has_w)
         w[given] = weights[w0[given][:, None] + np.arange(n)]
-        if np.any(kv[:, n] <= kv[:, p]):
+        if (kv[:, n] <= kv[:, p]).any():
             raise NotPlain("a SPLINE with an empty knot domain")
         homog = np.concatenate([cp * w[:, :, None], w[:, :, None]], axis=2)
         spans = np.arange(p, n)
@@ -589,13 +589,13 @@ class _Ocs:
 
     def __init__(self, extrusion: FloatArray) -> None:
         length = _magnitude(extrusion)
-        if not np.all(np.isfinite(extrusion)) or np.any(length == 0):
+        if not np.isfinite(extrusion).all() or (length == 0).any():
             raise NotPlain("an extrusion direction of zero or non-finite length")
         az = extrusion * (1.0 / length)[:, None]
         ref = np.array(Z_AXIS)
         close = np.abs(az - ref) <= np.maximum(1e-9 * np.maximum(np.abs(az), np.abs(ref)), 1e-12)
         self.plain = np.all(close, axis=1)
-        self.all_plain = bool(np.all(self.plain))
+        self.all_plain = bool(self.plain.all())
         if self.all_plain:
             return
         small = (np.abs(az[:, 0]) < 1.0 / 64.0) & (np.abs(az[:, 1]) < 1.0 / 64.0)
@@ -636,7 +636,7 @@ def _bulge_path(seg: _Segments, x: FloatArray, y: FloatArray, own: IntArray, ent
     if len(ents) == 0:
         return
     group = np.searchsorted(ents, own)
-    if np.any(np.bincount(group, minlength=len(ents)) < 2):
+    if (np.bincount(group, minlength=len(ents)) < 2).any():
         raise NotPlain("a polyline with fewer than two vertices")
     i, j = _vertex_pairs(group, len(ents), closed)
     dx, dy = x[j] - x[i], y[j] - y[i]
@@ -728,7 +728,7 @@ def _local(entity: IntArray, rows: IntArray) -> tuple[IntArray | slice, IntArray
     hi = np.searchsorted(entity, rows[-1], side="right") if len(rows) else 0
     local = np.searchsorted(rows, entity[lo:hi])
     inside = (local < len(rows)) & (rows[np.minimum(local, len(rows) - 1)] == entity[lo:hi])
-    if np.all(inside):
+    if inside.all():
         return slice(int(lo), int(hi)), local.astype(np.int64)
     return lo + np.flatnonzero(inside), local[inside].astype(np.int64)
 

@@ -52,7 +52,7 @@ class Fields:
 
     def integer(self, code: int, entities: IntArray, default: int) -> IntArray:
         values = self.number(code, entities, float(default))
-        if not np.all(values == np.round(values)):
+        if not (values == np.round(values)).all():
             raise NotPlain(f"group code {code} is not an integer")
         return values.astype(np.int64)
 
@@ -63,7 +63,7 @@ class Fields:
         xyz = self.points_at(at[at >= 0], code)
         out = np.empty((len(entities), 3))
         out[at >= 0] = xyz
-        if np.any(at < 0):
+        if (at < 0).any():
             if default is None:
                 raise NotPlain(f"an entity without group code {code}")
             out[at < 0] = default
@@ -74,10 +74,10 @@ class Fields:
         codes, number = self.tags.codes, self.tags.number
         last = len(codes) - 1
         y_at, z_at = np.minimum(idx + 1, last), np.minimum(idx + 2, last)
-        if not np.all(codes[y_at] == code + 10):
+        if not (codes[y_at] == code + 10).all():
             raise NotPlain(f"group code {code} without its y")
         has_z = (codes[z_at] == code + 20) & (z_at == idx + 2)
-        if flat and np.any(has_z):
+        if flat and has_z.any():
             raise NotPlain(f"a z after a 2-D point of group code {code}")
         out = np.empty((len(idx), 3))
         out[:, 0], out[:, 1] = number[idx], number[y_at]
@@ -87,7 +87,7 @@ class Fields:
     def text(self, code: int, entities: IntArray, default: str | None = None, repeated: bool = True) -> list[str]:
         """Text field per entity; ``repeated``: see :meth:`TagTable.texts` (False for handles)."""
         at = self.first(code, entities)
-        if np.any(at < 0) and default is None:
+        if (at < 0).any() and default is None:
             raise NotPlain(f"an entity without group code {code}")
         values = self.tags.texts(at[at >= 0], repeated)
         if len(values) == len(at):
@@ -99,7 +99,7 @@ class Fields:
         """Text field every one of ``entities`` has (else :class:`NotPlain`), as a bytes array (see
         :meth:`TagTable.raw_texts`): decoded later, once the tag table is let go."""
         at = self.first(code, entities)
-        if np.any(at < 0):
+        if (at < 0).any():
             raise NotPlain(f"an entity without group code {code}")
         return self.tags.raw_texts(at)
 
@@ -112,7 +112,7 @@ class Fields:
 
     @staticmethod
     def _fill(values: NDArray[np.float64], at: IntArray, default: float | None, code: int) -> NDArray[np.float64]:
-        if np.any(at < 0):
+        if (at < 0).any():
             if default is None:
                 raise NotPlain(f"an entity without group code {code}")
             values = np.where(at >= 0, values, default)
@@ -128,7 +128,7 @@ def _application_groups(tags: TagTable, owner: NDArray[np.int32]) -> NDArray[np.
     opens = np.array([data[s:s + 1] == b"{" for s in tags.start[marks].tolist()], dtype=bool)
     closes = np.array([data[s:e] == b"}" for s, e in zip(tags.start[marks].tolist(), tags.end(marks).tolist(),
                                                          strict=True)], dtype=bool)
-    if not np.all(opens | closes):
+    if not (opens | closes).all():
         raise NotPlain("group code 102 that neither opens nor closes a group")
     step = np.zeros(len(tags) + 1, dtype=np.int32)
     step[marks] = np.where(opens, 1, -1)
@@ -137,7 +137,7 @@ def _application_groups(tags: TagTable, owner: NDArray[np.int32]) -> NDArray[np.
         raise NotPlain("nested or unbalanced application groups")
     inside = depth > 0
     inside[marks[closes]] = True
-    if np.any(owner[marks[opens]] != owner[np.minimum(marks[opens] + 1, len(owner) - 1)]) or np.any(
+    if (owner[marks[opens]] != owner[np.minimum(marks[opens] + 1, len(owner) - 1)]).any() or np.any(
             inside[tags.codes == 0]):
         raise NotPlain("an application group that is not closed in its entity")
     return inside

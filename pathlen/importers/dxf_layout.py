@@ -63,7 +63,7 @@ class Layout:
 
 def layout(tags: TagTable) -> Layout:
     """Walk the code-0 tags of ``tags`` (see the module docstring)."""
-    if np.any(tags.codes == 999):
+    if (tags.codes == 999).any():
         raise NotPlain("comments (group code 999): ezdxf's reader skips them, wherever they stand")
     first = np.flatnonzero(tags.codes == 0)
     if len(first) == 0 or first[0] != 0:
@@ -135,7 +135,7 @@ def _check_version(tags: TagTable, start: int, stop: int) -> None:
             if len(hit) == 0:
                 raise NotPlain("no $ACADVER in the header")
             version = int(hit[0] + 1)
-    if tags.text(version).strip().upper() < "AC1012" and np.any(tags.codes == 100):
+    if tags.text(version).strip().upper() < "AC1012" and (tags.codes == 100).any():
         raise NotPlain("subclass markers in a file of DXF R12 or before")
 
 
@@ -284,9 +284,9 @@ def _check_handles(tags: TagTable, owner_of: NDArray[np.int32], kinds: list[str]
     if len(handles) and (width.max() > 16 or width.min() < 1):
         raise NotPlain("a handle of unusual width")
     chars = windows(tags.data, tags.start[handles], 16, width)
-    if not np.all(HEX[chars] | (chars == 0)):
+    if not (HEX[chars] | (chars == 0)).all():
         raise NotPlain("a handle that is not hexadecimal")
     if len(distinct(chars.view("S16").ravel())) != len(handles):
         raise NotPlain("a handle used twice")
-    if np.any(np.all((chars == ord("0")) | (chars == 0), axis=1)):
+    if np.all((chars == ord("0")) | (chars == 0), axis=1).any():
         raise NotPlain("a handle 0 (no entity's: ezdxf refuses it)")

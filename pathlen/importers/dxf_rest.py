@@ -107,7 +107,7 @@ def _links_plain(tags: TagTable, lay: Layout) -> bool:
         return named, np.array([handle_of.get(h.upper(), len(lay.kinds)) for h in named], dtype=np.int64)
 
     _, of_records = targets((340,), "BLOCK_RECORD")
-    if np.any((of_records < len(lay.kinds)) & (kinds[of_records] != "LAYOUT")):
+    if ((of_records < len(lay.kinds)) & (kinds[of_records] != "LAYOUT")).any():
         return False
     layouts = [e for e in lay.objects if lay.kinds[e] == "LAYOUT"]
     for e in layouts:  # its block record: the 330 after its AcDbLayout marker (the first is its owner)
@@ -119,7 +119,7 @@ def _links_plain(tags: TagTable, lay: Layout) -> bool:
     objects = np.zeros(len(lay.kinds) + 1, dtype=bool)
     objects[lay.objects] = True
     _, entries = targets((350, 360), "DICTIONARY")
-    if np.any((entries < len(lay.kinds)) & ~objects[entries]):
+    if ((entries < len(lay.kinds)) & ~objects[entries]).any():
         return False
     return _layout_dictionary_plain(tags, lay, handle_of)
 

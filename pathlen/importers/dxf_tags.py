@@ -213,7 +213,7 @@ def parse_tags(data: bytes | bytearray) -> TagTable:
     codes = _group_codes(data, code_start, code_end)
     eof = _eof_index(data, codes, value_start, value_end)
     codes, value_start, value_end = codes[:eof], value_start[:eof], value_end[:eof]
-    if np.any(codes < 0):
+    if (codes < 0).any():
         raise NotPlain("a group code that is not a plain integer")
     _check_points_and_binary(data, codes, value_start, value_end)
     number = _numbers(data, codes, value_start, value_end)
@@ -241,7 +241,7 @@ def _check_points_and_binary(data: bytes, codes: NDArray[np.int16], start: NDArr
                              end: NDArray[np.int64]) -> None:
     """A point's x followed by its y; binary chunks in hexadecimal: ezdxf's tag compiler refuses others."""
     x = np.flatnonzero(has_code(codes, POINT_TABLE))
-    if len(x) and (x[-1] + 1 >= len(codes) or np.any(codes[np.minimum(x + 1, len(codes) - 1)] != codes[x] + 10)):
+    if len(x) and (x[-1] + 1 >= len(codes) or (codes[np.minimum(x + 1, len(codes) - 1)] != codes[x] + 10).any()):
         raise NotPlain("a point without its y")
     for i in np.flatnonzero(has_code(codes, BINARY_TABLE)).tolist():
         if _HEX_LINE.fullmatch(data, start[i], end[i]) is None:
@@ -296,7 +296,7 @@ def _numbers(data: bytearray, codes: NDArray[np.int16], start: NDArray[np.int64]
         s, e = start[rows], end[rows]
         wide = e - s > NUMBER_WIDTH
         chars = windows(data, s, NUMBER_WIDTH, e - s)
-        if not np.all(_NUMBER_BYTES[chars] | (chars == 0)):
+        if not (_NUMBER_BYTES[chars] | (chars == 0)).all():
             raise NotPlain("a number with characters other than digits, sign, point and exponent")
         try:
             values = chars.view(f"S{NUMBER_WIDTH}").ravel().astype(np.float64)
@@ -305,6 +305,6 @@ def _numbers(data: bytearray, codes: NDArray[np.int16], start: NDArray[np.int64]
         except ValueError:
             raise NotPlain("a number that cannot be read") from None
         number[rows] = values
-    if not np.all(np.isfinite(number[numeric][INTEGER_CODES[np.minimum(codes[numeric], len(INTEGER_CODES) - 1)]])):
+    if not np.isfinite(number[numeric][INTEGER_CODES[np.minimum(codes[numeric], len(INTEGER_CODES) - 1)]]).all():
         raise NotPlain("an integer code whose value is not a finite number")
     return number
