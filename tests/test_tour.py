@@ -112,3 +112,19 @@ def test_orientation_of_runs_at_once_equals_one_after_another(seed):
     reverse, moves = _greedy_orientation(start, end, closed, order.tolist(), home)
     assert np.array_equal(got.reverse, reverse)
     np.testing.assert_allclose(got.rapid_moves, moves, rtol=1e-15, atol=0)
+
+
+@pytest.mark.parametrize("seed", range(30))
+def test_disjoint_spans_found_at_once_equal_a_pass_in_order(seed):
+    # the spans a pass in listed order keeps (each that meets none kept before it), found in rounds
+    rng = np.random.default_rng(seed)
+    count = int(rng.integers(0, 120))
+    lo = rng.integers(0, 200, count)
+    hi = lo + rng.integers(1, 1 + (8 if seed % 2 else 60), count)
+    taken = np.zeros(400, dtype=bool)
+    expected = []
+    for k in range(count):
+        if not taken[lo[k]:hi[k]].any():
+            taken[lo[k]:hi[k]] = True
+            expected.append(k)
+    assert tour_module._first_come_disjoint(lo, hi).tolist() == expected

@@ -193,22 +193,50 @@ def _two_opt(points: FloatArray, order: IntArray, parent: IntArray, home: FloatA
         gain = delta[np.arange(len(i)), best]
         good = np.flatnonzero(gain < -1e-9 * (1.0 + edge[i]))
         in_play[:] = False
-        taken = bytearray(n + 2)
-        saved = 0.0
         ranked = good[np.argsort(gain[good])]
         starts, stops = i[ranked], j[ranked, best[ranked]]
         # moves that apply do not overlap, so each one's stretch holds what it held before the round
-        keeps = _stretches_keep_holes_first(order, parent, starts, stops) if nested else np.ones(len(ranked), bool)
-        for g, r, stop, keep in zip(ranked.tolist(), starts.tolist(), stops.tolist(), keeps.tolist(), strict=True):
-            if not keep or any(taken[r:stop + 2]):
-                continue
-            order[r:stop] = order[r:stop][::-1].copy()
-            taken[r:stop + 2] = b"\x01" * (stop + 2 - r)
-            in_play[max(0, r - width - 1):min(n - 1, stop + 2)] = True
-            saved -= float(gain[g])
+        if nested:
+            keep = _stretches_keep_holes_first(order, parent, starts, stops)
+            ranked, starts, stops = ranked[keep], starts[keep], stops[keep]
+        kept = _first_come_disjoint(starts, stops + 2)
+        ranked, starts, stops = ranked[kept], starts[kept], stops[kept]
+        move, at = expand_ranges(np.arange(len(starts)), starts, stops).T
+        order[starts[move] + stops[move] - 1 - at] = order[at]  # each stretch reversed
+        move, at = expand_ranges(np.arange(len(starts)), np.maximum(starts - width - 1, 0),
+                                 np.minimum(stops + 2, n - 1)).T
+        in_play[at] = True
+        saved = -float(np.cumsum(gain[ranked])[-1]) if len(ranked) else 0.0  # in rank order, as one by one
         if saved == 0.0 or (n > FULL_2OPT and saved < SETTLED * float(edge.sum())):
             break
     return order
+
+
+def _first_come_disjoint(lo: IntArray, hi: IntArray) -> IntArray:
+    """Of spans ``[lo[k], hi[k])`` listed best first, those a pass in that order keeps when it keeps each
+    span that meets none kept before it (indices, ascending).
+
+    Found in rounds, all spans at once: a span still open that is the first listed at each of its
+    positions among those open is kept (the pass would keep it: every earlier span meeting it was
+    dropped), and every open span meeting a kept one is dropped.  Rounds: the longest chain of
+    ever earlier meeting spans, a few."""
+    count = len(lo)
+    kept = np.zeros(count, dtype=bool)
+    span, at = expand_ranges(np.arange(count), lo, hi).T
+    size = int(hi.max(initial=0)) + 1
+    while len(span):
+        first = np.full(size, count)
+        np.minimum.at(first, at, span)
+        beaten = np.zeros(count, dtype=bool)
+        beaten[span[first[at] != span]] = True
+        win = ~beaten[span]
+        kept[span[win]] = True
+        covered = np.zeros(size, dtype=bool)
+        covered[at[win]] = True
+        gone = np.zeros(count, dtype=bool)
+        gone[span[covered[at]]] = True
+        span, at = span[~gone[span]], at[~gone[span]]
+    return np.flatnonzero(kept)
 
 
 def _stretches_keep_holes_first(order: IntArray, parent: IntArray, starts: IntArray, stops: IntArray
