@@ -73,3 +73,20 @@ def test_memory_limit_stops_a_real_drawing(runner, good, tmp_path):
     assert files["good.dxf"]["ok"]
     assert files["big.dxf"]["error"] == ("needed more than the memory limit of 300 MB per file (--max-memory) "
                                          "while reading the drawing")  # the step named
+
+
+def test_heap_handed_back_after_reading_big_drawings_only(monkeypatch):
+    # malloc_trim after a drawing of BIG_DRAWING_SEGMENTS segments or more, never after a small one
+    # (a small file's batch would pay the call for nothing)
+    import numpy as np
+
+    import pathlen.batch as batch
+    from pathlen.geometry import Lines, empty_drawing
+
+    calls = []
+    monkeypatch.setattr(batch, "_call_glibc", lambda name, *args: calls.append((name, args)))
+    for n in (batch.BIG_DRAWING_SEGMENTS - 1, batch.BIG_DRAWING_SEGMENTS):
+        drawing = empty_drawing()
+        drawing.lines = Lines(np.zeros((n, 3)), np.ones((n, 3)), np.zeros(n, dtype=np.int64))
+        batch.give_back_heap(drawing)
+    assert calls == [("malloc_trim", (0,))]

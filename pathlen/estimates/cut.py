@@ -18,7 +18,7 @@ from pathlib import Path
 
 import numpy as np
 
-from pathlen.batch import FileOutcome, hidden_note, one_line_failure, stage
+from pathlen.batch import FileOutcome, give_back_heap, hidden_note, one_line_failure, stage
 from pathlen.containment import nesting_depth
 from pathlen.contours import (
     DEFAULT_GAP_REPORT_MM,
@@ -121,6 +121,7 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
     p = s.profile
     with stage("reading the drawing"):
         drawing = expand(read_drawing(Path(path), s.import_options), s.max_segments, "the cut estimate")
+    give_back_heap(drawing)
     with stage(f"measuring {segment_total(drawing):,} segments"):
         measured = measure(drawing, s.rtol)
         table = segment_table(drawing, measured)
