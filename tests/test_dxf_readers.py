@@ -12,6 +12,7 @@ import math
 from pathlib import Path
 
 import ezdxf
+import numpy as np
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
@@ -294,3 +295,22 @@ def test_header_variables_take_one_value_or_one_point(values, plain):
     else:
         with pytest.raises(NotPlain):  # x then z fails sooner, as any point without its y
             check()
+
+
+def test_texts_cut_out_one_by_one_equal_those_gathered_at_once():
+    # a few values are cut out one by one, many in one gather: the same texts either way (trailing zero
+    # bytes dropped), and text that is not ASCII refused either way
+    from pathlen.importers.dxf_tags import FEW_TEXTS, NotPlain, parse_tags
+
+    names = [f"L{k}" + "x" * (k % 7) + ("\0" if k % 5 == 0 else "") for k in range(3 * FEW_TEXTS)]
+    text = "".join(f"8\n{name}\n" for name in names) + "0\nEOF\n"
+    tags = parse_tags(text.encode())
+    index = np.arange(len(names))
+    expected = [n.rstrip("\0") for n in names]
+    assert tags.texts(index) == expected
+    assert tags.texts(index[:FEW_TEXTS]) == expected[:FEW_TEXTS]
+    assert tags.raw_texts(index[:FEW_TEXTS]).tolist() == tags.raw_texts(index)[:FEW_TEXTS].tolist()
+    bad = parse_tags("8\nL\xe9\n0\nEOF\n".encode("latin-1"))
+    for index in (np.array([0]), np.zeros(FEW_TEXTS + 1, dtype=np.int64)):
+        with pytest.raises(NotPlain):
+            bad.texts(index)

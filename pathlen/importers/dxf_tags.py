@@ -79,6 +79,11 @@ for _c in b"0123456789+-.eE ":
     _NUMBER_BYTES[_c] = True
 
 
+#: Up to this many values, texts are cut out one by one (about 0.4 us each); beyond, in one numpy gather
+#: (about 40 us however few).
+FEW_TEXTS = 128
+
+
 class NotPlain(Exception):
     """The file is not in the plain form the bulk reader takes; the reason says why."""
 
@@ -115,9 +120,21 @@ class TagTable:
         ``repeated`` (kinds, layer names: few distinct values): equal values share one ``str`` object,
         so a million entities on three layers hold three strings, not a million."""
         index = np.asarray(index, dtype=np.int64)
-        if len(index) and int(self.width[index].max()) > TEXT_WIDTH:
+        if len(index) <= FEW_TEXTS:
+            return [v.decode("ascii") for v in self._few(index)]
+        if int(self.width[index].max()) > TEXT_WIDTH:
             return [self.text(i) for i in index.tolist()]
         return decode_texts(self.raw_texts(index), repeated)
+
+    def _few(self, index: NDArray[np.int64]) -> list[bytes]:
+        """Values of a few tags (:data:`FEW_TEXTS`) cut out one by one (ASCII checked; trailing zero bytes
+        dropped, as in the fixed-width arrays of :meth:`raw_texts`)."""
+        data = self.data
+        values = [bytes(data[a:a + n]).rstrip(b"\0")
+                  for a, n in zip(self.start[index].tolist(), self.width[index].tolist(), strict=True)]
+        if not all(v.isascii() for v in values):
+            raise NotPlain("text that is not ASCII")
+        return values
 
     def raw_texts(self, index: NDArray[np.int64]) -> NDArray[np.bytes_]:
         """Values of the tags ``index`` as one fixed-width bytes array (ASCII checked; trailing zero bytes
@@ -125,6 +142,9 @@ class TagTable:
         index = np.asarray(index, dtype=np.int64)
         if len(index) == 0:
             return np.zeros(0, dtype="S1")
+        if len(index) <= FEW_TEXTS:
+            values = self._few(index)
+            return np.array(values, dtype=f"S{max(max(map(len, values)), 1)}")
         start, length = self.start[index], self.width[index].astype(np.int64)
         width = max(int(length.max()), 1)
         if width > TEXT_WIDTH:
