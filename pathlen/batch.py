@@ -11,8 +11,8 @@ from typing import Any
 
 import numpy as np
 
-from pathlen.contour_tree import count_placed
-from pathlen.contours import DEFAULT_JOIN_TOL_MM
+from pathlen.contour_tree import count_placed, visible_ends
+from pathlen.contours import DEFAULT_JOIN_TOL_MM, count_ends
 from pathlen.errors import PathlenError, UsageError
 from pathlen.geometry import Drawing
 from pathlen.importers import SUFFIXES, ImportOptions, load_readers, read_drawing
@@ -143,35 +143,44 @@ def _measure_file(path: str, settings: MeasureSettings) -> FileResult:
     with stage("reading the drawing"):
         drawing = read_drawing(Path(path), settings.import_options)
     give_back_heap(drawing)
-    with stage(f"measuring {segment_total(drawing):,} segments"):
+    total = segment_total(drawing)
+    with stage(f"measuring {total:,} segments"):
         result = measure(drawing, settings.rtol)
+    entity_length, entity_bound, unconverged = result.entity_length, result.entity_bound, result.unconverged
+    del result  # its lengths per segment are summed into the entities'
+    all_entities, recovered = drawing.entities, drawing.recovered
     warnings = list(drawing.warnings)
-    shown = np.array([not e.hidden for e in drawing.entities], dtype=bool)
-    warnings.extend(hidden_note(drawing, result.entity_length))
+    shown = np.array([not e.hidden for e in all_entities], dtype=bool)
+    warnings.extend(hidden_note(drawing, entity_length))
     try:
-        contours = count_placed(drawing, settings.join_tol_mm, settings.max_segments)
+        if drawing.placements:
+            contours = count_placed(drawing, settings.join_tol_mm, settings.max_segments)
+        else:  # the segments' ends in hand, the drawing's geometry goes before counting's working arrays come
+            ends = visible_ends(drawing, settings.join_tol_mm)
+            del drawing
+            contours = count_ends(ends, all_entities, settings.join_tol_mm)
     except TooManySegments as exc:
         contours = None
         warnings.append(f"contours not counted: {exc}; lengths are exact all the same")
     except MemoryError:  # the lengths are in hand: keep them, say what is missing
         contours = None
-        warnings.append(f"contours not counted: writing out {segment_total(drawing):,} segments needed more than "
+        warnings.append(f"contours not counted: writing out {total:,} segments needed more than "
                         f"{_limit_phrase()}; lengths are exact all the same (--max-segments lowers the count tried)")
-    entities = [e for e, s in zip(drawing.entities, shown.tolist(), strict=True) if s]
-    length, bound = result.entity_length[shown], result.entity_bound[shown]
+    entities = [e for e, s in zip(all_entities, shown.tolist(), strict=True) if s]
+    length, bound = entity_length[shown], entity_bound[shown]
     copies = [e.copies for e in entities]
     layers = _totals_by([e.layer for e in entities], length, bound, copies)
     colors = _totals_by([e.color for e in entities], length, bound, copies)
     colors.pop("", None)
     if not entities:
         warnings.append("nothing measurable in this drawing: no lines, arcs or curves where they are drawn")
-    if result.unconverged:
-        warnings.append(f"{result.unconverged} integration intervals did not reach the tolerance; "
+    if unconverged:
+        warnings.append(f"{unconverged} integration intervals did not reach the tolerance; "
                         "their error is included in the bound")
     return FileResult(
         path, ok=True, length_mm=float(np.sum(length)), bound_mm=float(np.sum(bound)), layers=layers, colors=colors,
         closed=contours.closed if contours else 0, open=contours.open if contours else 0,
-        contours_counted=contours is not None, recovered=drawing.recovered, warnings=warnings,
+        contours_counted=contours is not None, recovered=recovered, warnings=warnings,
     )
 
 

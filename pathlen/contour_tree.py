@@ -17,7 +17,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from pathlen.contours import ContourCount, count_contours
+from pathlen.contours import ContourCount, count_contours, count_ends, segment_ends
 from pathlen.geometry import Drawing, Entity, FloatArray, IntArray, Placement, keep_entities
 from pathlen.instances import TooManySegments, expand, instance_matrices, segment_total
 from pathlen.segments import arc_boxes
@@ -43,11 +43,17 @@ def count_placed(drawing: Drawing, join_tol: float, max_segments: int) -> Contou
     :func:`count_contours` on the written-out drawing); raises
     :class:`~pathlen.instances.TooManySegments` when the copies that must be written out are too many."""
     if not drawing.placements:
-        shown = np.array([not e.hidden for e in drawing.entities], dtype=bool)
-        return count_contours(drawing if shown.all() else keep_entities(drawing, shown), join_tol)
+        return count_ends(visible_ends(drawing, join_tol), drawing.entities, join_tol)
     ctx = _Context(drawing.entities, join_tol, max_segments)
     count, _ = _count(drawing, np.arange(len(drawing.entities), dtype=np.int64), ctx)
     return count
+
+
+def visible_ends(drawing: Drawing, join_tol: float) -> list[np.ndarray]:
+    """:func:`~pathlen.contours.segment_ends` of the drawing's own segments, hidden entities left out
+    (placements are not looked at)."""
+    shown = np.array([not e.hidden for e in drawing.entities], dtype=bool)
+    return segment_ends(drawing if shown.all() else keep_entities(drawing, shown), join_tol)
 
 
 def _count(d: Drawing, labels: IntArray, ctx: _Context) -> tuple[ContourCount, Box | None]:

@@ -13,9 +13,9 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from pathlen.geometry import Drawing, FloatArray, IntArray, take_rows
+from pathlen.geometry import Drawing, Entity, FloatArray, IntArray, take_rows
 from pathlen.proximity import close_pairs, components
-from pathlen.segments import SegmentTable, segment_endpoints, segment_layers, segment_midpoints
+from pathlen.segments import SegmentTable, entity_layers, segment_endpoints, segment_midpoints
 
 #: Default join tolerance in millimetres.
 DEFAULT_JOIN_TOL_MM = 0.01
@@ -36,21 +36,38 @@ def count_contours(drawing: Drawing, join_tol: float = DEFAULT_JOIN_TOL_MM) -> C
     a connected set of segments is one contour, closed when every node has an
     even number of segment ends (each segment can be traversed once in a loop).
     """
+    return count_ends(segment_ends(drawing, join_tol), drawing.entities, join_tol)
+
+
+def segment_ends(drawing: Drawing, join_tol: float = DEFAULT_JOIN_TOL_MM) -> list[np.ndarray]:
+    """What counting contours needs of the drawing's own segments: ``[start, end, entity, shut]`` (start
+    and end points ``[n, 3]`` mm, entity rows, whether each closes on itself within ``join_tol``), a
+    zero-length line left out (it is no contour).  With these in hand the drawing's geometry can go
+    before :func:`count_ends` runs."""
     start, end, ent = segment_endpoints(drawing)
     lines = drawing.lines
     real = np.ones(len(ent), dtype=bool)
-    real[: len(lines)] = np.any(lines.p0 != lines.p1, axis=1)  # a zero-length line is not a contour
-    every = bool(np.all(real))
+    real[: len(lines)] = np.any(lines.p0 != lines.p1, axis=1)
+    every = bool(real.all())
     if not every:
         start, end, ent = start[real], end[real], ent[real]
+    middle = segment_midpoints(drawing)
+    shut = closed_segments(start, end, middle if every else middle[real], join_tol)
+    return [start, end, ent, shut]
+
+
+def count_ends(ends: list[np.ndarray], entities: list[Entity], join_tol: float = DEFAULT_JOIN_TOL_MM
+               ) -> ContourCount:
+    """Closed and open contours of the segments ``ends`` (from :func:`segment_ends`) whose entity rows
+    index ``entities``: see :func:`count_contours`.  ``ends`` is emptied, so each array goes as soon as
+    it is used up."""
+    start, end, ent, shut = ends
+    ends.clear()
     n = len(ent)
     if n == 0:
         return ContourCount(0, 0)
-    middle = segment_midpoints(drawing)
-    shut = closed_segments(start, end, middle if every else middle[real], join_tol)
-    del middle
-    _, seg_layer = segment_layers(drawing, ent)
-    group = join_groups(seg_layer, ent, drawing.entities, shut)
+    _, seg_layer = entity_layers(entities, ent)
+    group = join_groups(seg_layer, ent, entities, shut)
     del seg_layer, ent
     points = np.concatenate([start, end])
     del start, end

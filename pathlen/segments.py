@@ -251,7 +251,12 @@ def segment_layers(drawing: Drawing, table: SegmentTable | IntArray) -> tuple[li
     """Layer names (sorted) and each segment's index into them; ``table`` may also be the segments'
     entity indices."""
     entity = table.entity if isinstance(table, SegmentTable) else np.asarray(table, dtype=np.int64)
-    names = sorted({e.layer for e in drawing.entities})
+    return entity_layers(drawing.entities, entity)
+
+
+def entity_layers(entities: list[Any], entity: IntArray) -> tuple[list[str], IntArray]:
+    """Layer names (sorted) of ``entities`` and the index into them of each of the rows ``entity``."""
+    names = sorted({e.layer for e in entities})
     index = {n: i for i, n in enumerate(names)}
-    of_entity = np.array([index[e.layer] for e in drawing.entities], dtype=np.int64)
+    of_entity = np.array([index[e.layer] for e in entities], dtype=np.int64)
     return names, of_entity[entity] if len(entity) else np.zeros(0, dtype=np.int64)
