@@ -142,12 +142,13 @@ def measure_file(path: str, settings: MeasureSettings = MeasureSettings()) -> Fi
 def _measure_file(path: str, settings: MeasureSettings) -> FileResult:
     with stage("reading the drawing"):
         drawing = read_drawing(Path(path), settings.import_options)
-    give_back_heap(drawing)
     total = segment_total(drawing)
+    give_back_heap(total)
     with stage(f"measuring {total:,} segments"):
         result = measure(drawing, settings.rtol)
     entity_length, entity_bound, unconverged = result.entity_length, result.entity_bound, result.unconverged
     del result  # its lengths per segment are summed into the entities'
+    give_back_heap(total)
     all_entities, recovered = drawing.entities, drawing.recovered
     warnings = list(drawing.warnings)
     shown = np.array([not e.hidden for e in all_entities], dtype=bool)
@@ -158,6 +159,7 @@ def _measure_file(path: str, settings: MeasureSettings) -> FileResult:
         else:  # the segments' ends in hand, the drawing's geometry goes before counting's working arrays come
             ends = visible_ends(drawing, settings.join_tol_mm)
             del drawing
+            give_back_heap(total)
             contours = count_ends(ends, all_entities, settings.join_tol_mm)
     except TooManySegments as exc:
         contours = None
@@ -249,12 +251,13 @@ def _call_glibc(function: str, *args: int) -> None:
 BIG_DRAWING_SEGMENTS = 100_000
 
 
-def give_back_heap(drawing: Drawing) -> None:
-    """After reading a big drawing (:data:`BIG_DRAWING_SEGMENTS`), hand the C heap's free pages back to the
-    system (glibc ``malloc_trim``): the reader's text and Python objects leave freed blocks under a
-    megabyte between live ones, which stay resident otherwise (a million SVG segments: about 70 MB).
-    Elsewhere (no glibc) nothing happens."""
-    if segment_total(drawing) >= BIG_DRAWING_SEGMENTS:
+def give_back_heap(segments: int) -> None:
+    """After a step of work on a big drawing (``segments`` at least :data:`BIG_DRAWING_SEGMENTS`), hand the
+    C heap's free pages back to the system (glibc ``malloc_trim``, every thread's heap): the reader's text
+    and Python objects, the integrator threads' temporaries, leave freed blocks under a megabyte between
+    live ones, which stay resident otherwise (a million SVG segments: about 70 MB after reading, 80 after
+    measuring).  Elsewhere (no glibc) nothing happens."""
+    if segments >= BIG_DRAWING_SEGMENTS:
         _call_glibc("malloc_trim", 0)
 
 
