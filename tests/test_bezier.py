@@ -163,3 +163,21 @@ def test_work_per_curve_is_bounded_when_the_speed_is_noise():
     assert out.evaluations <= 15 * 2 * MAX_INTERVALS_PER_CURVE * n
     np.testing.assert_allclose(out.value, 1.0, atol=1e-6)  # ∫_0^1 1 dt, noise averaged by the rule
     assert np.all(out.bound > 0)
+
+
+@pytest.mark.parametrize("name", ["kl330_sign_panel.dxf", "kl412_lamp_panel.svg", "kl214_gasket.dxf", "kl101_bracket.dxf"])
+def test_measuring_in_runs_changes_no_result(name, monkeypatch):
+    # every curve is measured alone, so runs of 3 rows give the lengths, bounds and counts of one pass
+    from pathlib import Path
+
+    import pathlen.measure as measure_module
+    from pathlen.importers import read_drawing
+
+    drawing = read_drawing(Path(__file__).resolve().parent.parent / "fixtures" / name)
+    whole = measure_module.measure(drawing)
+    monkeypatch.setattr(measure_module, "MEASURE_RUN", 3)
+    runs = measure_module.measure(drawing)
+    assert len(drawing.arcs) > 3 or any(len(b) > 3 for b in drawing.beziers.values())
+    np.testing.assert_array_equal(runs.entity_length, whole.entity_length)
+    np.testing.assert_array_equal(runs.entity_bound, whole.entity_bound)
+    assert runs.unconverged == whole.unconverged

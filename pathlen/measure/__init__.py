@@ -9,11 +9,13 @@ again only under a distinct linear part that is not one.  A map whose singular v
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from collections.abc import Callable
+from dataclasses import dataclass, fields, replace
+from typing import TypeVar
 
 import numpy as np
 
-from pathlen.geometry import Drawing, FloatArray, IntArray, Placement, affine
+from pathlen.geometry import Beziers, Drawing, EllipticArcs, FloatArray, IntArray, Placement, affine
 from pathlen.instances import is_planar
 from pathlen.measure.bezier import bezier_lengths
 from pathlen.measure.closed_forms import line_lengths
@@ -59,11 +61,11 @@ def measure(drawing: Drawing, rtol: float = DEFAULT_RTOL, _cache: dict | None = 
         raise ValueError("rtol must lie between 0 and 1")
     cache: dict = {} if _cache is None else _cache
     lines = SegmentLengths(*line_lengths(drawing.lines.p0, drawing.lines.p1), drawing.lines.entity)
-    a_len, a_bound, unconverged = arc_lengths(drawing.arcs, rtol)
+    a_len, a_bound, unconverged = _in_runs(drawing.arcs, arc_lengths, rtol)
     arcs = SegmentLengths(a_len, a_bound, drawing.arcs.entity)
     beziers = {}
     for degree, batch in drawing.beziers.items():
-        b_len, b_bound, u = bezier_lengths(batch, rtol)
+        b_len, b_bound, u = _in_runs(batch, bezier_lengths, rtol)
         beziers[degree] = SegmentLengths(b_len, b_bound, batch.entity)
         unconverged += u
     n = len(drawing.entities)
@@ -78,6 +80,28 @@ def measure(drawing: Drawing, rtol: float = DEFAULT_RTOL, _cache: dict | None = 
         np.add.at(bound, p.entity, p_bound)
         unconverged += u
     return Measurement(lines, arcs, beziers, length, bound, unconverged)
+
+
+#: Curves measured at a time: the integrators' temporaries (a few hundred bytes a curve) stay bounded
+#: whatever the drawing's size.  Each curve is measured alone, so runs change no result.
+MEASURE_RUN = 1 << 16
+
+_Batch = TypeVar("_Batch", EllipticArcs, Beziers)
+
+
+def _in_runs(batch: _Batch, lengths: Callable[[_Batch, float], tuple[FloatArray, FloatArray, int]], rtol: float
+             ) -> tuple[FloatArray, FloatArray, int]:
+    """``lengths(batch, rtol)`` (length, bound, unconverged), taken :data:`MEASURE_RUN` rows at a time."""
+    n = len(batch)
+    if n <= MEASURE_RUN:
+        return lengths(batch, rtol)
+    length, bound, unconverged = np.empty(n), np.empty(n), 0
+    for a in range(0, n, MEASURE_RUN):
+        run = slice(a, a + MEASURE_RUN)
+        part = replace(batch, **{f.name: getattr(batch, f.name)[run] for f in fields(batch)})
+        length[run], bound[run], u = lengths(part, rtol)
+        unconverged += u
+    return length, bound, unconverged
 
 
 #: Largest relative spread of singular values still measured as a similarity (a share of ``rtol``).
