@@ -69,7 +69,8 @@ def count_ends(ends: list[np.ndarray], entities: list[Entity], join_tol: float =
     _, seg_layer = entity_layers(entities, ent)
     group = join_groups(seg_layer, ent, entities, shut)
     del seg_layer, ent
-    points = np.concatenate([start, end])
+    flat = not (start[:, 2].any() or end[:, 2].any())  # a flat drawing (every z zero) is joined in x, y
+    points = np.concatenate([start[:, :2], end[:, :2]] if flat else [start, end])
     del start, end
     node = join_nodes(points, np.concatenate([group, group]), join_tol, shut)
     del points, group
@@ -187,8 +188,9 @@ def chain_contours(table: SegmentTable, layer: IntArray, join_tol: float = DEFAU
 
 
 def join_nodes(points: FloatArray, groups: IntArray, tol: float, closed: NDArray[np.bool_] | None = None) -> IntArray:
-    """Node number (not necessarily consecutive) of each end point; ``points`` are the starts of n
-    segments followed by their ends, ``groups`` theirs (layer, or a closed loop of its own).
+    """Node number (not necessarily consecutive) of each end point; ``points`` (``[2n, 3]``, or ``[2n, 2]``
+    for a flat drawing) are the starts of n segments followed by their ends, ``groups`` theirs (layer,
+    or a closed loop of its own).
 
     Identical points (same group) are one place.  Within ``tol`` only loose places join: a place
     holding an odd number of ends (a dangling end) joins its nearest place in reach, so a chain of
@@ -201,7 +203,7 @@ def join_nodes(points: FloatArray, groups: IntArray, tol: float, closed: NDArray
     one); the pairs within ``tol`` are searched among places, not points.
     """
     n = len(points) // 2
-    order, new = equal_rows([groups, points[:, 0], points[:, 1], points[:, 2]])
+    order, new = equal_rows([groups, *(points[:, k] for k in range(points.shape[1]))])
     first = order[new]  # one point of each place (index into points), places in sorted order
     place = np.empty(len(points), dtype=np.int64)
     place[order] = np.cumsum(new) - 1

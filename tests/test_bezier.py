@@ -165,7 +165,8 @@ def test_work_per_curve_is_bounded_when_the_speed_is_noise():
     assert np.all(out.bound > 0)
 
 
-@pytest.mark.parametrize("name", ["kl330_sign_panel.dxf", "kl412_lamp_panel.svg", "kl214_gasket.dxf", "kl101_bracket.dxf"])
+@pytest.mark.parametrize("name", ["kl330_sign_panel.dxf", "kl412_lamp_panel.svg", "kl214_gasket.dxf",
+                                  "kl101_bracket.dxf"])
 def test_measuring_in_runs_changes_no_result(name, monkeypatch):
     # every curve is measured alone, so runs of 3 rows give the lengths, bounds and counts of one pass
     from pathlib import Path

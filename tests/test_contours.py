@@ -304,3 +304,20 @@ def test_arc_boxes_are_tight_and_hold_the_arc():
     pts = arcs.center[:, None] + arcs.u[:, None] * np.cos(t)[..., None] + arcs.v[:, None] * np.sin(t)[..., None]
     assert np.all(pts.min(axis=1) >= lo - 1e-9) and np.all(pts.max(axis=1) <= hi + 1e-9)
     assert np.allclose(pts.min(axis=1), lo, atol=1e-5) and np.allclose(pts.max(axis=1), hi, atol=1e-5)
+
+
+@pytest.mark.parametrize("name", ["kl101_bracket.dxf", "kl214_gasket.dxf", "kl330_sign_panel.dxf",
+                                  "kl412_lamp_panel.svg"])
+def test_flat_drawing_joined_in_the_plane_counts_as_lifted_off_it(name):
+    # a flat drawing's ends are joined in x, y only; the same drawing lifted to z = 5 mm is joined in
+    # 3-D: the z differences are all zero, so the contours are the same
+    from pathlib import Path
+
+    from pathlen.geometry import affine
+    from pathlen.importers import read_drawing
+    from pathlen.instances import expand
+
+    drawing = expand(read_drawing(Path(__file__).resolve().parent.parent / "fixtures" / name))
+    lifted = drawing.transformed(affine(np.eye(3), (0.0, 0.0, 5.0)))
+    assert not np.any(drawing.lines.p0[:, 2]) and np.all(lifted.lines.p0[:, 2] == 5.0)
+    assert count_contours(drawing, 0.01) == count_contours(lifted, 0.01)
