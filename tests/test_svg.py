@@ -358,3 +358,31 @@ def test_fast_and_careful_parsers_agree(subpaths):
             mine = rows[kind][1] == p if kind in rows else np.zeros(0, dtype=bool)
             got = np.c_[rows[kind][0][mine], rows[kind][2][mine]] if kind in rows else np.zeros((0, width + 1))
             np.testing.assert_allclose(np.sort(got, axis=0), np.sort(expected, axis=0), rtol=1e-12, atol=1e-9)
+
+
+def test_segments_converted_in_runs_equal_one_pass(tmp_path, monkeypatch):
+    # rows are mapped and arcs converted a run at a time: runs of 2 give the drawing of one pass
+    # (lines, arcs in endpoint form, circles and ellipses, quadratic and cubic pieces, under transforms)
+    from pathlib import Path
+
+    import pathlen.importers.svg_segments as svg_segments
+
+    svg = tmp_path / "runs.svg"
+    svg.write_text(
+        '<svg xmlns="http://www.w3.org/2000/svg" width="100mm" height="80mm" viewBox="0 0 100 80">'
+        '<g transform="rotate(30 50 40) scale(1.5 0.8)"><path d="M1 2 L5 6 Q7 1 9 4 C10 12 14 3 18 9 '
+        'A6 4 20 0 1 25 8 A3 3 0 1 0 31 8 L40 2 Z" fill="none" stroke="black"/>'
+        '<circle cx="20" cy="30" r="5"/><ellipse cx="60" cy="30" rx="8" ry="3"/></g>'
+        '<path d="M60 60 a10 5 45 1 1 12 3 q4 4 8 0 t8 0 c2 2 4 2 6 0 s4 -2 6 0" transform="skewX(12)"/>'
+        '<line x1="3" y1="70" x2="30" y2="75"/></svg>')
+    fixture = Path(__file__).resolve().parent.parent / "fixtures" / "kl412_lamp_panel.svg"
+    for path in (svg, fixture):
+        whole = read_drawing(path)
+        monkeypatch.setattr(svg_segments, "CONVERT_RUN", 2)
+        runs = read_drawing(path)
+        monkeypatch.undo()
+        assert len(whole.arcs) > 2 and len(whole.lines) > 2
+        for a, b in ((whole.lines, runs.lines), (whole.arcs, runs.arcs),
+                     *((whole.beziers[d], runs.beziers[d]) for d in whole.beziers)):
+            for name in vars(a):
+                np.testing.assert_array_equal(getattr(a, name), getattr(b, name))

@@ -108,42 +108,61 @@ def straight_arcs(rows: np.ndarray) -> np.ndarray:
         return (large == 0) & (np.minimum(rx, ry) > STRAIGHT_RATIO * np.hypot(x2 - x1, y2 - y1))
 
 
+#: Rows converted at a time: the temporaries (each row's transform, the arc conversion's) stay bounded.
+CONVERT_RUN = 1 << 16
+
+
 def to_drawing(raw: RawSegments, transforms: np.ndarray, entities: list[Entity]) -> Drawing:
-    """Apply each row's transform (``transforms[k]`` = a b c d e f, user units -> mm) and build a Drawing."""
+    """Apply each row's transform (``transforms[k]`` = a b c d e f, user units -> mm) and build a Drawing
+    (:data:`CONVERT_RUN` rows at a time)."""
     def table(kind: str) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         width = ROW_WIDTH[kind]
         rows = np.frombuffer(raw.rows[kind], dtype=float).reshape(-1, width)
         ent = np.frombuffer(raw.entity[kind], dtype=np.int64)
-        m = transforms[np.frombuffer(raw.transform[kind], dtype=np.int64)]
-        return rows, ent, m
+        return rows, ent, np.frombuffer(raw.transform[kind], dtype=np.int64)
 
-    rows, ent, m = table("line")
-    rows_a, ent_a, m_a = table("arc")
+    rows, ent, which = table("line")
+    rows_a, ent_a, which_a = table("arc")
     straight = straight_arcs(rows_a)
     if straight.any():  # drawn as their chords (exact to rounding, see straight_arcs)
         rows = np.concatenate([rows, rows_a[straight][:, [0, 1, 7, 8]]])
-        ent, m = np.concatenate([ent, ent_a[straight]]), np.concatenate([m, m_a[straight]])
-        rows_a, ent_a, m_a = rows_a[~straight], ent_a[~straight], m_a[~straight]
-    lines = Lines(_points(m, rows[:, 0:2]), _points(m, rows[:, 2:4]), ent.copy())
+        ent, which = np.concatenate([ent, ent_a[straight]]), np.concatenate([which, which_a[straight]])
+        rows_a, ent_a, which_a = rows_a[~straight], ent_a[~straight], which_a[~straight]
+    p0, p1 = np.zeros((len(rows), 3)), np.zeros((len(rows), 3))
+    _map_rows(transforms, which, [(p0, rows[:, 0:2], True), (p1, rows[:, 2:4], True)])
+    lines = Lines(p0, p1, ent.copy())
 
     beziers = {}
     for kind, degree in (("quad", 2), ("cubic", 3)):
-        rows, ent, m = table(kind)
+        rows, ent, which = table(kind)
         if len(rows):
-            ctrl = np.stack([_points(m, rows[:, 2 * j:2 * j + 2]) for j in range(degree + 1)], axis=1)
+            ctrl = np.zeros((len(rows), degree + 1, 3))
+            _map_rows(transforms, which, [(ctrl[:, j], rows[:, 2 * j:2 * j + 2], True) for j in range(degree + 1)])
             beziers[degree] = Beziers(ctrl, np.ones((len(rows), degree + 1)), ent.copy())
 
-    c, u, v, t0, t1 = endpoint_to_centre(rows_a)
-    rows_e, ent_e, m_e = table("ellipse")
-    m = np.concatenate([m_a, m_e])
-    arcs = EllipticArcs(
-        _points(m, np.concatenate([c, rows_e[:, 0:2]])),
-        _vectors(m, np.concatenate([u, rows_e[:, 2:4]])),
-        _vectors(m, np.concatenate([v, rows_e[:, 4:6]])),
-        np.concatenate([t0, rows_e[:, 6]]), np.concatenate([t1, rows_e[:, 7]]),
-        np.concatenate([ent_a, ent_e]),
-    )
+    rows_e, ent_e, which_e = table("ellipse")
+    n_a, n = len(rows_a), len(rows_a) + len(rows_e)
+    center, u, v, t0, t1 = np.zeros((n, 3)), np.zeros((n, 3)), np.zeros((n, 3)), np.empty(n), np.empty(n)
+    for a in range(0, n_a, CONVERT_RUN):
+        run = slice(a, min(a + CONVERT_RUN, n_a))
+        c, u_a, v_a, t0[run], t1[run] = endpoint_to_centre(rows_a[run])
+        _map_rows(transforms, which_a[run], [(center[run], c, True), (u[run], u_a, False), (v[run], v_a, False)])
+    ellipses = slice(n_a, n)
+    _map_rows(transforms, which_e, [(center[ellipses], rows_e[:, 0:2], True), (u[ellipses], rows_e[:, 2:4], False),
+                                    (v[ellipses], rows_e[:, 4:6], False)])
+    t0[ellipses], t1[ellipses] = rows_e[:, 6], rows_e[:, 7]
+    arcs = EllipticArcs(center, u, v, t0, t1, np.concatenate([ent_a, ent_e]))
     return Drawing(lines, arcs, beziers, entities)
+
+
+def _map_rows(transforms: np.ndarray, which: np.ndarray, parts: list[tuple[np.ndarray, np.ndarray, bool]]) -> None:
+    """Into each ``out`` of ``parts`` (``[n, 3]``, z left as it is): its ``xy`` (``[n, 2]``) mapped by the row's
+    transform ``transforms[which[k]]``, as a point (True) or a vector, :data:`CONVERT_RUN` rows at a time."""
+    for a in range(0, len(which), CONVERT_RUN):
+        run = slice(a, a + CONVERT_RUN)
+        m = transforms[which[run]]
+        for out, xy, point in parts:
+            out[run, :2] = (_points(m, xy[run]) if point else _vectors(m, xy[run]))[:, :2]
 
 
 def _vectors(m: np.ndarray, p: np.ndarray) -> np.ndarray:
