@@ -121,8 +121,9 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
     p = s.profile
     with stage("reading the drawing"):
         drawing = expand(read_drawing(Path(path), s.import_options), s.max_segments, "the cut estimate")
-    give_back_heap(segment_total(drawing))
-    with stage(f"measuring {segment_total(drawing):,} segments"):
+    total = segment_total(drawing)
+    give_back_heap(total)
+    with stage(f"measuring {total:,} segments"):
         measured = measure(drawing, s.rtol)
         table = segment_table(drawing, measured)
     layer_names, layer = segment_layers(drawing, table)

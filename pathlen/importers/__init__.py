@@ -15,9 +15,6 @@ from pathlen.instances import definitions
 #: Coordinates beyond this many millimetres (1,000 km) are taken as a broken file.
 MAX_COORDINATE_MM = 1.0e9
 
-#: File kinds read.
-SUFFIXES = (".dxf", ".svg")
-
 
 @dataclass(frozen=True)
 class ImportOptions:
@@ -32,6 +29,8 @@ class ImportOptions:
 
 #: The module that reads each file kind (imported on first use: a batch of DXF files never loads the SVG reader).
 READERS = {".dxf": "pathlen.importers.dxf", ".svg": "pathlen.importers.svg"}
+#: File kinds read.
+SUFFIXES = tuple(READERS)
 
 
 def load_readers(suffixes: Iterable[str]) -> None:

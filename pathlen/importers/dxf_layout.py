@@ -152,9 +152,10 @@ def _check_header(tags: TagTable, start: int, stop: int) -> None:
     size = np.diff(np.append(nine, len(codes)))
     if ((size < 2) | (size > 4)).any():
         raise NotPlain("a header variable without one value")
-    at = nine[size > 2] + 1  # the first of two or three values: a point's x, then its y (and z)
+    several = size > 2
+    at = nine[several] + 1  # the first of two or three values: a point's x, then its y (and z)
     x = codes[at].astype(np.int64)
-    three = size[size > 2] == 4
+    three = size[several] == 4
     point = has_code(x, POINT_TABLE) & (codes[at + 1] == x + 10)
     if not (point & (~three | (codes[np.where(three, at + 2, at)] == x + 20))).all():
         raise NotPlain("a header variable with more than one value")

@@ -121,14 +121,14 @@ class TagTable:
         so a million entities on three layers hold three strings, not a million."""
         index = np.asarray(index, dtype=np.int64)
         if len(index) <= FEW_TEXTS:
-            return [v.decode("ascii") for v in self._few(index)]
+            return [v.decode("ascii") for v in self._one_by_one(index)]
         if int(self.width[index].max()) > TEXT_WIDTH:
             return [self.text(i) for i in index.tolist()]
         return decode_texts(self.raw_texts(index), repeated)
 
-    def _few(self, index: NDArray[np.int64]) -> list[bytes]:
-        """Values of a few tags (:data:`FEW_TEXTS`) cut out one by one (ASCII checked; trailing zero bytes
-        dropped, as in the fixed-width arrays of :meth:`raw_texts`)."""
+    def _one_by_one(self, index: NDArray[np.int64]) -> list[bytes]:
+        """Values of the tags ``index`` cut out one by one (ASCII checked; trailing zero bytes dropped, as
+        in the fixed-width arrays of :meth:`raw_texts`): for few tags (:data:`FEW_TEXTS`) or long values."""
         data = self.data
         values = [bytes(data[a:a + n]).rstrip(b"\0")
                   for a, n in zip(self.start[index].tolist(), self.width[index].tolist(), strict=True)]
@@ -142,16 +142,10 @@ class TagTable:
         index = np.asarray(index, dtype=np.int64)
         if len(index) == 0:
             return np.zeros(0, dtype="S1")
-        if len(index) <= FEW_TEXTS:
-            values = self._few(index)
-            return np.array(values, dtype=f"S{max(max(map(len, values)), 1)}")
         start, length = self.start[index], self.width[index].astype(np.int64)
         width = max(int(length.max()), 1)
-        if width > TEXT_WIDTH:
-            values = [bytes(self.data[a:b]) for a, b in zip(start.tolist(), self.end(index).tolist(), strict=True)]
-            if not all(v.isascii() for v in values):
-                raise NotPlain("text that is not ASCII")
-            return np.array(values, dtype=f"S{width}")
+        if len(index) <= FEW_TEXTS or width > TEXT_WIDTH:
+            return np.array(self._one_by_one(index), dtype=f"S{width}")
         chars = windows(self.data, start, width, length)
         if chars.max(initial=0) >= 128:
             raise NotPlain("text that is not ASCII")
