@@ -11,6 +11,7 @@ from typing import Any
 
 import numpy as np
 
+from pathlen import BLAS_THREAD_VARIABLES
 from pathlen.contour_tree import count_placed, visible_ends
 from pathlen.contours import DEFAULT_JOIN_TOL_MM, count_ends
 from pathlen.errors import PathlenError, UsageError
@@ -217,7 +218,13 @@ def _totals_by(keys: list[str], length: np.ndarray, bound: np.ndarray, copies: l
 def single_blas_thread() -> None:
     """Keep BLAS to one thread in this process.  pathlen's products are tall and thin (nodes times
     weights, points times 3x3 maps): BLAS threads gain nothing there and, spinning beside
-    pathlen's own threads and workers, cost up to a third of the wall time on two cores."""
+    pathlen's own threads and workers, cost up to a third of the wall time on two cores.
+
+    Nothing to do when the BLAS libraries' thread variables are all 1: the command line sets them before
+    numpy is loaded (the library reads its own then); a host that loaded numpy first goes through
+    threadpoolctl."""
+    if all(os.environ.get(name) == "1" for name in BLAS_THREAD_VARIABLES):
+        return
     from threadpoolctl import threadpool_limits
 
     threadpool_limits(limits=1, user_api="blas")
@@ -422,8 +429,9 @@ def run_batch(paths: list[str], settings: Any, jobs: int = 1,
     ``limits``: a file that runs past the timeout has its worker killed, one that needs more memory
     fails with MemoryError inside its worker, and a worker that dies (out-of-memory killer, a crash
     in a C library) fails its own file only; a new worker takes its place.  Failed files get
-    ``failed(path, ok=False, error=...)`` naming the limit.  The workers are started before this
-    returns (before any progress display starts its thread).
+    ``failed(path, ok=False, error=...)`` naming the limit.  The workers are started, and given their
+    first files, before this returns (before any progress display starts its thread, and while the
+    caller loads its report's libraries).
     """
     import multiprocessing
 
@@ -432,7 +440,25 @@ def run_batch(paths: list[str], settings: Any, jobs: int = 1,
     kinds = tuple(sorted({Path(p).suffix.lower() for p in paths}))
     spawn = lambda: _Slot(ctx, work, settings, limits, own_threads=workers == 1, kinds=kinds)  # noqa: E731
     slots = [spawn() for _ in range(workers)]
-    return _drive(paths, slots, spawn, failed, limits, started=started, stop=stop)
+    queue = _queue(len(paths))
+    _hand_out(slots, queue, paths, started, stop)  # now: what the caller does before it asks for results overlaps
+    return _drive(paths, slots, spawn, failed, limits, started=started, stop=stop, queue=queue)
+
+
+def _queue(n: int) -> list[int]:
+    """Files 0..n-1 waiting, the next to go last (``pop()``)."""
+    return list(range(n - 1, -1, -1))
+
+
+def _hand_out(slots: list[_Slot], queue: list[int], paths: list[str], started: Callable[[int], None] | None,
+              stop: Any) -> None:
+    """Give each idle worker the next waiting file (none once ``stop`` is set); ``started(i)`` is told."""
+    for slot in slots:
+        if slot.index is None and queue and not (stop is not None and stop.is_set()):
+            i = queue.pop()
+            if started is not None:
+                started(i)
+            slot.give(i, paths[i])
 
 
 class KeptWorker:
@@ -455,24 +481,19 @@ class KeptWorker:
 
 def _drive(paths: list[str], slots: list[_Slot], spawn: Callable[[], _Slot], failed: Callable[..., Any],
            limits: Limits, keep: bool = False, started: Callable[[int], None] | None = None,
-           stop: Any = None) -> Iterator[tuple[int, Any]]:
+           stop: Any = None, queue: list[int] | None = None) -> Iterator[tuple[int, Any]]:
     """Hand ``paths`` to the worker ``slots`` and yield results as they come; ``keep``: leave idle workers
     running at the end (a worker still busy, say when the caller stops early, is killed and replaced).
     ``started(i)`` is told when file i goes to a worker; once ``stop`` (an Event) is set, no file is
-    handed out, the busy workers are ended and the generator returns (their files are not answered)."""
+    handed out, the busy workers are ended and the generator returns (their files are not answered).
+    ``queue``: the files still waiting (see :func:`_queue`), when some were handed out already."""
     import time
     from multiprocessing.connection import wait
 
-    queue = list(range(len(paths)))
-    queue.reverse()
+    queue = _queue(len(paths)) if queue is None else queue
     try:
         while True:
-            for slot in slots:
-                if slot.index is None and queue and not (stop is not None and stop.is_set()):
-                    i = queue.pop()
-                    if started is not None:
-                        started(i)
-                    slot.give(i, paths[i])
+            _hand_out(slots, queue, paths, started, stop)
             busy = [s for s in slots if s.index is not None]
             if not busy or (stop is not None and stop.is_set()):
                 return

@@ -270,6 +270,27 @@ def test_measure_command_loads_rich_and_readers_only_when_it_runs():
     assert out.split() == ["False", "False", "False", "False", "True"]
 
 
+def test_command_line_keeps_blas_to_one_thread_without_threadpoolctl():
+    # the command line sets the BLAS thread variables before numpy loads (OpenBLAS reads
+    # OPENBLAS_NUM_THREADS as it is loaded: OpenBLAS's README); a worker's set-up and a DXF's reading
+    # then import neither threadpoolctl nor hashlib (OpenSSL), and threadpoolctl, asked afterwards,
+    # finds every BLAS library at one thread
+    import subprocess
+    import sys
+
+    code = ("import os, sys\n"
+            "for v in ('OPENBLAS_NUM_THREADS', 'MKL_NUM_THREADS', 'BLIS_NUM_THREADS'): os.environ.pop(v, None)\n"
+            "import pathlen.cli.measure\n"
+            "from pathlen.batch import measure_file, single_blas_thread\n"
+            "single_blas_thread(); result = measure_file(sys.argv[1])\n"
+            "print(result.ok, 'threadpoolctl' in sys.modules, 'hashlib' in sys.modules)\n"
+            "from threadpoolctl import threadpool_info\n"
+            "print(sorted({i['num_threads'] for i in threadpool_info() if i['user_api'] == 'blas'}))")
+    out = subprocess.run([sys.executable, "-c", code, str(FIXTURES / "kl101_bracket.dxf")], capture_output=True,
+                         text=True, check=True).stdout
+    assert out.splitlines() == ["True False False", "[1]"]
+
+
 def test_tables_keep_numbers_whole_at_80_columns():
     # a long file name folds; every number stays on one line
     import io

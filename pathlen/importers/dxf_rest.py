@@ -15,7 +15,6 @@ damaged drawings, that a file taken here is one ezdxf loads silently).
 from __future__ import annotations
 
 import functools
-import hashlib
 import json
 from pathlib import Path
 
@@ -80,8 +79,9 @@ def _objects_plain(tags: TagTable, lay: Layout) -> bool:
 
 
 def signature(codes: list[int]) -> str:
-    """An object's group codes in order, as a short digest (``tools/make_object_signatures.py``)."""
-    return hashlib.sha1(",".join(map(str, codes)).encode()).hexdigest()[:16]
+    """An object's group codes in order, comma-separated (``tools/make_object_signatures.py``).  Kept whole,
+    not digested: a hash library's import (OpenSSL's, ~13 ms) would be most of a small file's reading."""
+    return ",".join(map(str, codes))
 
 
 @functools.cache
