@@ -48,12 +48,25 @@ def segment_ends(drawing: Drawing, join_tol: float = DEFAULT_JOIN_TOL_MM) -> lis
     lines = drawing.lines
     real = np.ones(len(ent), dtype=bool)
     real[: len(lines)] = np.any(lines.p0 != lines.p1, axis=1)
-    every = bool(real.all())
-    if not every:
-        start, end, ent = start[real], end[real], ent[real]
-    middle = segment_midpoints(drawing)
-    shut = closed_segments(start, end, middle if every else middle[real], join_tol)
+    # only a segment whose ends meet may close on itself: the middles of those alone (a few whole circles
+    # where a million segments would each make a middle and its temporaries); the test there is exact
+    meet = np.flatnonzero(real & ends_may_meet(start, end, join_tol))
+    shut = np.zeros(len(ent), dtype=bool)
+    if len(meet):
+        shut[meet] = closed_segments(take_rows(start, meet), take_rows(end, meet), segment_midpoints(drawing, meet),
+                                     join_tol)
+    if not real.all():
+        start, end, ent, shut = start[real], end[real], ent[real], shut[real]
     return [start, end, ent, shut]
+
+
+def ends_may_meet(start: FloatArray, end: FloatArray, tol: float) -> NDArray[np.bool_]:
+    """Rows whose ends may lie within ``tol`` (mm) of each other: every row that does, and maybe a few
+    more (a margin of a millionth over the rounding of the distance), a column at a time."""
+    squared = np.zeros(len(start))
+    for k in range(start.shape[1]):
+        squared += (end[:, k] - start[:, k]) ** 2
+    return squared <= (tol * (1.0 + 1e-6)) ** 2
 
 
 def count_ends(ends: list[np.ndarray], entities: list[Entity], join_tol: float = DEFAULT_JOIN_TOL_MM

@@ -321,3 +321,38 @@ def test_flat_drawing_joined_in_the_plane_counts_as_lifted_off_it(name):
     lifted = drawing.transformed(affine(np.eye(3), (0.0, 0.0, 5.0)))
     assert not np.any(drawing.lines.p0[:, 2]) and np.all(lifted.lines.p0[:, 2] == 5.0)
     assert count_contours(drawing, 0.01) == count_contours(lifted, 0.01)
+
+
+def test_segments_closed_on_themselves_found_from_the_middles_of_those_whose_ends_meet():
+    # segment_ends takes middles only of segments whose ends meet; the closed ones must be those the
+    # definition gives with every segment's middle (ends within the tolerance, middle beyond it): whole
+    # circles, a closed cubic loop, a closed arc shorter than the tolerance (not closed), ends 0.0099 and
+    # 0.0101 mm apart (at the 0.01 mm tolerance), a zero-length line (left out), on the fixtures too
+    from pathlib import Path
+
+    from pathlen.contours import closed_segments, segment_ends
+    from pathlen.importers import read_drawing
+    from pathlen.instances import expand
+    from pathlen.segments import segment_endpoints, segment_midpoints
+
+    tol = 0.01
+    crafted = build([("A", "arc", circle(0, 0, 5)), ("A", "arc", ((20, 0), (0.001, 0), (0, 0.001), 0.0, 2 * math.pi)),
+                     ("A", "bezier", [(0, 0), (10, 10), (-10, 10), (0, 0)]),
+                     ("A", "bezier", [(0, 0), (10, 10), (-10, 10), (0.0099, 0)]),
+                     ("A", "bezier", [(0, 0), (10, 10), (-10, 10), (0.0101, 0)]),
+                     ("A", "polyline", [(3, 3), (3, 3), (4, 4)]), ("B", "arc", circle(7, 7, 1))])[0]
+    fixtures = Path(__file__).resolve().parent.parent / "fixtures"
+    drawings = [crafted] + [expand(read_drawing(fixtures / name)) for name in
+                            ("kl101_bracket.dxf", "kl214_gasket.dxf", "kl412_lamp_panel.svg")]
+    for drawing in drawings:
+        start, end, _ = segment_endpoints(drawing)
+        middle = segment_midpoints(drawing)
+        real = np.ones(len(start), dtype=bool)
+        real[: len(drawing.lines)] = np.any(drawing.lines.p0 != drawing.lines.p1, axis=1)
+        expected = closed_segments(start[real], end[real], middle[real], tol)
+        got = segment_ends(drawing, tol)[3]
+        assert np.array_equal(got, expected)
+        rows = np.flatnonzero(np.arange(len(start)) % 3 == 1)
+        assert np.array_equal(segment_midpoints(drawing, rows), middle[rows])
+    # rows: the line (3,3)-(4,4), then the arcs (circle, tiny circle, circle on B), then the cubics
+    assert segment_ends(crafted, tol)[3].tolist() == [False, True, False, True, True, True, False]
