@@ -50,7 +50,9 @@ def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -
     # narrow that cell numbers leave int64 (a tolerance far below the coordinates' rounding)
     floor = float(span.max()) * 2.0**-50 if len(axes) else 0.0
     for width in (max(_cell_width(span[axes], n, tol), floor), max(tol if tol > 0 else 1.0, floor)):
-        cell = np.floor(pts / width).astype(np.int64)
+        cell = np.empty(pts.shape, dtype=np.int64)
+        for axis in range(pts.shape[1]):  # a column at a time: no [n, d] temporaries
+            cell[:, axis] = np.floor(pts[:, axis] / width)
         keys = cell_keys(cell, group)
         order = np.argsort(keys, kind="stable")
         keys = keys[order]
@@ -59,9 +61,11 @@ def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -
     # one array reordered at a time (the unordered one freed before the next): the peak stays low
     cell = take_rows(cell, order)
     pts = take_rows(pts, order)
-    where = pts / width - cell  # position inside the cell, 0 .. 1 per axis
     margin = tol / width + 1e-9
-    near_low, near_high = where < margin, where > 1.0 - margin
+    near_low, near_high = np.empty(pts.shape, dtype=bool), np.empty(pts.shape, dtype=bool)
+    for axis in range(pts.shape[1]):
+        where = pts[:, axis] / width - cell[:, axis]  # position inside the cell, 0 .. 1
+        near_low[:, axis], near_high[:, axis] = where < margin, where > 1.0 - margin
     del where
     grp = group[order]
 
@@ -71,7 +75,11 @@ def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -
         keep = (np.einsum("ij,ij->i", d, d) <= tol * tol) & (grp[pairs[:, 0]] == grp[pairs[:, 1]])
         return pairs[keep]
 
-    found = [near(_pairs_in_same_cell(keys))]
+    def found_pairs(pairs: IntArray) -> IntArray:
+        """The pairs within reach as point indices, lower first (each batch alone: no copies of them all)."""
+        return np.sort(order[near(pairs)], axis=1)
+
+    found = [found_pairs(_pairs_in_same_cell(keys))]
     for off in _forward(cell.shape[1]):
         # only points within tol of the cell faces towards that neighbour can have a partner there
         mask = np.ones(n, dtype=bool)
@@ -82,8 +90,8 @@ def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -
         probe = cell_keys(cell[rows] + off, grp[rows])
         lo = np.searchsorted(keys, probe, side="left")
         hi = np.searchsorted(keys, probe, side="right")
-        found.append(near(expand_ranges(rows, lo, hi)))
-    return np.sort(order[np.concatenate(found)], axis=1)
+        found.append(found_pairs(expand_ranges(rows, lo, hi)))
+    return np.concatenate(found)
 
 
 def _cell_width(span: FloatArray, n: int, tol: float) -> float:

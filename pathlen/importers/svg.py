@@ -31,7 +31,7 @@ import defusedxml.ElementTree as SafeET
 import numpy as np
 
 from pathlen.errors import InputError
-from pathlen.geometry import Drawing, Entity, IntArray, SegmentCollector, affine
+from pathlen.geometry import Drawing, Entity, IntArray, SegmentCollector, affine, distinct
 from pathlen.importers.svg_css import Rule, cascade, parse_stylesheet
 from pathlen.importers.svg_markers import MARKABLE, OrderedSegments, marker_map
 from pathlen.importers.svg_markers import vertices as marker_vertices
@@ -190,8 +190,11 @@ def _parse_in_chunks(texts: list[str]) -> tuple[dict[str, Rows], np.ndarray]:
             found.setdefault(kind, []).append((r, owner + first, sub))
         oks.append(ok)
         first = last
-    merged = {k: (np.concatenate([r for r, _, _ in parts]), np.concatenate([o for _, o, _ in parts]),
-                  np.concatenate([s for _, _, s in parts])) for k, parts in found.items()}
+    merged = {}
+    for kind in list(found):  # a kind's batches let go once joined: never every kind twice at once
+        parts = found.pop(kind)
+        merged[kind] = tuple(np.concatenate([p[j] for p in parts]) for j in range(3))
+        del parts
     return merged, np.concatenate(oks) if oks else np.zeros(0, dtype=bool)
 
 
@@ -846,7 +849,8 @@ class _Importer:
             raise InputError(f"more than {MAX_SEGMENTS:,} segments after expanding <use>; file refused")
         rank, extra_rows = self.closed_subpaths(texts, rows, copy_of, entity)
         copies = np.arange(len(copy_of))
-        for kind, (r, owner, _) in rows.items():
+        for kind in list(rows):  # each kind's parsed rows go once copied to the canvas
+            r, owner, _ = rows.pop(kind)
             order = np.argsort(owner, kind="stable")  # rows of each distinct path together
             first = (np.cumsum(counts[kind]) - counts[kind])[copy_of]
             n = counts[kind][copy_of]
@@ -866,8 +870,14 @@ class _Importer:
 
         Returns per kind the rank of each row's subpath among its path's drawn subpaths (0 for a
         path not split), and per drawn copy the entity row of its second subpath."""
-        pairs = np.concatenate([np.stack([o, s], axis=1) for _, o, s in rows.values()]) if rows else np.zeros((0, 2))
-        unique, inverse = np.unique(pairs.astype(np.int64), axis=0, return_inverse=True)
+        # (path, subpath) pairs as one number each, sorted and made distinct (as np.unique's rows, in a
+        # quarter of its memory): path * top + subpath, top above every subpath number
+        top = 1 + max((int(sub.max()) for _, _, sub in rows.values() if len(sub)), default=0)
+        pair = np.concatenate([owner.astype(np.int64) * top + sub for _, owner, sub in rows.values()]) if rows \
+            else np.zeros(0, dtype=np.int64)
+        pair, inverse = distinct(pair, return_inverse=True)
+        unique = np.stack([pair // top, pair % top], axis=1)
+        del pair
         path_of = unique[:, 0]
         drawn = np.bincount(path_of, minlength=len(texts))
         lead = np.searchsorted(path_of, path_of)  # first drawn subpath of the same path

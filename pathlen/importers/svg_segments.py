@@ -114,12 +114,14 @@ CONVERT_RUN = 1 << 16
 
 def to_drawing(raw: RawSegments, transforms: np.ndarray, entities: list[Entity]) -> Drawing:
     """Apply each row's transform (``transforms[k]`` = a b c d e f, user units -> mm) and build a Drawing
-    (:data:`CONVERT_RUN` rows at a time)."""
+    (:data:`CONVERT_RUN` rows at a time).  ``raw`` is emptied: each kind's rows go once converted."""
     def table(kind: str) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         width = ROW_WIDTH[kind]
         rows = np.frombuffer(raw.rows[kind], dtype=float).reshape(-1, width)
         ent = np.frombuffer(raw.entity[kind], dtype=np.int64)
-        return rows, ent, np.frombuffer(raw.transform[kind], dtype=np.int64)
+        which = np.frombuffer(raw.transform[kind], dtype=np.int64)
+        raw.rows[kind], raw.entity[kind], raw.transform[kind] = array("d"), array("q"), array("q")
+        return rows, ent, which
 
     rows, ent, which = table("line")
     rows_a, ent_a, which_a = table("arc")
