@@ -85,3 +85,28 @@ def test_heap_handed_back_after_steps_on_big_drawings_only(monkeypatch):
     batch.give_back_heap(batch.BIG_DRAWING_SEGMENTS - 1)
     batch.give_back_heap(batch.BIG_DRAWING_SEGMENTS)
     assert calls == [("malloc_trim", (0,))]
+
+
+def marking_work(path: str, settings: MeasureSettings) -> FileResult:
+    """Measures the file after leaving a mark beside it: shows when a worker took it."""
+    with open(path + ".taken", "w"):
+        pass
+    return measure_file(path, settings)
+
+
+@pytest.mark.parametrize("jobs", [1, 2])
+def test_workers_take_their_first_files_before_the_results_are_asked_for(tmp_path, jobs):
+    # run_batch hands each worker its first file before it returns: the caller's own start-up (the
+    # report's libraries) overlaps the work; every file is still answered once, in the queue's order
+    paths = [str(line_dxf(tmp_path / f"part{i}.dxf")) for i in range(3)]
+    told: list[int] = []
+    batch = run_batch(paths, MeasureSettings(), jobs, marking_work, FileResult, started=told.append)
+    assert told == list(range(jobs))
+    deadline = time.monotonic() + 30.0
+    while not all(os.path.exists(p + ".taken") for p in paths[:jobs]) and time.monotonic() < deadline:
+        time.sleep(0.01)
+    assert all(os.path.exists(p + ".taken") for p in paths[:jobs])  # taken without a result asked for
+    assert not os.path.exists(paths[2] + ".taken")
+    results = dict(batch)
+    assert sorted(results) == [0, 1, 2] and told == [0, 1, 2]
+    assert all(r.ok and r.length_mm == 10.0 for r in results.values())
