@@ -21,6 +21,8 @@ from pathlen.geometry import FloatArray, IntArray, take_rows
 FEW_POINTS = 128
 #: Most points in one cell before the grid falls back to cells one tolerance wide.
 CROWDED = 32
+#: Candidate pairs tested at a time (their distances' temporaries stay bounded).
+PAIR_BATCH = 1 << 16
 
 
 def _forward(d: int) -> IntArray:
@@ -50,7 +52,9 @@ def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -
     # narrow that cell numbers leave int64 (a tolerance far below the coordinates' rounding)
     floor = float(span.max()) * 2.0**-50 if len(axes) else 0.0
     for width in (max(_cell_width(span[axes], n, tol), floor), max(tol if tol > 0 else 1.0, floor)):
-        cell = np.empty(pts.shape, dtype=np.int64)
+        # int32 cell numbers where they fit (half the memory): pts / width is at most span / width
+        small = len(axes) == 0 or float(span[axes].max()) / width < 2.0**31 - 2
+        cell = np.empty(pts.shape, dtype=np.int32 if small else np.int64)
         for axis in range(pts.shape[1]):  # a column at a time: no [n, d] temporaries
             cell[:, axis] = np.floor(pts[:, axis] / width)
         keys = cell_keys(cell, group)
@@ -76,8 +80,9 @@ def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -
         return pairs[keep]
 
     def found_pairs(pairs: IntArray) -> IntArray:
-        """The pairs within reach as point indices, lower first (each batch alone: no copies of them all)."""
-        return np.sort(order[near(pairs)], axis=1)
+        """The pairs within reach as point indices, lower first (:data:`PAIR_BATCH` candidates at a time)."""
+        return np.concatenate([np.sort(order[near(pairs[k:k + PAIR_BATCH])], axis=1)
+                               for k in range(0, max(len(pairs), 1), PAIR_BATCH)])
 
     found = [found_pairs(_pairs_in_same_cell(keys))]
     for off in _forward(cell.shape[1]):
