@@ -55,6 +55,23 @@ def test_crowded_cluster_and_sparse_points():
     assert ours == ref and len(ref) > 100
 
 
+@pytest.mark.parametrize(("span", "tol"), [(40.0, 0.5), (4e6, 1e-6)])
+def test_close_pairs_in_small_batches_and_wide_cell_numbers(monkeypatch, span, tol):
+    # candidates tested a few at a time give the pairs of one pass; a grid whose cell numbers pass
+    # int32 (4 km at a micrometre: 4e12 cells) still finds every pair (reference: scipy cKDTree)
+    import pathlen.proximity as proximity
+
+    rng = np.random.default_rng(11)
+    p = np.zeros((3000, 3))
+    p[:, :2] = rng.uniform(0, span, (3000, 2))
+    p = np.concatenate([p, p[:1500] + rng.normal(0, tol / 2, (1500, 3)) * [1, 1, 0]])
+    ref = {tuple(sorted(x)) for x in cKDTree(p).query_pairs(tol, output_type="ndarray")}
+    whole = close_pairs(p, tol)
+    monkeypatch.setattr(proximity, "PAIR_BATCH", 7)
+    batched = close_pairs(p, tol)
+    assert np.array_equal(whole, batched) and {tuple(x) for x in whole} == ref and len(ref) > 500
+
+
 @given(st.lists(st.integers(-5, 5), max_size=60), st.sampled_from(["int64", "S3"]))
 def test_distinct_is_numpys_unique(values, dtype):
     # pathlen.geometry.distinct replaces np.unique on big arrays (sorting, not hashing): the reference is
