@@ -314,3 +314,23 @@ def test_texts_cut_out_one_by_one_equal_those_gathered_at_once():
     for index in (np.array([0]), np.zeros(FEW_TEXTS + 1, dtype=np.int64)):
         with pytest.raises(NotPlain):
             bad.texts(index)
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(st.binary(max_size=8).map(lambda b: bytes(b" 0123456789+-_a\t"[x % 16] for x in b)), max_size=40))
+def test_group_code_lines_read_as_spaces_then_digits(lines):
+    # DXF reference (Group codes): a group code line holds an integer; read here as optional leading
+    # spaces, then digits, at most CODE_WIDTH characters; anything else (a sign, an underscore, a tab,
+    # a letter, spaces after the digits, an empty line) is no code (-1).  Reference: Python's own
+    # int() on the lines that rule admits.
+    from pathlen.importers.dxf_tags import CODE_WIDTH, MAX_GROUP_CODE, PADDING, NotPlain, _group_codes
+
+    data = bytearray(b"\n".join(lines) + b"\n" + bytes(PADDING))
+    starts = np.cumsum([0] + [len(line) + 1 for line in lines[:-1]]).astype(np.int64)
+    ends = starts + np.array([len(line) for line in lines], dtype=np.int64)
+    expected = [int(t) if 0 < len(t) <= CODE_WIDTH and t.lstrip(b" ").isdigit() else -1 for t in lines]
+    if max(expected, default=-1) > MAX_GROUP_CODE:  # beyond the codes the reference lists: refused
+        with pytest.raises(NotPlain):
+            _group_codes(data, starts[: len(lines)], ends)
+    else:
+        assert _group_codes(data, starts[: len(lines)], ends).tolist() == expected

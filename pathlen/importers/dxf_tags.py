@@ -265,18 +265,21 @@ def _check_points_and_binary(data: bytes, codes: NDArray[np.int16], start: NDArr
 def _group_codes(data: bytearray, start: NDArray[np.int64], end: NDArray[np.int64]) -> NDArray[np.int16]:
     """Integer group codes; -1 where the line is not optional spaces followed by digits."""
     out = np.full(len(start), -1, dtype=np.int16)
-    powers = 10 ** np.arange(CODE_WIDTH - 1, -1, -1, dtype=np.int32)
+    raw = np.frombuffer(data, dtype=np.uint8)
     for lo in range(0, len(start), CHUNK):
         s, e = start[lo:lo + CHUNK], end[lo:lo + CHUNK]
         length = e - s
-        chars = windows(data, np.maximum(e - CODE_WIDTH, 0), CODE_WIDTH)  # the bytes before each line end
-        chars[np.arange(CODE_WIDTH - 1, -1, -1) >= length[:, None]] = 32
-        digit = (chars >= 48) & (chars <= 57)
-        # spaces then digits: once a digit is seen every later byte is a digit; at least one digit
-        monotone = np.all(digit[:, 1:] >= digit[:, :-1], axis=1) & digit[:, -1]
-        spaces_only = np.all(digit | (chars == 32), axis=1)
-        value = ((chars.astype(np.int32) - 48) * digit * powers).sum(axis=1)
-        ok = (length <= CODE_WIDTH) & (length > 0) & monotone & spaces_only
+        first = np.maximum(e - CODE_WIDTH, 0)  # the CODE_WIDTH bytes before each line end, a column at a time
+        value = np.zeros(len(s), dtype=np.int32)
+        digits = np.zeros(len(s), dtype=bool)  # a digit seen so far
+        ok = (length <= CODE_WIDTH) & (length > 0)
+        for k in range(CODE_WIDTH):
+            byte = np.where(CODE_WIDTH - 1 - k < length, raw[first + k], 32)  # before the line: a space
+            digit = (byte >= 48) & (byte <= 57)
+            ok &= digit | ((byte == 32) & ~digits)  # spaces then digits, nothing else
+            digits |= digit
+            value = value * 10 + np.where(digit, byte - 48, 0)
+        ok &= digits  # at least one digit (so the last byte is one)
         value = np.where(ok, value, -1)
         for k in np.flatnonzero(e < CODE_WIDTH).tolist():  # a line near the start of the file
             text = bytes(data[s[k]:e[k]])
@@ -309,11 +312,12 @@ def _numbers(data: bytearray, codes: NDArray[np.int16], start: NDArray[np.int64]
         rows = numeric[lo:lo + CHUNK]
         s, e = start[rows], end[rows]
         wide = e - s > NUMBER_WIDTH
-        chars = windows(data, s, NUMBER_WIDTH, e - s)
+        width = min(NUMBER_WIDTH, max(int((e - s).max()), 1))  # no wider than the longest (short in most files)
+        chars = windows(data, s, width, e - s)
         if not (_NUMBER_BYTES[chars] | (chars == 0)).all():
             raise NotPlain("a number with characters other than digits, sign, point and exponent")
         try:
-            values = chars.view(f"S{NUMBER_WIDTH}").ravel().astype(np.float64)
+            values = chars.view(f"S{width}").ravel().astype(np.float64)
             for k in np.flatnonzero(wide).tolist():
                 values[k] = float(data[s[k]:e[k]])
         except ValueError:
