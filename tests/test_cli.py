@@ -245,6 +245,32 @@ def test_the_group_lists_every_command_with_its_own_summary():
         assert command.get_short_help_str(limit=45) == summary, name
 
 
+def test_program_ends_at_once_after_a_batch_with_the_same_output_and_status(tmp_path, runner):
+    # the pathlen program skips the interpreter's teardown after measure, cut, seam and bead: the report,
+    # the warnings and the exit status (1: a file failed) are those of ``python -m pathlen``, which
+    # ends the usual way, and of the same command in process; other commands end the usual way
+    import json
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    from pathlen.cli import QUICK_EXIT, main
+
+    bad = tmp_path / "broken.dxf"
+    bad.write_text("0\nSECTION\n2\nENTITIES\n0\nLINE\n")
+    args = ["measure", "--format", "json", str(FIXTURES / "kl101_bracket.dxf"), str(bad)]
+    program = Path(sys.executable).parent / "pathlen"
+    quick = subprocess.run([str(program), *args], capture_output=True, text=True, timeout=120)
+    usual = subprocess.run([sys.executable, "-m", "pathlen", *args], capture_output=True, text=True, timeout=120)
+    here = runner.invoke(main, args)
+    assert quick.returncode == usual.returncode == here.exit_code == 1
+    assert json.loads(quick.stdout) == json.loads(usual.stdout) == json.loads(here.stdout)
+    assert quick.stderr == usual.stderr
+    listed = subprocess.run([str(program), "profiles"], capture_output=True, text=True, timeout=120)
+    assert listed.returncode == 0 and "profiles" not in QUICK_EXIT and listed.stdout.strip()
+    assert QUICK_EXIT == {"measure", "cut", "seam", "bead"}
+
+
 def test_help_starts_without_numpy():
     import subprocess
     import sys
