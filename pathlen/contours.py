@@ -83,10 +83,9 @@ def count_ends(ends: list[np.ndarray], entities: list[Entity], join_tol: float =
     group = join_groups(seg_layer, ent, entities, shut)
     del seg_layer, ent
     flat = not (start[:, 2].any() or end[:, 2].any())  # a flat drawing (every z zero) is joined in x, y
-    points = np.concatenate([start[:, :2], end[:, :2]] if flat else [start, end])
-    del start, end
-    node = join_nodes(points, np.concatenate([group, group]), join_tol, shut)
-    del points, group
+    owned = [np.concatenate([start[:, :2], end[:, :2]] if flat else [start, end]), np.concatenate([group, group])]
+    del start, end, group
+    node = _join_nodes(owned, join_tol, shut)
     a, b = node[:n], node[n:]
     comp = components(node.max() + 1, a, b)
     degree = np.bincount(a, minlength=node.max() + 1) + np.bincount(b, minlength=node.max() + 1)
@@ -181,7 +180,7 @@ def chain_contours(table: SegmentTable, layer: IntArray, join_tol: float = DEFAU
     start, end = take_rows(table.start, rows), take_rows(table.end, rows)
     shut = closed_segments(start, end, take_rows(table.middle, rows), join_tol)
     group = join_groups(layer[rows], table.entity[rows], table.drawing.entities, shut)
-    node = join_nodes(np.concatenate([start, end]), np.concatenate([group, group]), join_tol, shut)
+    node = _join_nodes([np.concatenate([start, end]), np.concatenate([group, group])], join_tol, shut)
     node_of = np.stack([node[:k], node[k:]], axis=1)  # [k, 2]: node at start, at end
     nodes = int(node.max()) + 1
     degree = np.bincount(node, minlength=nodes)
@@ -215,16 +214,27 @@ def join_nodes(points: FloatArray, groups: IntArray, tol: float, closed: NDArray
     Memory: a few arrays of one number per point at a time (columns are hashed and compared one by
     one); the pairs within ``tol`` are searched among places, not points.
     """
+    return _join_nodes([points, groups], tol, closed)
+
+
+def _join_nodes(owned: list[np.ndarray], tol: float, closed: NDArray[np.bool_] | None = None) -> IntArray:
+    """:func:`join_nodes` of ``owned = [points, groups]``, which it empties: once the places are known the
+    points and groups go (only one point and group per place is kept), when the caller holds no other
+    reference to them."""
+    points, groups = owned
+    owned.clear()
     n = len(points) // 2
     order, new = equal_rows([groups, *(points[:, k] for k in range(points.shape[1]))])
     first = order[new]  # one point of each place (index into points), places in sorted order
     place = np.empty(len(points), dtype=np.int64)
     place[order] = np.cumsum(new) - 1
     del order, new
-    places = len(first)
+    at, at_group = take_rows(points, first), groups[first]  # each place's point and group
+    del points, groups, first
+    places = len(at)
     loose = np.bincount(place, minlength=places) % 2 == 1
     shut = np.zeros(n, dtype=bool) if closed is None else closed
-    src, dst = _nearest_partners(points, groups, first, loose, place, shut, tol)
+    src, dst = _nearest_partners(at, at_group, loose, place, shut, tol)
     label = components(places, np.r_[src, place[:n][shut]], np.r_[dst, place[n:][shut]])
     return label[place]
 
@@ -265,19 +275,19 @@ def _differs_from_previous(columns: list[NDArray], order: IntArray) -> NDArray[n
     return new
 
 
-def _nearest_partners(points: FloatArray, groups: IntArray, first: IntArray, loose: NDArray[np.bool_],
-                      place: IntArray, shut: NDArray[np.bool_], tol: float) -> tuple[IntArray, IntArray]:
-    """Edges (loose place, its nearest allowed place within ``tol``, same group): a segment's own two
-    places are never a pair, unless it is ``shut``."""
+def _nearest_partners(at: FloatArray, at_group: IntArray, loose: NDArray[np.bool_], place: IntArray,
+                      shut: NDArray[np.bool_], tol: float) -> tuple[IntArray, IntArray]:
+    """Edges (loose place, its nearest allowed place within ``tol``, same group) among the places at
+    points ``at`` of groups ``at_group``: a segment's own two places are never a pair, unless it is ``shut``."""
     none = np.zeros(0, dtype=np.int64)
     if not np.any(loose) or tol <= 0:
         return none, none
-    pairs = close_pairs(points[first], tol, groups[first])
+    pairs = close_pairs(at, tol, at_group)
     a, b = pairs[:, 0], pairs[:, 1]
     del pairs
     n = len(shut)
     # a segment's own two ends never join: drop pairs of places it links (such a segment has a loose end)
-    places = len(first)
+    places = len(at)
     ends = np.flatnonzero(~shut & (loose[place[:n]] | loose[place[n:]]))
     own = np.sort(np.minimum(place[ends], place[n + ends]) * places + np.maximum(place[ends], place[n + ends]))
     allowed = ~_sorted_contains(own, np.minimum(a, b) * places + np.maximum(a, b)) & (loose[a] | loose[b])
@@ -286,7 +296,7 @@ def _nearest_partners(points: FloatArray, groups: IntArray, first: IntArray, loo
     src, dst = np.concatenate([a, b]), np.concatenate([b, a])
     keep = loose[src]
     src, dst = src[keep], dst[keep]
-    dist = np.linalg.norm(points[first[src]] - points[first[dst]], axis=1)
+    dist = np.linalg.norm(at[src] - at[dst], axis=1)
     pick = np.lexsort((dst, dist, src))
     best = pick[np.r_[True, src[pick][1:] != src[pick][:-1]]] if len(pick) else pick
     return src[best], dst[best]
