@@ -84,7 +84,7 @@ def measure(drawing: Drawing, rtol: float = DEFAULT_RTOL, _cache: dict | None = 
 
 #: Curves measured at a time: the integrators' temporaries (a few hundred bytes a curve) stay bounded
 #: whatever the drawing's size.  Each curve is measured alone, so runs change no result.
-MEASURE_RUN = 1 << 16
+MEASURE_RUN = 1 << 14
 
 _Batch = TypeVar("_Batch", EllipticArcs, Beziers)
 
