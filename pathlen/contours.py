@@ -247,9 +247,10 @@ def equal_rows(columns: list[NDArray]) -> tuple[IntArray, NDArray[np.bool_]]:
     A hash of each row's bits is sorted (a column at a time: one number per row in memory at once);
     should two different rows share a hash, the rows are sorted by value instead.  (``np.unique``
     with ``axis=0`` sorts the rows as bytes: several times slower, and -0.0 is not +0.0 there.)"""
-    order = np.argsort(_row_keys(columns))
+    key = _row_keys(columns)
+    order = np.argsort(key)
+    key = key[order]
     new = _differs_from_previous(columns, order)
-    key = _row_keys(columns)[order]
     if np.any(new[1:] & (key[1:] == key[:-1])):  # different rows share a hash
         order = np.lexsort(columns[::-1])
         new = _differs_from_previous(columns, order)
