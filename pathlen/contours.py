@@ -13,7 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from pathlen.geometry import Drawing, Entity, FloatArray, IntArray, take_rows
+from pathlen.geometry import Drawing, Entity, FloatArray, IntArray, keep_rows, take_rows
 from pathlen.proximity import close_pairs, components
 from pathlen.segments import SegmentTable, entity_layers, segment_endpoints, segment_midpoints
 
@@ -50,11 +50,12 @@ def segment_ends(drawing: Drawing, join_tol: float = DEFAULT_JOIN_TOL_MM) -> lis
     real[: len(lines)] = np.any(lines.p0 != lines.p1, axis=1)
     # only a segment whose ends meet may close on itself: the middles of those alone (a few whole circles
     # where a million segments would each make a middle and its temporaries); the test there is exact
-    meet = np.flatnonzero(real & ends_may_meet(start, end, join_tol))
+    meets = real & ends_may_meet(start, end, join_tol)
+    meet = np.flatnonzero(meets)
     shut = np.zeros(len(ent), dtype=bool)
     if len(meet):
-        shut[meet] = closed_segments(take_rows(start, meet), take_rows(end, meet), segment_midpoints(drawing, meet),
-                                     join_tol)
+        middle = segment_midpoints(keep_rows(drawing, meets))  # of those rows, in table order
+        shut[meet] = closed_segments(take_rows(start, meet), take_rows(end, meet), middle, join_tol)
     if not real.all():
         start, end, ent, shut = start[real], end[real], ent[real], shut[real]
     return [start, end, ent, shut]

@@ -17,7 +17,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from pathlen.geometry import Drawing, EllipticArcs, FloatArray, IntArray, take_rows
+from pathlen.geometry import Drawing, FloatArray, IntArray, take_rows
 from pathlen.measure import Measurement
 
 #: Sample points per segment in :meth:`SegmentTable.samples` (both ends included).
@@ -207,31 +207,15 @@ def segment_endpoints(drawing: Drawing) -> tuple[FloatArray, FloatArray, IntArra
     return np.concatenate(starts), np.concatenate(ends), np.concatenate(ents)
 
 
-def segment_midpoints(drawing: Drawing, rows: IntArray | None = None) -> FloatArray:
-    """Each segment's point at mid-parameter, in table row order; ``rows`` (ascending table rows): those
-    segments' only."""
+def segment_midpoints(drawing: Drawing) -> FloatArray:
+    """Each segment's point at mid-parameter, in table row order."""
     arcs = drawing.arcs
-    kinds = [drawing.lines, arcs, *(drawing.beziers[d] for d in sorted(drawing.beziers))]
-    first = np.cumsum([0, *(len(k) for k in kinds)])
-    if rows is None:
-        rows = np.arange(first[-1])
-    cut = np.searchsorted(rows, first)  # where each kind's rows begin among ``rows``
-    out = np.empty((len(rows), 3))
+    mids = [0.5 * (drawing.lines.p0 + drawing.lines.p1), arcs.points(0.5 * (arcs.t0 + arcs.t1))]
     half = np.array([0.5])
-    for k, kind in enumerate(kinds):
-        at = slice(cut[k], cut[k + 1])
-        r = rows[at] - first[k]
-        if len(r) == 0:
-            continue
-        if k == 0:
-            out[at] = 0.5 * (take_rows(kind.p0, r) + take_rows(kind.p1, r))
-        elif k == 1:
-            part = EllipticArcs(take_rows(arcs.center, r), take_rows(arcs.u, r), take_rows(arcs.v, r), arcs.t0[r],
-                                arcs.t1[r], arcs.entity[r])
-            out[at] = part.points(0.5 * (part.t0 + part.t1))
-        else:
-            out[at] = _bezier_points(kind, r, half)[:, 0]
-    return out
+    for degree in sorted(drawing.beziers):
+        b = drawing.beziers[degree]
+        mids.append(_bezier_points(b, np.arange(len(b)), half)[:, 0])
+    return np.concatenate(mids)
 
 
 def segment_table(drawing: Drawing, measured: Measurement) -> SegmentTable:
