@@ -137,7 +137,7 @@ def _application_groups(tags: TagTable, owner: NDArray[np.int32]) -> NDArray[np.
         raise NotPlain("nested or unbalanced application groups")
     inside = depth > 0
     inside[marks[closes]] = True
-    if (owner[marks[opens]] != owner[np.minimum(marks[opens] + 1, len(owner) - 1)]).any() or np.any(
-            inside[tags.codes == 0]):
+    if (owner[marks[opens]] != owner[np.minimum(marks[opens] + 1, len(owner) - 1)]).any() or \
+            inside[tags.codes == 0].any():
         raise NotPlain("an application group that is not closed in its entity")
     return inside

@@ -307,7 +307,7 @@ def _numbers(data: bytearray, codes: NDArray[np.int16], start: NDArray[np.int64]
              end: NDArray[np.int64]) -> NDArray[np.float64]:
     """Values of the numeric codes as floats (NaN for other tags), parsed as Python's float() does."""
     number = np.full(len(codes), np.nan)
-    numeric = np.flatnonzero(NUMERIC_CODES[np.minimum(codes, len(NUMERIC_CODES) - 1)])
+    numeric = np.flatnonzero(has_code(codes, NUMERIC_CODES))
     for lo in range(0, len(numeric), CHUNK):
         rows = numeric[lo:lo + CHUNK]
         s, e = start[rows], end[rows]
@@ -323,6 +323,6 @@ def _numbers(data: bytearray, codes: NDArray[np.int16], start: NDArray[np.int64]
         except ValueError:
             raise NotPlain("a number that cannot be read") from None
         number[rows] = values
-    if not np.isfinite(number[numeric][INTEGER_CODES[np.minimum(codes[numeric], len(INTEGER_CODES) - 1)]]).all():
+    if not np.isfinite(number[numeric][has_code(codes[numeric], INTEGER_CODES)]).all():
         raise NotPlain("an integer code whose value is not a finite number")
     return number
