@@ -9,16 +9,10 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-import numpy as np
-
-from pathlen import BLAS_THREAD_VARIABLES
-from pathlen.contour_tree import count_placed, visible_ends
-from pathlen.contours import DEFAULT_JOIN_TOL_MM, count_ends
+from pathlen import BLAS_THREAD_VARIABLES, head_start
+from pathlen.defaults import DEFAULT_JOIN_TOL_MM, DEFAULT_MAX_SEGMENTS, DEFAULT_RTOL
 from pathlen.errors import PathlenError, UsageError
-from pathlen.geometry import Drawing
-from pathlen.importers import SUFFIXES, ImportOptions, load_readers, read_drawing
-from pathlen.instances import DEFAULT_MAX_SEGMENTS, TooManySegments, segment_total
-from pathlen.measure import DEFAULT_RTOL, measure
+from pathlen.importers import SUFFIXES, ImportOptions, load_readers
 
 
 @dataclass(frozen=True)
@@ -100,7 +94,7 @@ def one_line_failure(path: str, work: Callable[[], Any], failed: Callable[..., A
         return failed(path, ok=False, error=str(exc))
     except MemoryError:
         doing = f" while {_stage[-1]}" if _stage else ""
-        return failed(path, ok=False, error=f"needed more than {_limit_phrase()}{doing}", environment=True)
+        return failed(path, ok=False, error=f"needed more than {limit_phrase()}{doing}", environment=True)
     except RecursionError:
         return failed(path, ok=False, error="structure nested too deeply")
     except Exception as exc:  # noqa: BLE001 - one bad file must not stop the batch
@@ -129,7 +123,8 @@ def stage(doing: str) -> Iterator[None]:
     _stage.pop()
 
 
-def _limit_phrase() -> str:
+def limit_phrase() -> str:
+    """What ran short when memory did: the per-file limit (with its option) or the memory available."""
     if _memory_limit_mb:
         return f"the memory limit of {_memory_limit_mb:,} MB per file (--max-memory)"
     return "the memory available"
@@ -137,82 +132,9 @@ def _limit_phrase() -> str:
 
 def measure_file(path: str, settings: MeasureSettings = MeasureSettings()) -> FileResult:
     """Measure one file; never raises for bad input (the error goes in the result)."""
-    return one_line_failure(path, lambda: _measure_file(path, settings), FileResult)
+    from pathlen.file_measure import measure_one  # numpy and the measuring modules: loaded in the worker
 
-
-def _measure_file(path: str, settings: MeasureSettings) -> FileResult:
-    with stage("reading the drawing"):
-        drawing = read_drawing(Path(path), settings.import_options)
-    total = segment_total(drawing)
-    give_back_heap(total)
-    with stage(f"measuring {total:,} segments"):
-        result = measure(drawing, settings.rtol)
-    entity_length, entity_bound, unconverged = result.entity_length, result.entity_bound, result.unconverged
-    del result  # its lengths per segment are summed into the entities'
-    give_back_heap(total)
-    all_entities, recovered = drawing.entities, drawing.recovered
-    warnings = list(drawing.warnings)
-    shown = np.array([not e.hidden for e in all_entities], dtype=bool)
-    warnings.extend(hidden_note(drawing, entity_length))
-    try:
-        if drawing.placements:
-            contours = count_placed(drawing, settings.join_tol_mm, settings.max_segments)
-        else:  # the segments' ends in hand, the drawing's geometry goes before counting's working arrays come
-            ends = visible_ends(drawing, settings.join_tol_mm)
-            del drawing
-            give_back_heap(total)
-            contours = count_ends(ends, all_entities, settings.join_tol_mm)
-    except TooManySegments as exc:
-        contours = None
-        warnings.append(f"contours not counted: {exc}; lengths are exact all the same")
-    except MemoryError:  # the lengths are in hand: keep them, say what is missing
-        contours = None
-        warnings.append(f"contours not counted: writing out {total:,} segments needed more than "
-                        f"{_limit_phrase()}; lengths are exact all the same (--max-segments lowers the count tried)")
-    entities = [e for e, s in zip(all_entities, shown.tolist(), strict=True) if s]
-    length, bound = entity_length[shown], entity_bound[shown]
-    copies = [e.copies for e in entities]
-    layers = _totals_by([e.layer for e in entities], length, bound, copies)
-    colors = _totals_by([e.color for e in entities], length, bound, copies)
-    colors.pop("", None)
-    if not entities:
-        warnings.append("nothing measurable in this drawing: no lines, arcs or curves where they are drawn")
-    if unconverged:
-        warnings.append(f"{unconverged} integration intervals did not reach the tolerance; "
-                        "their error is included in the bound")
-    return FileResult(
-        path, ok=True, length_mm=float(np.sum(length)), bound_mm=float(np.sum(bound)), layers=layers, colors=colors,
-        closed=contours.closed if contours else 0, open=contours.open if contours else 0,
-        contours_counted=contours is not None, recovered=recovered, warnings=warnings,
-    )
-
-
-def hidden_note(drawing: Drawing, entity_length: np.ndarray) -> list[str]:
-    """Warnings naming the layers switched off or frozen and the length left out on them (mm), and
-    the length inside block references on frozen layers (hidden whatever their own layers)."""
-    out = []
-    frozen = [i for i, e in enumerate(drawing.entities) if e.hidden and e.frozen]
-    hidden = [i for i, e in enumerate(drawing.entities) if e.hidden and not e.frozen]
-    if hidden:
-        names = sorted({drawing.entities[i].layer for i in hidden})
-        left_out = float(np.sum(entity_length[hidden]))
-        shown = ", ".join(repr(n) for n in names[:10]) + (f" and {len(names) - 10} more" if len(names) > 10 else "")
-        out.append(f"layer{'s' if len(names) > 1 else ''} {shown} off or frozen: {left_out:.3f} mm on "
-                   f"{'them' if len(names) > 1 else 'it'} not measured (--hidden-layers includes them)")
-    if frozen:
-        out.append(f"{float(np.sum(entity_length[frozen])):.3f} mm inside block references on frozen layers not "
-                   "measured (a frozen INSERT hides its whole block; --hidden-layers includes it)")
-    return out
-
-
-def _totals_by(keys: list[str], length: np.ndarray, bound: np.ndarray, copies: list[int]) -> dict[str, LayerTotal]:
-    """Per-key sums of entity lengths, bounds and counts (each entity counted ``copies`` times), keys sorted."""
-    names, index = np.unique(np.array(keys, dtype=object), return_inverse=True) if keys else ([], [])
-    lengths = np.bincount(index, weights=length, minlength=len(names))
-    bounds = np.bincount(index, weights=bound, minlength=len(names))
-    counts = np.bincount(index, weights=np.array(copies, dtype=float), minlength=len(names))
-    rows = zip(names, lengths, bounds, counts, strict=True)
-    return {str(n): LayerTotal(float(a), float(b), int(c)) for n, a, b, c in rows}
+    return one_line_failure(path, lambda: measure_one(path, settings), FileResult)
 
 
 def single_blas_thread() -> None:
@@ -374,16 +296,45 @@ def _worker(conn: Any, work: Callable[[str, Any], Any], settings: Any, limits: L
         conn.send((index, result))
 
 
+def serve_adopted(conn: Any, parent: int, kinds: tuple[str, ...]) -> None:
+    """A worker forked before its batch was known (:mod:`pathlen.head_start`): tied to its parent, it loads
+    the readers of ``kinds`` and the measuring modules, then waits for ``(work, settings, limits,
+    own_threads)`` and serves as :func:`_worker` does; it ends if the parent sends nothing (or ``None``)."""
+    global _PARENT
+    _PARENT = parent
+    tie_to_parent()
+    load_readers(kinds)
+    import pathlen.file_measure  # noqa: F401 - numpy and the measuring modules, which every batch's work uses
+    try:
+        setup = conn.recv()
+    except (EOFError, OSError):
+        return
+    if setup is not None:
+        _worker(conn, *setup, parent, kinds)
+
+
 class _Slot:
-    """One worker process and the file it is working on."""
+    """One worker process and the file it is working on: forked now, or ``adopted`` (a worker forked
+    earlier by :mod:`pathlen.head_start`, ``(process, connection)``) and sent its work."""
 
     def __init__(self, ctx: Any, work: Callable[[str, Any], Any], settings: Any, limits: Limits,
-                 own_threads: bool, kinds: tuple[str, ...] = SUFFIXES) -> None:
-        self.conn, child = ctx.Pipe()
-        self.process = ctx.Process(target=_worker, args=(child, work, settings, limits, own_threads, os.getpid(),
-                                                         kinds), daemon=True)
-        self.process.start()
-        child.close()
+                 own_threads: bool, kinds: tuple[str, ...] = SUFFIXES, adopted: tuple[Any, Any] | None = None
+                 ) -> None:
+        if adopted is not None:
+            self.process, self.conn = adopted
+            try:
+                self.conn.send((work, settings, limits, own_threads))
+            except Exception:  # noqa: BLE001 - work that cannot be sent (a closure): a worker forked here instead
+                self.process.kill()
+                self.process.join()
+                self.conn.close()
+                adopted = None
+        if adopted is None:
+            self.conn, child = ctx.Pipe()
+            self.process = ctx.Process(target=_worker, args=(child, work, settings, limits, own_threads,
+                                                             os.getpid(), kinds), daemon=True)
+            self.process.start()
+            child.close()
         self.index: int | None = None
         self.started = 0.0
 
@@ -439,7 +390,8 @@ def run_batch(paths: list[str], settings: Any, jobs: int = 1,
     ctx = multiprocessing.get_context("fork")
     kinds = tuple(sorted({Path(p).suffix.lower() for p in paths}))
     spawn = lambda: _Slot(ctx, work, settings, limits, own_threads=workers == 1, kinds=kinds)  # noqa: E731
-    slots = [spawn() for _ in range(workers)]
+    early = head_start.take()  # forked as the program started, if it was
+    slots = [_Slot(ctx, work, settings, limits, workers == 1, kinds, early)] + [spawn() for _ in range(workers - 1)]
     queue = _queue(len(paths))
     _hand_out(slots, queue, paths, started, stop)  # now: what the caller does before it asks for results overlaps
     return _drive(paths, slots, spawn, failed, limits, started=started, stop=stop, queue=queue)

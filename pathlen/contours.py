@@ -13,12 +13,11 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
+from pathlen.defaults import DEFAULT_JOIN_TOL_MM
 from pathlen.geometry import Drawing, Entity, FloatArray, IntArray, keep_rows, take_rows
 from pathlen.proximity import close_pairs, components
 from pathlen.segments import SegmentTable, entity_layers, segment_endpoints, segment_midpoints
 
-#: Default join tolerance in millimetres.
-DEFAULT_JOIN_TOL_MM = 0.01
 #: Open ends closer than this (mm) but beyond the join tolerance are reported as gaps.
 DEFAULT_GAP_REPORT_MM = 0.5
 

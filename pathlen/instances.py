@@ -12,11 +12,9 @@ from collections.abc import Iterator
 
 import numpy as np
 
+from pathlen.defaults import DEFAULT_MAX_SEGMENTS
 from pathlen.errors import InputError
 from pathlen.geometry import Beziers, Drawing, EllipticArcs, FloatArray, IntArray, Lines, Placement
-
-#: Default most segments a drawing may be expanded to (``--max-segments``).
-DEFAULT_MAX_SEGMENTS = 10_000_000
 
 
 class TooManySegments(InputError):

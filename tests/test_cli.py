@@ -254,7 +254,8 @@ def test_program_ends_at_once_after_a_batch_with_the_same_output_and_status(tmp_
     import sys
     from pathlib import Path
 
-    from pathlen.cli import QUICK_EXIT, main
+    from pathlen.cli import main
+    from pathlen.program import QUICK_EXIT
 
     bad = tmp_path / "broken.dxf"
     bad.write_text("0\nSECTION\n2\nENTITIES\n0\nLINE\n")

@@ -6,18 +6,12 @@ its one-line summary from :data:`COMMANDS` (a test holds them equal to the comma
 from __future__ import annotations
 
 import importlib
-import os
-import sys
 
 import click
 
-from pathlen import BLAS_THREAD_VARIABLES
+from pathlen import one_blas_thread_environment
 
-if "numpy" not in sys.modules:
-    # one BLAS thread, read by the library as numpy loads it (see pathlen.batch.single_blas_thread): the
-    # workers then skip threadpoolctl's import and library scan (~5 ms of every run's start)
-    for _variable in BLAS_THREAD_VARIABLES:
-        os.environ.setdefault(_variable, "1")
+one_blas_thread_environment()
 
 #: name -> (module, one-line summary as ``pathlen --help`` shows it)
 COMMANDS: dict[str, tuple[str, str]] = {
@@ -55,36 +49,4 @@ def main() -> None:
     """pathlen: exact path lengths from drawings, with error bounds."""
 
 
-#: Commands after which the ``pathlen`` program ends at once (see :func:`run`): batches whose workers are
-#: stopped and whose files are closed by the time the command returns.
-QUICK_EXIT = frozenset({"measure", "cut", "seam", "bead"})
-
-
-def run() -> None:
-    """The ``pathlen`` program: :func:`main`; after a :data:`QUICK_EXIT` command, whatever its exit status,
-    the output is flushed and the process ends at once (``os._exit``), skipping the interpreter's teardown
-    of numpy, rich and the rest: about 40 ms, a sixth of a small file's whole run.  An error that is not
-    an exit (a bug's traceback) and every other command end the usual way, and so does
-    ``python -m pathlen`` (for profilers and coverage, which finish their work at exit)."""
-    quick = len(sys.argv) > 1 and sys.argv[1] in QUICK_EXIT
-    try:
-        main()
-    except SystemExit as exc:
-        if not quick:
-            raise
-        code = exc.code
-    else:  # pragma: no cover - click's main always ends in SystemExit
-        code = 0
-    if isinstance(code, str):  # sys.exit("message"): printed, status 1, as the interpreter does
-        print(code, file=sys.stderr)
-        code = 1
-    status = 0 if code is None else int(code)
-    for stream in (sys.stdout, sys.stderr):
-        try:
-            stream.flush()
-        except (OSError, ValueError):  # a closed pipe (| head): the interpreter's own status for it
-            status = status or 120
-    os._exit(status)
-
-
-__all__ = ["COMMANDS", "QUICK_EXIT", "main", "run"]
+__all__ = ["COMMANDS", "main"]

@@ -15,7 +15,7 @@ import click
 from pathlen.atomic import write_file_atomic
 from pathlen.cli.reading import write_atomic
 from pathlen.errors import UsageError
-from pathlen.geometry import MM_PER_UNIT
+from pathlen.units import MM_PER_UNIT
 
 LENGTH_UNITS = ("mm", "cm", "m", "in", "ft")
 _NUMBER = r"(\d+(?:\.\d*)?|\.\d+)"

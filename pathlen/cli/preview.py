@@ -44,9 +44,9 @@ def preview(path: Path, output: Path, join_tol: float, drawing_units: str | None
     """Draw the drawing PATH as pathlen measured it: contours by kind, starts and directions, gaps, scale bar."""
     from pathlen.cli.reading import write_atomic
     from pathlen.export.preview import build_scene, render_raster, scene_svg
-    from pathlen.geometry import MM_PER_UNIT
     from pathlen.importers import ImportOptions, read_drawing
     from pathlen.instances import expand
+    from pathlen.units import MM_PER_UNIT
 
     if profile is not None:
         from pathlen.cli.profile_files import profiles_or_exit

@@ -24,12 +24,11 @@ from pathlen.batch import (
     measure_file,
     run_batch,
 )
+from pathlen.defaults import DEFAULT_MAX_SEGMENTS, DEFAULT_RTOL
 from pathlen.errors import PathlenError
 from pathlen.export import OUTPUT_UNITS, load_rich, plain
-from pathlen.geometry import MM_PER_UNIT
 from pathlen.importers import ImportOptions
-from pathlen.instances import DEFAULT_MAX_SEGMENTS
-from pathlen.measure import DEFAULT_RTOL
+from pathlen.units import MM_PER_UNIT
 
 if TYPE_CHECKING:
     from rich.console import Console

@@ -18,7 +18,7 @@ from pathlib import Path
 
 import numpy as np
 
-from pathlen.batch import FileOutcome, give_back_heap, hidden_note, one_line_failure, stage
+from pathlen.batch import FileOutcome, give_back_heap, one_line_failure, stage
 from pathlen.containment import nesting_depth
 from pathlen.contours import (
     DEFAULT_GAP_REPORT_MM,
@@ -33,6 +33,7 @@ from pathlen.estimates.cut_contours import TROUBLE, kerf_changes, motion_times, 
 from pathlen.estimates.kinematics import move_times
 from pathlen.estimates.tour import plan_tour
 from pathlen.estimates.waterjet import WaterjetInputs, waterjet_feed_mm_min
+from pathlen.file_measure import hidden_note
 from pathlen.importers import ImportOptions, read_drawing
 from pathlen.instances import DEFAULT_MAX_SEGMENTS, expand, segment_total
 from pathlen.measure import DEFAULT_RTOL, measure

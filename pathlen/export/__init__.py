@@ -8,7 +8,7 @@ from functools import cache
 from html import escape as html_escape
 from typing import TYPE_CHECKING, Any
 
-from pathlen.geometry import MM_PER_UNIT
+from pathlen.units import MM_PER_UNIT
 
 if TYPE_CHECKING:
     from rich.console import Console
@@ -29,16 +29,18 @@ def markup_text(text: object) -> str:
     return html_escape(_NOT_XML.sub("\ufffd", str(text)))
 
 
-#: The parts of rich every report uses: loaded when first needed, not at start-up (about 30 ms).
-RICH_MODULES = ("rich.console", "rich.markup", "rich.table", "rich.text")
-
-
 def load_rich() -> None:
-    """Import :data:`RICH_MODULES` now (a batch does it while its workers start)."""
-    from importlib import import_module
+    """Load rich now, with what it loads only on first use (markup, emoji and cell-width tables), by
+    drawing a one-cell table to nowhere: a batch does this while its workers start, so that its report
+    is drawn at once when the results come."""
+    import io
 
-    for name in RICH_MODULES:
-        import_module(name)
+    from rich.console import Console
+    from rich.table import Table
+
+    table = Table("…")  # a character outside rich's single-width ranges: the cell-width tables load
+    table.add_row("[b]0[/b]")
+    Console(file=io.StringIO(), width=20).print(table)
 
 
 def plain(text: object) -> str:

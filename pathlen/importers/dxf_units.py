@@ -4,10 +4,11 @@ from __future__ import annotations
 
 import numpy as np
 
-from pathlen.geometry import MM_PER_UNIT, Drawing, affine
+from pathlen.geometry import Drawing, affine
+from pathlen.units import MM_PER_UNIT
 
 #: ``$INSUNITS`` codes (DXF reference, header variables) -> unit names of
-#: :data:`~pathlen.geometry.MM_PER_UNIT`; codes absent here cannot be used.
+#: :data:`~pathlen.units.MM_PER_UNIT`; codes absent here cannot be used.
 INSUNITS: dict[int, str] = {
     1: "in", 2: "ft", 3: "mi", 4: "mm", 5: "cm", 6: "m", 7: "km", 8: "uin", 9: "mil", 10: "yd",
     11: "angstrom", 12: "nm", 13: "um", 14: "dm", 15: "dam", 16: "hm", 17: "Gm", 18: "au", 19: "ly",

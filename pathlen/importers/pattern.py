@@ -17,9 +17,11 @@ from pathlib import Path
 import numpy as np
 
 from pathlen.errors import InputError
-from pathlen.geometry import MM_PER_UNIT, Drawing, SegmentCollector, affine
-from pathlen.importers import ImportOptions, check_geometry, check_regular_file, finish_drawing, read_drawing
+from pathlen.geometry import Drawing, SegmentCollector, affine
+from pathlen.importers import ImportOptions, check_regular_file, read_drawing
+from pathlen.importers.checks import check_geometry, finish_drawing
 from pathlen.instances import expand
+from pathlen.units import MM_PER_UNIT
 
 #: D6673 layer numbers (as layer names).
 CUT_LAYERS = ("1",)

@@ -15,14 +15,12 @@ from typing import TypeVar
 
 import numpy as np
 
+from pathlen.defaults import DEFAULT_RTOL
 from pathlen.geometry import Beziers, Drawing, EllipticArcs, FloatArray, IntArray, Placement, affine
 from pathlen.instances import is_planar
 from pathlen.measure.bezier import bezier_lengths
 from pathlen.measure.closed_forms import line_lengths
 from pathlen.measure.ellipse import arc_lengths
-
-#: Default relative tolerance per segment.
-DEFAULT_RTOL = 1e-9
 
 
 @dataclass

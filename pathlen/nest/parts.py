@@ -15,9 +15,10 @@ from pathlib import Path
 
 import numpy as np
 
-from pathlen.batch import FileOutcome, MeasureSettings, hidden_note, one_line_failure
+from pathlen.batch import FileOutcome, MeasureSettings, one_line_failure
 from pathlen.containment import nesting_depth
 from pathlen.contours import Contour, ContourSet, chain_contours
+from pathlen.file_measure import hidden_note
 from pathlen.geometry import Drawing, Entity, FloatArray, keep_rows
 from pathlen.importers import read_drawing
 from pathlen.instances import expand
