@@ -112,3 +112,43 @@ def test_an_untaken_worker_ends_with_the_program(tmp_path):
         """)
         assert time.monotonic() - started < 60
         assert _ended(int(out.split()[0])), end
+
+
+def test_the_program_forks_before_click_and_numpy_and_loads_no_numpy_for_measure(tmp_path):
+    # as the README says: the worker is forked before click and numpy load, it is the one the batch uses,
+    # and the program's own process never loads numpy for `measure`; the JSON is the in-process command's
+    import json
+
+    from click.testing import CliRunner
+
+    from pathlen.cli import main
+
+    script = tmp_path / "program.py"
+    script.write_text(textwrap.dedent("""
+        import os, sys
+        from pathlen import head_start
+        seen = []
+        real_start, real_exit = head_start.start, os._exit
+
+        def start(args):
+            seen.extend(["click" in sys.modules, "numpy" in sys.modules])
+            real_start(args)
+            seen.append(len(head_start._waiting))
+
+        def end(status):
+            seen.extend([len(head_start._waiting), "numpy" in sys.modules])
+            print(*seen, file=sys.stderr, flush=True)
+            real_exit(status)
+
+        head_start.start, os._exit = start, end
+        sys.argv = ["pathlen", "measure", "--format", "json", sys.argv[1]]
+        from pathlen.program import run
+        run()
+    """))
+    drawing = str(FIXTURES / "kl101_bracket.dxf")
+    out = subprocess.run([sys.executable, str(script), drawing], capture_output=True, text=True, timeout=120)
+    assert out.returncode == 0, out.stderr
+    # click and numpy not loaded at the fork; one worker waiting; taken by the end; numpy never loaded here
+    assert out.stderr.split()[-5:] == ["False", "False", "1", "0", "False"]
+    here = CliRunner().invoke(main, ["measure", "--format", "json", drawing])
+    assert json.loads(out.stdout) == json.loads(here.stdout)
