@@ -1,7 +1,8 @@
 """Command line: the ``pathlen`` group; one module per command, the shared reading options in
 :mod:`pathlen.cli.reading`.  A command's module is imported only when the command runs (or its own
 help is asked for), so ``pathlen --help`` starts without numpy; the group lists each command with
-its one-line summary from :data:`COMMANDS` (a test holds them equal to the commands' own)."""
+its one-line summary from :data:`COMMANDS` (a test holds them equal to the commands' own).  The
+``pathlen`` program (:mod:`pathlen.program`) runs :func:`main`; so does ``python -m pathlen``."""
 
 from __future__ import annotations
 
