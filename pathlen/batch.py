@@ -228,9 +228,10 @@ def _limit_memory(mb: int) -> None:
 WORKER_GRACE_S = 5.0
 
 
-def tie_to_parent() -> None:
-    """Ask the kernel to kill this process when its parent dies (Linux ``PR_SET_PDEATHSIG``), and exit
-    at once if the parent is already gone: a worker never outlives the command that started it.
+def tie_to_parent(parent: int) -> None:
+    """Ask the kernel to kill this process when its parent (process ``parent``) dies (Linux
+    ``PR_SET_PDEATHSIG``), and exit at once if the parent is already gone: a worker never outlives the
+    command that started it.
 
     The signal follows the thread that forked the child: forks happen from the thread that runs the
     batch, which lives as long as the batch.  Elsewhere (no prctl) :func:`parent_gone` is checked before
@@ -239,6 +240,8 @@ def tie_to_parent() -> None:
     import ctypes
     import signal
 
+    global _PARENT
+    _PARENT = parent
     try:
         libc = ctypes.CDLL(None, use_errno=True)
         libc.prctl(1, int(signal.SIGKILL), 0, 0, 0)  # PR_SET_PDEATHSIG = 1
@@ -263,9 +266,7 @@ def _worker(conn: Any, work: Callable[[str, Any], Any], settings: Any, limits: L
     file ``kinds`` (suffixes) are imported before the first file comes, while the parent goes on."""
     import signal
 
-    global _PARENT
-    _PARENT = parent
-    tie_to_parent()
+    tie_to_parent(parent)
     signal.signal(signal.SIGINT, signal.SIG_IGN)  # Ctrl-C is the parent's to handle
     # SIGTERM to the process group (a service manager stopping the service) is the parent's to handle:
     # it requeues the file in hand and ends this worker; the worker ends anyway when the parent exits
@@ -300,9 +301,7 @@ def serve_adopted(conn: Any, parent: int, kinds: tuple[str, ...]) -> None:
     """A worker forked before its batch was known (:mod:`pathlen.head_start`): tied to its parent, it loads
     the readers of ``kinds`` and the measuring modules, then waits for ``(work, settings, limits,
     own_threads)`` and serves as :func:`_worker` does; it ends if the parent sends nothing (or ``None``)."""
-    global _PARENT
-    _PARENT = parent
-    tie_to_parent()
+    tie_to_parent(parent)
     load_readers(kinds)
     import pathlen.file_measure  # noqa: F401 - numpy and the measuring modules, which every batch's work uses
     try:
