@@ -324,9 +324,7 @@ class _Slot:
             try:
                 self.conn.send((work, settings, limits, own_threads))
             except Exception:  # noqa: BLE001 - work that cannot be sent (a closure): a worker forked here instead
-                self.process.kill()
-                self.process.join()
-                self.conn.close()
+                self.stop(kill=True)
                 adopted = None
         if adopted is None:
             self.conn, child = ctx.Pipe()
