@@ -120,26 +120,22 @@ class TagTable:
         ``repeated`` (kinds, layer names: few distinct values): equal values share one ``str`` object,
         so a million entities on three layers hold three strings, not a million."""
         index = np.asarray(index, dtype=np.int64)
-        if len(index) <= FEW_TEXTS:  # decoded as cut out (as _one_by_one, whose ASCII check decoding makes)
-            data = self.data
-            try:
-                return [data[a:a + n].decode("ascii").rstrip("\0")
-                        for a, n in zip(self.start[index].tolist(), self.width[index].tolist(), strict=True)]
-            except UnicodeDecodeError:
-                raise NotPlain("text that is not ASCII") from None
+        if len(index) <= FEW_TEXTS:
+            return self._one_by_one(index)
         if int(self.width[index].max()) > TEXT_WIDTH:
             return [self.text(i) for i in index.tolist()]
         return decode_texts(self.raw_texts(index), repeated)
 
-    def _one_by_one(self, index: NDArray[np.int64]) -> list[bytes]:
-        """Values of the tags ``index`` cut out one by one (ASCII checked; trailing zero bytes dropped, as
-        in the fixed-width arrays of :meth:`raw_texts`): for few tags (:data:`FEW_TEXTS`) or long values."""
+    def _one_by_one(self, index: NDArray[np.int64]) -> list[str]:
+        """Values of the tags ``index`` cut out and decoded one by one (the decoding is the ASCII check;
+        trailing zero bytes dropped, as in the fixed-width arrays of :meth:`raw_texts`): for few tags
+        (:data:`FEW_TEXTS`) or long values."""
         data = self.data
-        values = [bytes(data[a:a + n]).rstrip(b"\0")
-                  for a, n in zip(self.start[index].tolist(), self.width[index].tolist(), strict=True)]
-        if not all(v.isascii() for v in values):
-            raise NotPlain("text that is not ASCII")
-        return values
+        try:
+            return [data[a:a + n].decode("ascii").rstrip("\0")
+                    for a, n in zip(self.start[index].tolist(), self.width[index].tolist(), strict=True)]
+        except UnicodeDecodeError:
+            raise NotPlain("text that is not ASCII") from None
 
     def raw_texts(self, index: NDArray[np.int64]) -> NDArray[np.bytes_]:
         """Values of the tags ``index`` as one fixed-width bytes array (ASCII checked; trailing zero bytes
@@ -150,7 +146,7 @@ class TagTable:
         start, length = self.start[index], self.width[index].astype(np.int64)
         width = max(int(length.max()), 1)
         if len(index) <= FEW_TEXTS or width > TEXT_WIDTH:
-            return np.array(self._one_by_one(index), dtype=f"S{width}")
+            return np.array(self._one_by_one(index), dtype=f"S{width}")  # ASCII: encoded back byte for byte
         chars = windows(self.data, start, width, length)
         if chars.max(initial=0) >= 128:
             raise NotPlain("text that is not ASCII")
