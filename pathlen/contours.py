@@ -15,7 +15,7 @@ from numpy.typing import NDArray
 
 from pathlen.defaults import DEFAULT_JOIN_TOL_MM
 from pathlen.geometry import Drawing, Entity, FloatArray, IntArray, keep_rows, take_rows
-from pathlen.proximity import close_pairs, components
+from pathlen.proximity import close_pairs, components, nearest_partners
 from pathlen.segments import SegmentTable, entity_layers, segment_endpoints, segment_midpoints
 
 #: Open ends closer than this (mm) but beyond the join tolerance are reported as gaps.
@@ -76,16 +76,32 @@ def count_ends(ends: list[np.ndarray], entities: list[Entity], join_tol: float =
     it is used up."""
     start, end, ent, shut = ends
     ends.clear()
+    if len(ent) == 0:
+        return ContourCount(0, 0)
+    flat = not (start[:, 2].any() or end[:, 2].any())  # a flat drawing (every z zero) is joined in x, y
+    points = np.concatenate([start[:, :2], end[:, :2]] if flat else [start, end])
+    del start, end
+    return count_joined([points, ent, shut], entities, join_tol)
+
+
+def count_joined(owned: list[np.ndarray], entities: list[Entity], join_tol: float = DEFAULT_JOIN_TOL_MM
+                 ) -> ContourCount:
+    """:func:`count_ends` of ``owned = [points, entity, shut]``: the n segments' start points followed by
+    their end points (``[2n, 2]`` for a flat drawing, else ``[2n, 3]``, mm), their entity rows and
+    closed-on-itself flags.  ``owned`` is emptied, each array let go as soon as it is used up."""
+    points, ent, shut = owned
+    owned.clear()
     n = len(ent)
     if n == 0:
         return ContourCount(0, 0)
     _, seg_layer = entity_layers(entities, ent)
     group = join_groups(seg_layer, ent, entities, shut)
     del seg_layer, ent
-    flat = not (start[:, 2].any() or end[:, 2].any())  # a flat drawing (every z zero) is joined in x, y
-    owned = [np.concatenate([start[:, :2], end[:, :2]] if flat else [start, end]), np.concatenate([group, group])]
-    del start, end, group
-    node = _join_nodes(owned, join_tol, shut)
+    if len(group) and group.max() < 2**31:  # group numbers in half the memory where they fit
+        group = group.astype(np.int32)
+    joined = [points, np.concatenate([group, group])]
+    del points, group
+    node = _join_nodes(joined, join_tol, shut)
     a, b = node[:n], node[n:]
     comp = components(node.max() + 1, a, b)
     degree = np.bincount(a, minlength=node.max() + 1) + np.bincount(b, minlength=node.max() + 1)
@@ -226,15 +242,20 @@ def _join_nodes(owned: list[np.ndarray], tol: float, closed: NDArray[np.bool_] |
     n = len(points) // 2
     order, new = equal_rows([groups, *(points[:, k] for k in range(points.shape[1]))])
     first = order[new]  # one point of each place (index into points), places in sorted order
-    place = np.empty(len(points), dtype=np.int64)
-    place[order] = np.cumsum(new) - 1
+    places = len(first)
+    place = np.empty(len(points), dtype=np.int32 if places < 2**31 else np.int64)
+    counted = 0
+    for a in range(0, len(order), ROW_RUN):  # place numbers a run at a time: no cumulative sum of every row
+        run = np.cumsum(new[a:a + ROW_RUN], dtype=np.int64)
+        place[order[a:a + ROW_RUN]] = run + (counted - 1)
+        counted += int(run[-1])
     del order, new
     at, at_group = take_rows(points, first), groups[first]  # each place's point and group
     del points, groups, first
-    places = len(at)
     loose = np.bincount(place, minlength=places) % 2 == 1
     shut = np.zeros(n, dtype=bool) if closed is None else closed
     src, dst = _nearest_partners(at, at_group, loose, place, shut, tol)
+    del at, at_group
     label = components(places, np.r_[src, place[:n][shut]], np.r_[dst, place[n:][shut]])
     return label[place]
 
@@ -249,7 +270,7 @@ def equal_rows(columns: list[NDArray]) -> tuple[IntArray, NDArray[np.bool_]]:
     with ``axis=0`` sorts the rows as bytes: several times slower, and -0.0 is not +0.0 there.)"""
     key = _row_keys(columns)
     order = np.argsort(key)
-    key = key[order]
+    key.sort()  # in place: the sorted keys without a second array
     new = _differs_from_previous(columns, order)
     if np.any(new[1:] & (key[1:] == key[:-1])):  # different rows share a hash
         order = np.lexsort(columns[::-1])
@@ -257,50 +278,60 @@ def equal_rows(columns: list[NDArray]) -> tuple[IntArray, NDArray[np.bool_]]:
     return order, new
 
 
+#: Rows hashed or compared at a time (the temporaries of a step stay a few hundred kB).
+ROW_RUN = 1 << 16
+
+
 def _row_keys(columns: list[NDArray]) -> NDArray[np.uint64]:
-    """A hash of each row's bits (-0.0 and +0.0 alike), a column at a time."""
+    """A hash of each row's bits (-0.0 and +0.0 alike), :data:`ROW_RUN` rows at a time."""
     key = np.zeros(len(columns[0]), dtype=np.uint64)
-    for column in columns:
-        bits = (column + 0.0).view(np.uint64) if column.dtype == np.float64 else column.astype(np.uint64)
-        key = _mix(bits ^ _mix(key))  # -0.0 + 0.0 is +0.0
+    for a in range(0, len(key), ROW_RUN):
+        run = key[a:a + ROW_RUN]
+        for column in columns:
+            part = column[a:a + ROW_RUN]
+            bits = (part + 0.0).view(np.uint64) if part.dtype == np.float64 else part.astype(np.uint64)
+            run[:] = _mix(bits ^ _mix(run))  # -0.0 + 0.0 is +0.0
     return key
 
 
 def _differs_from_previous(columns: list[NDArray], order: IntArray) -> NDArray[np.bool_]:
-    """In ``order``: True where a row differs from the one before it (the first row: True)."""
+    """In ``order``: True where a row differs from the one before it (the first row: True), :data:`ROW_RUN`
+    rows at a time."""
     new = np.zeros(len(order), dtype=bool)
     new[:1] = True
-    for column in columns:
-        value = np.take(column, order)
-        new[1:] |= value[1:] != value[:-1]
+    for a in range(0, len(order), ROW_RUN):
+        rows = order[max(a - 1, 0):a + ROW_RUN]  # with the row before the run
+        for column in columns:
+            value = column[rows]  # (np.take would first copy a strided column whole)
+            new[max(a, 1):a + ROW_RUN] |= value[1:] != value[:-1]
     return new
 
 
 def _nearest_partners(at: FloatArray, at_group: IntArray, loose: NDArray[np.bool_], place: IntArray,
                       shut: NDArray[np.bool_], tol: float) -> tuple[IntArray, IntArray]:
-    """Edges (loose place, its nearest allowed place within ``tol``, same group) among the places at
-    points ``at`` of groups ``at_group``: a segment's own two places are never a pair, unless it is ``shut``."""
+    """Edges (loose place, its nearest allowed place within ``tol``, same group; ties: the lower place)
+    among the places at points ``at`` of groups ``at_group``: a segment's own two places are never a
+    pair, unless it is ``shut``."""
     none = np.zeros(0, dtype=np.int64)
     if not np.any(loose) or tol <= 0:
         return none, none
-    pairs = close_pairs(at, tol, at_group)
-    a, b = pairs[:, 0], pairs[:, 1]
-    del pairs
-    n = len(shut)
-    # a segment's own two ends never join: drop pairs of places it links (such a segment has a loose end)
-    places = len(at)
-    ends = np.flatnonzero(~shut & (loose[place[:n]] | loose[place[n:]]))
-    own = np.sort(np.minimum(place[ends], place[n + ends]) * places + np.maximum(place[ends], place[n + ends]))
-    allowed = ~_sorted_contains(own, np.minimum(a, b) * places + np.maximum(a, b)) & (loose[a] | loose[b])
-    a, b = a[allowed], b[allowed]
-    # each loose place takes its nearest allowed partner
-    src, dst = np.concatenate([a, b]), np.concatenate([b, a])
-    keep = loose[src]
-    src, dst = src[keep], dst[keep]
-    dist = np.linalg.norm(at[src] - at[dst], axis=1)
-    pick = np.lexsort((dst, dist, src))
-    best = pick[np.r_[True, src[pick][1:] != src[pick][:-1]]] if len(pick) else pick
-    return src[best], dst[best]
+    n, places = len(shut), len(at)
+    # a segment's own two ends never join: the place pairs it links (such a segment has a loose end)
+    links = []
+    for k in range(0, n, ROW_RUN):
+        stop = min(k + ROW_RUN, n)
+        a, b = place[k:stop].astype(np.int64), place[n + k:n + stop].astype(np.int64)
+        mine = ~shut[k:stop] & (loose[a] | loose[b])
+        a, b = a[mine], b[mine]
+        links.append(np.minimum(a, b) * places + np.maximum(a, b))
+    own = np.concatenate(links)
+    del links
+    own.sort()
+
+    def refused(src: IntArray, dst: IntArray) -> NDArray[np.bool_]:
+        return _sorted_contains(own, np.minimum(src, dst) * places + np.maximum(src, dst))
+
+    return nearest_partners(at, tol, at_group, np.flatnonzero(loose), refused)
 
 
 def _sorted_contains(sorted_keys: IntArray, keys: IntArray) -> NDArray[np.bool_]:
@@ -326,8 +357,11 @@ def join_groups(layer: IntArray, entity: IntArray, entities: list, shut: NDArray
     themselves: closed stays closed, whatever touches it."""
     loop = np.array([e.loop for e in entities], dtype=bool)[entity] if len(entity) else np.zeros(0, dtype=bool)
     top = int(layer.max()) + 1 if len(layer) else 0
-    group = np.where(loop, top + entity, layer)
-    return np.where(shut, top + len(entities) + np.arange(len(layer)), group)
+    group = np.array(layer, dtype=np.int64)  # changed in place: one array of the segments' size at a time
+    group[loop] = top + entity[loop]
+    closed = np.flatnonzero(shut)
+    group[closed] = top + len(entities) + closed
+    return group
 
 
 def closed_segments(start: FloatArray, end: FloatArray, middle: FloatArray, tol: float) -> NDArray[np.bool_]:

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import itertools
 from collections import Counter
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -223,6 +223,23 @@ class Drawing:
             self.entities, list(self.warnings), Counter(self.skipped),
             [p.transformed(m) for p in self.placements],
         )
+
+
+@dataclass
+class DrawingRuns:
+    """A drawing without placements handed over a run of segments at a time, so that a big file is
+    measured in bounded memory: each of ``runs`` is a :class:`Drawing` of some of its own segments
+    (checked as :func:`pathlen.importers.checks.check_geometry` checks a drawing), all sharing
+    ``entities``, which may grow as the runs come (entities added by a run are used by that run only).
+
+    Once every run has been taken, ``warnings`` is complete and ``used`` marks the entities that gave
+    at least one segment (an empty path gives none; the whole drawing read at once leaves those out)."""
+
+    entities: list[Entity]
+    runs: Iterator[Drawing]
+    warnings: list[str] = field(default_factory=list)
+    used: NDArray[np.bool_] | None = None
+    recovered: bool = False
 
 
 def keep_entities(drawing: Drawing, keep: NDArray[np.bool_]) -> Drawing:

@@ -12,8 +12,10 @@ hooking and pointer jumping (a few numpy passes, logarithmic in the component si
 from __future__ import annotations
 
 import itertools
+from collections.abc import Callable, Iterator
 
 import numpy as np
+from numpy.typing import NDArray
 
 from pathlen.geometry import FloatArray, IntArray, take_rows
 
@@ -44,27 +46,12 @@ def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -
             squared += (c[:, None] - c[None, :]) ** 2
         i, j = np.nonzero(np.triu((squared <= tol * tol) & (group[:, None] == group[None, :]), 1))
         return np.stack([i, j], axis=1).astype(np.int64)
-    origin = points.min(axis=0)
-    span = points.max(axis=0) - origin
-    axes = np.flatnonzero(span > 0)  # coordinates that vary (a flat drawing has two)
-    pts = (points[:, axes] - origin[axes]) if len(axes) else np.zeros((n, 1))
-    # cells sized to the spacing; crowded cells: fall back to cells one tolerance wide, but never so
-    # narrow that cell numbers leave int64 (a tolerance far below the coordinates' rounding)
-    floor = float(span.max()) * 2.0**-50 if len(axes) else 0.0
-    for width in (max(_cell_width(span[axes], n, tol), floor), max(tol if tol > 0 else 1.0, floor)):
-        # int32 cell numbers where they fit (half the memory): pts / width is at most span / width
-        small = len(axes) == 0 or float(span[axes].max()) / width < 2.0**31 - 2
-        cell = np.empty(pts.shape, dtype=np.int32 if small else np.int64)
-        for axis in range(pts.shape[1]):  # a column at a time: no [n, d] temporaries
-            cell[:, axis] = np.floor(pts[:, axis] / width)
-        keys = cell_keys(cell, group)
-        order = np.argsort(keys, kind="stable")
-        keys = keys[order]
-        if width <= tol or np.diff(np.flatnonzero(np.r_[True, keys[1:] != keys[:-1], True])).max() <= CROWDED:
-            break
-    # one array reordered at a time (the unordered one freed before the next): the peak stays low
-    cell = take_rows(cell, order)
-    pts = take_rows(pts, order)
+    grid = _Grid(points, tol, group)
+    keys, order, width = grid.keys, grid.order, grid.width
+    pts = grid.shifted(take_rows(points, order))  # in cell order
+    cell = np.empty(pts.shape, dtype=grid.cell_type)
+    for axis in range(pts.shape[1]):  # a column at a time: no [n, d] temporaries
+        cell[:, axis] = np.floor(pts[:, axis] / width)
     margin = tol / width + 1e-9
     near_low, near_high = np.empty(pts.shape, dtype=bool), np.empty(pts.shape, dtype=bool)
     for axis in range(pts.shape[1]):
@@ -97,6 +84,129 @@ def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -
         hi = np.searchsorted(keys, probe, side="right")
         found.append(found_pairs(expand_ranges(rows, lo, hi)))
     return np.concatenate(found)
+
+
+class _Grid:
+    """Points hashed into cells at least ``tol`` wide (with their group): ``keys`` sorted and ``order`` the
+    points in that order (a cell's points in their own order when ``stable``).  A point's cell is
+    ``floor(shifted(point) / width)``: its varying coordinates
+    less the least, over the width (``cell_type`` holds every cell number).  Memory: the keys and the
+    order (the keys are made :data:`GRID_RUN` points at a time)."""
+
+    def __init__(self, points: FloatArray, tol: float, group: IntArray, stable: bool = True) -> None:
+        n = len(points)
+        self.origin = points.min(axis=0)
+        span = points.max(axis=0) - self.origin
+        self.axes = np.flatnonzero(span > 0)  # coordinates that vary (a flat drawing has two)
+        # cells sized to the spacing; crowded cells: fall back to cells one tolerance wide, but never so
+        # narrow that cell numbers leave int64 (a tolerance far below the coordinates' rounding)
+        floor = float(span.max()) * 2.0**-50 if len(self.axes) else 0.0
+        for width in (max(_cell_width(span[self.axes], n, tol), floor), max(tol if tol > 0 else 1.0, floor)):
+            # int32 cell numbers where they fit (half the memory): pts / width is at most span / width
+            small = len(self.axes) == 0 or float(span[self.axes].max()) / width < 2.0**31 - 2
+            self.cell_type = np.int32 if small else np.int64
+            self.keys = np.empty(n, dtype=np.uint64)
+            for a in range(0, n, GRID_RUN):
+                cell = np.floor(self.shifted(points[a:a + GRID_RUN]) / width).astype(self.cell_type)
+                self.keys[a:a + GRID_RUN] = cell_keys(cell, group[a:a + GRID_RUN])
+            self.order = np.argsort(self.keys, kind="stable" if stable else None)
+            if not stable and n < 2**31:  # positions in half the memory where they fit (kept as they are
+                # for close_pairs, whose pairs come out of them as int64)
+                self.order = self.order.astype(np.int32)
+            self.keys.sort()  # in place: the same sorted keys without a second array
+            # no cell holds more than CROWDED points: the keys (sorted) never equal the one CROWDED places on
+            if width <= tol or len(self.keys) <= CROWDED or not np.any(self.keys[CROWDED:] == self.keys[:-CROWDED]):
+                break
+        self.width = width
+
+    def shifted(self, points: FloatArray) -> FloatArray:
+        """``points``' varying coordinates less the grid's origin (as ``pts``)."""
+        return (points[:, self.axes] - self.origin[self.axes]) if len(self.axes) else np.zeros((len(points), 1))
+
+
+#: Points whose cell keys are made at a time.
+GRID_RUN = 1 << 16
+#: Queries of :func:`nearest_partners` looked up at a time.
+QUERY_BATCH = 1 << 14
+
+
+def nearest_partners(points: FloatArray, tol: float, group: IntArray, query: IntArray,
+                     refused: Callable[[IntArray, IntArray], NDArray[np.bool_]] | None = None
+                     ) -> tuple[IntArray, IntArray]:
+    """Each point of ``query`` (indices into ``points``) with its nearest other point at most ``tol`` away
+    in the same ``group`` (ties: the lower index), pairs ``refused(src, dst)`` left out: ``(src, dst)``
+    for the queries that have one (int32 where the indices fit).  The same pairs within reach as
+    :func:`close_pairs`, each point's nearest by the Euclidean distance of its full coordinates.
+
+    Memory: the grid (cell keys and order, two numbers per point) and, whatever the crowding, at
+    most :data:`PAIR_BATCH` candidate pairs at a time; no list of every pair within reach."""
+    index = np.int32 if len(points) < 2**31 else np.int64
+    none = np.zeros(0, dtype=index)
+    if len(points) < 2 or len(query) == 0:
+        return none, none
+    group = np.asarray(group)
+    grid = _Grid(points, tol, group, stable=False)  # a cell's order does not matter here (ties go by index)
+    width, keys, order = grid.width, grid.keys, grid.order
+    margin = tol / width + 1e-9
+    dims = max(len(grid.axes), 1)
+    src_out, dst_out, found = np.empty(len(query), dtype=index), np.empty(len(query), dtype=index), 0
+    for q0 in range(0, len(query), QUERY_BATCH):
+        src_all = query[q0:q0 + QUERY_BATCH]
+        best_dist, best = np.full(len(src_all), np.inf), np.full(len(src_all), -1, dtype=np.int64)
+        pts = grid.shifted(take_rows(points, src_all))
+        cell = np.floor(pts / width).astype(np.int64)
+        where = pts / width - cell  # position inside the cell, 0 .. 1
+        near_low, near_high = where < margin, where > 1.0 - margin
+        src_group = group[src_all]
+        for off in itertools.product((-1, 0, 1), repeat=dims):
+            # only queries within tol of the cell faces towards a neighbour can have a partner there
+            mask = np.ones(len(src_all), dtype=bool)
+            for axis, step in enumerate(off):
+                if step:
+                    mask &= near_high[:, axis] if step > 0 else near_low[:, axis]
+            rows = np.flatnonzero(mask)
+            probe = cell_keys(cell[rows] + np.array(off), src_group[rows])
+            lo = np.searchsorted(keys, probe, side="left")
+            hi = np.searchsorted(keys, probe, side="right")
+            for part in _bounded_runs(lo, hi, PAIR_BATCH):
+                pairs = expand_ranges(rows[part], lo[part], hi[part])
+                local, dst = pairs[:, 0], order[pairs[:, 1]]
+                del pairs
+                src = src_all[local]
+                d = grid.shifted(take_rows(points, src)) - grid.shifted(take_rows(points, dst))
+                keep = (np.einsum("ij,ij->i", d, d) <= tol * tol) & (group[dst] == src_group[local]) & (dst != src)
+                if refused is not None:
+                    keep[keep] = ~refused(src[keep], dst[keep])
+                local, src, dst = local[keep], src[keep], dst[keep]
+                dist = np.linalg.norm(take_rows(points, src) - take_rows(points, dst), axis=1)
+                _keep_nearest(best_dist, best, local, dist, dst)
+        has = best >= 0
+        k = int(np.count_nonzero(has))
+        src_out[found:found + k], dst_out[found:found + k] = src_all[has], best[has]
+        found += k
+    return src_out[:found], dst_out[:found]
+
+
+def _bounded_runs(lo: IntArray, hi: IntArray, limit: int) -> Iterator[slice]:
+    """Consecutive slices of the ranges ``[lo, hi)`` holding at most ``limit`` items together (at least one range)."""
+    total = np.cumsum(hi - lo)
+    start = 0
+    while start < len(lo):
+        before = int(total[start - 1]) if start else 0
+        stop = max(int(np.searchsorted(total, before + limit, side="right")), start + 1)
+        yield slice(start, stop)
+        start = stop
+
+
+def _keep_nearest(best_dist: FloatArray, best: IntArray, at: IntArray, dist: FloatArray, dst: IntArray) -> None:
+    """Where ``dist`` (to ``dst``) beats ``best_dist[at]`` (ties: the lower ``dst``), take it, in place."""
+    if len(at) == 0:
+        return
+    pick = np.lexsort((dst, dist, at))
+    first = pick[np.r_[True, at[pick][1:] != at[pick][:-1]]]
+    at, dist, dst = at[first], dist[first], dst[first]
+    better = (dist < best_dist[at]) | ((dist == best_dist[at]) & (dst < best[at]))
+    best_dist[at[better]], best[at[better]] = dist[better], dst[better]
 
 
 def _cell_width(span: FloatArray, n: int, tol: float) -> float:
@@ -146,17 +256,22 @@ def expand_ranges(rows: IntArray, lo: IntArray, hi: IntArray) -> IntArray:
 
 
 def components(n: int, a: IntArray, b: IntArray) -> IntArray:
-    """Component label (the smallest member index) of each of ``n`` items joined by edges a[k]-b[k]."""
-    parent = np.arange(n)
-    a = np.asarray(a, dtype=np.int64)
-    b = np.asarray(b, dtype=np.int64)
+    """Component label (the smallest member index) of each of ``n`` items joined by edges a[k]-b[k]; int32
+    labels (half the memory of every pass) while ``n`` fits."""
+    kind = np.int32 if n < 2**31 else np.int64
+    parent = np.arange(n, dtype=kind)
+    a = np.asarray(a, dtype=kind)
+    b = np.asarray(b, dtype=kind)
     while True:
-        pa, pb = parent[a], parent[b]
-        differ = pa != pb
-        if not differ.any():
+        joined = False
+        for k in range(0, len(a), GRID_RUN):  # edges hooked a run at a time: their temporaries stay small
+            pa, pb = parent[a[k:k + GRID_RUN]], parent[b[k:k + GRID_RUN]]
+            differ = pa != pb
+            if differ.any():
+                joined = True
+                np.minimum.at(parent, np.maximum(pa, pb)[differ], np.minimum(pa, pb)[differ])
+        if not joined:
             return parent
-        lo, hi = np.minimum(pa, pb)[differ], np.maximum(pa, pb)[differ]
-        np.minimum.at(parent, hi, lo)
         while True:  # pointer jumping until every item points at its root
             grand = parent[parent]
             if np.array_equal(grand, parent):

@@ -8,7 +8,7 @@ from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
 from scipy.spatial import cKDTree
 
-from pathlen.proximity import close_pairs, components
+from pathlen.proximity import close_pairs, components, nearest_partners
 
 
 @pytest.mark.parametrize(("n", "tol", "dims", "seed"), [(500, 0.3, 3, 1), (3000, 0.05, 2, 2), (2000, 0.0, 2, 3),
@@ -27,6 +27,40 @@ def test_close_pairs_match_kdtree(n, tol, dims, seed):
     ref = cKDTree(p).query_pairs(tol, output_type="ndarray")
     ref = {tuple(sorted(x)) for x in ref if group[x[0]] == group[x[1]]}
     assert ours == ref
+
+
+@pytest.mark.parametrize(("n", "tol", "dims", "seed", "batch"), [(3000, 0.05, 2, 2, None), (500, 0.3, 3, 1, None),
+                                                                 (400, 0.5, 2, 3, 7), (60, 2.0, 2, 4, None)])
+def test_nearest_partners_match_kdtree(monkeypatch, n, tol, dims, seed, batch):
+    # Reference: scipy.spatial.cKDTree.query_ball_point (every point within reach), the nearest picked by
+    # distance, then by index; pairs refused by the caller's rule left out.  batch=7: a few candidate pairs
+    # at a time (crowded cells are walked in pieces).
+    import pathlen.proximity as proximity
+
+    if batch:
+        monkeypatch.setattr(proximity, "PAIR_BATCH", batch)
+        monkeypatch.setattr(proximity, "QUERY_BATCH", 5)
+    rng = np.random.default_rng(seed)
+    p = np.zeros((n, 3))
+    p[:, :dims] = rng.uniform(-5, 5, (n, dims))
+    p = np.concatenate([p, p[: n // 2] + rng.normal(0, tol / 2, (n // 2, 3)) * (np.arange(3) < dims)])
+    group = rng.integers(0, 3, len(p)).astype(np.int32)
+    query = np.flatnonzero(rng.random(len(p)) < 0.4)
+
+    def refused(src, dst):
+        return (src + dst) % 5 == 0
+
+    src, dst = nearest_partners(p, tol, group, query, refused)
+    tree = cKDTree(p)
+    expect = {}
+    for q in query.tolist():
+        near = [j for j in tree.query_ball_point(p[q], tol * (1 + 1e-9))
+                if j != q and group[j] == group[q] and not refused(np.array(q), np.array(j))
+                and np.sum((p[q] - p[j]) ** 2) <= tol * tol]
+        if near:
+            expect[q] = min(near, key=lambda j: (float(np.linalg.norm(p[q] - p[j])), j))
+    assert dict(zip(src.tolist(), dst.tolist(), strict=True)) == expect
+    assert len(expect) >= 20  # the check has something to check
 
 
 def test_components_match_scipy():

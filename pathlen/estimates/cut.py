@@ -129,7 +129,7 @@ def _estimate(path: str, s: CutSettings) -> CutEstimate:
         table = segment_table(drawing, measured)
     layer_names, layer = segment_layers(drawing, table)
     role = _role_of_entities(drawing.entities, s)[table.entity] if len(table) else np.zeros(0, dtype=np.int64)
-    warnings = list(drawing.warnings) + hidden_note(drawing, measured.entity_length)
+    warnings = list(drawing.warnings) + hidden_note(drawing.entities, measured.entity_length)
     keep = (role > 0) & (table.length > 0)  # a zero-length segment is nothing to cut (nor a pierce)
     duplicates = duplicate_segments(table, layer, s.join_tol_mm)
     duplicates = duplicates[keep[duplicates]]

@@ -5,12 +5,12 @@ from __future__ import annotations
 from collections.abc import Iterable
 from dataclasses import dataclass
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, cast
 
 from pathlen.errors import InputError
 
 if TYPE_CHECKING:  # the segment model loads with the readers (this module's options and names load first)
-    from pathlen.geometry import Drawing
+    from pathlen.geometry import Drawing, DrawingRuns
 
 
 @dataclass(frozen=True)
@@ -42,6 +42,14 @@ def load_readers(suffixes: Iterable[str]) -> None:
 
 def read_drawing(path: Path, options: ImportOptions = ImportOptions()) -> Drawing:
     """Read any supported file and check its geometry; raises :class:`InputError`."""
+    return cast("Drawing", read_drawing_or_runs(path, options, in_runs=False))  # no runs asked for
+
+
+def read_drawing_or_runs(path: Path, options: ImportOptions = ImportOptions(), in_runs: bool = True
+                         ) -> Drawing | DrawingRuns:
+    """:func:`read_drawing`, except that with ``in_runs`` a reader that can hand the drawing over a run
+    of segments at a time (SVG without placements) does so (:class:`~pathlen.geometry.DrawingRuns`,
+    each run checked as it is taken)."""
     suffix = path.suffix.lower()
     if suffix in SUFFIXES:
         check_regular_file(path)
@@ -52,12 +60,13 @@ def read_drawing(path: Path, options: ImportOptions = ImportOptions()) -> Drawin
     elif suffix == ".svg":
         from pathlen.importers.svg import read_svg
 
-        drawing = read_svg(path, options.svg_dpi, options.svg_language)
+        drawing = read_svg(path, options.svg_dpi, options.svg_language, in_runs)
     else:
         raise InputError(f"unsupported file type {suffix or '(none)'!r}: expected {' or '.join(SUFFIXES)}")
-    from pathlen.importers.checks import finish_drawing
+    from pathlen.geometry import DrawingRuns
+    from pathlen.importers.checks import finish_drawing, finish_runs
 
-    return finish_drawing(drawing)
+    return finish_runs(drawing) if isinstance(drawing, DrawingRuns) else finish_drawing(drawing)
 
 
 def check_regular_file(path: Path) -> None:

@@ -3,9 +3,11 @@ spoils its element, not the file), entities not measured counted."""
 
 from __future__ import annotations
 
+from collections.abc import Iterator
+
 import numpy as np
 
-from pathlen.geometry import Drawing, keep_entities
+from pathlen.geometry import Drawing, DrawingRuns, Entity, IntArray, keep_entities
 from pathlen.instances import definitions
 
 #: Coordinates beyond this many millimetres (1,000 km) are taken as a broken file.
@@ -31,22 +33,53 @@ def check_geometry(drawing: Drawing) -> None:
     """
     bad_names: list[str] = []
     for d in definitions(drawing):
-        bad = _bad_entities(d)
-        if bad.any():
-            bad_names.extend(_describe(d, i) for i in np.flatnonzero(bad)[:1])
-            bad_names.extend([""] * (int(bad.sum()) - 1))
-            _drop_own(d, ~bad)
+        bad_names.extend(bad_entity_names(d.entities, drop_bad_entities(d)))
         finite = [p for p in d.placements if np.all(np.isfinite(p.matrices))]
         if len(finite) < len(d.placements):
             bad_names.append("a block or <use> placement with a non-finite transformation")
             d.placements = finite
-    if bad_names:
-        more = len(bad_names) - 1
-        drawing.warnings.append(f"{bad_names[0]}: not measured" + (f" (and {more} more like it)" if more else ""))
+    drawing.warnings.extend(_bad_geometry_warning(bad_names))
 
 
-def _describe(drawing: Drawing, i: int) -> str:
-    e = drawing.entities[i]
+def finish_runs(drawing: DrawingRuns) -> DrawingRuns:
+    """:func:`finish_drawing` for a drawing handed over in runs: each run checked as it is taken, the
+    warning (naming the first bad entity of the whole drawing) added once every run has been."""
+    runs = drawing.runs
+
+    def checked() -> Iterator[Drawing]:
+        bad = []
+        for part in runs:
+            bad.append(drop_bad_entities(part))
+            yield part
+        found = np.sort(np.concatenate(bad)) if bad else np.zeros(0, dtype=np.int64)
+        drawing.warnings.extend(_bad_geometry_warning(bad_entity_names(drawing.entities, found)))
+
+    drawing.runs = checked()
+    return drawing
+
+
+def drop_bad_entities(drawing: Drawing) -> IntArray:
+    """Entity rows (ascending) with a non-finite or absurd coordinate in their own segments; those
+    entities' own segments are dropped in place (placements stay)."""
+    bad = _bad_entities(drawing)
+    if bad.any():
+        _drop_own(drawing, ~bad)
+    return np.flatnonzero(bad)
+
+
+def bad_entity_names(entities: list[Entity], bad: IntArray) -> list[str]:
+    """One entry per bad entity row (``bad`` ascending): the first described, the others ""."""
+    return [_describe(entities[int(i)]) for i in bad[:1]] + [""] * max(len(bad) - 1, 0)
+
+
+def _bad_geometry_warning(bad_names: list[str]) -> list[str]:
+    if not bad_names:
+        return []
+    more = len(bad_names) - 1
+    return [f"{bad_names[0]}: not measured" + (f" (and {more} more like it)" if more else "")]
+
+
+def _describe(e: Entity) -> str:
     return f"{e.kind} #{e.handle} on layer {e.layer!r} has non-finite or absurdly large (over 1000 km) coordinates"
 
 

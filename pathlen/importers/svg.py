@@ -22,6 +22,7 @@ import re
 import xml.etree.ElementTree as ET
 from array import array
 from collections import Counter
+from collections.abc import Iterator
 from dataclasses import dataclass, field, replace
 from functools import lru_cache
 from pathlib import Path
@@ -31,7 +32,7 @@ import defusedxml.ElementTree as SafeET
 import numpy as np
 
 from pathlen.errors import InputError
-from pathlen.geometry import Drawing, Entity, IntArray, SegmentCollector, affine, distinct
+from pathlen.geometry import Drawing, DrawingRuns, Entity, IntArray, SegmentCollector, affine, distinct
 from pathlen.importers.svg_css import Rule, cascade, parse_stylesheet
 from pathlen.importers.svg_markers import MARKABLE, OrderedSegments, marker_map
 from pathlen.importers.svg_markers import vertices as marker_vertices
@@ -108,11 +109,14 @@ class _State:
     markers: tuple[str, str, str] = ("none", "none", "none")  # marker-start, -mid, -end (inherited)
 
 
-def read_svg(path: Path, dpi: float | None = None, language: str | None = None) -> Drawing:
+def read_svg(path: Path, dpi: float | None = None, language: str | None = None, in_runs: bool = False
+             ) -> Drawing | DrawingRuns:
     """Read an SVG file; raises :class:`InputError` for unreadable, unsafe or non-SVG files.
 
     ``language`` is the user's language for ``systemLanguage`` (a BCP 47 tag; default from the
-    environment, see :func:`user_language`)."""
+    environment, see :func:`user_language`).  With ``in_runs``, a document that places nothing (no
+    ``<use>``, no markers) comes as :class:`DrawingRuns`: its paths parsed and converted
+    :data:`RUN_CHARS` of path data at a time as the runs are taken (the element tree is let go first)."""
     root = parse_safely(path)
     if local_name(root.tag) != "svg":
         raise InputError(f"not an SVG file (root element is <{local_name(root.tag)}>)")
@@ -120,7 +124,7 @@ def read_svg(path: Path, dpi: float | None = None, language: str | None = None) 
         namespace = root.tag[1:].partition("}")[0]
         raise InputError(f"root <svg> is in the namespace {namespace[:60]!r}, not SVG's "
                          "(http://www.w3.org/2000/svg): nothing in it would be drawn")
-    return _Importer(root, dpi, language).run()
+    return _Importer(root, dpi, language).run(in_runs)
 
 
 def local_name(tag: object) -> str:
@@ -173,6 +177,9 @@ def parse_safely(path: Path) -> ET.Element:
 
 #: Characters of path data parsed in one batch (bounds the temporary token lists).
 CHUNK_CHARS = 2_000_000
+#: Characters of path data in one run of a document read in runs (about 16,000 segments: the run's parse
+#: and measure temporaries stay near 10 MB, and so does what the allocator keeps of them).
+RUN_CHARS = 500_000
 
 
 def _parse_in_chunks(texts: list[str]) -> tuple[dict[str, Rows], np.ndarray]:
@@ -180,11 +187,9 @@ def _parse_in_chunks(texts: list[str]) -> tuple[dict[str, Rows], np.ndarray]:
     found: dict[str, list[Rows]] = {}
     oks = []
     first = 0
+    lengths = [len(t) for t in texts]
     while first < len(texts):
-        last, size = first, 0
-        while last < len(texts) and (size < CHUNK_CHARS or last == first):
-            size += len(texts[last])
-            last += 1
+        last = _batch_end(lengths, first, CHUNK_CHARS)
         rows, ok = parse_many(texts[first:last])
         for kind, (r, owner, sub) in rows.items():
             found.setdefault(kind, []).append((r, owner + first, sub))
@@ -258,6 +263,16 @@ def _closed_in_file(elem: ET.Element, tag: str) -> bool:
     return d[-1:] in ("z", "Z") and len(_MOVES.findall(d)) <= len(_CLOSES.findall(d))
 
 
+def _batch_end(lengths: list[int], first: int, chars: int) -> int:
+    """End of the batch of texts from ``first``: about ``chars`` characters (``lengths`` of the texts), at
+    least one text (none when ``first`` is past the end)."""
+    last, size = first, 0
+    while last < len(lengths) and (size < chars or last == first):
+        size += lengths[last]
+        last += 1
+    return last
+
+
 class _Importer:
     """One document's walk: element tree -> raw segments -> Drawing.
 
@@ -289,9 +304,11 @@ class _Importer:
         self.defined: dict[tuple, Drawing] = {}
         #: ids of the <use> targets being drawn, innermost last (a target met again is a cycle)
         self.building: list[str] = []
+        #: path data already warned about (a text parsed again in a later run warns once)
+        self.warned_paths: set[str] = set()
 
     # -- set-up ---------------------------------------------------------------------------
-    def run(self) -> Drawing:
+    def run(self, in_runs: bool = False) -> Drawing | DrawingRuns:
         css_skipped = 0
         for k, elem in enumerate(self.root.iter()):
             self.ordinal[id(elem)] = k
@@ -323,14 +340,52 @@ class _Importer:
         if self.conditions_used:
             self.warnings.append(f"conditional processing (systemLanguage) evaluated for the user language "
                                  f"{self.language!r} ({self.language_source})")
+        if in_runs and not self.canvas.placements:
+            return self.in_runs()
         drawing = self.finish_canvas()
-        self.report()
+        self.warnings.extend(self.report_notes())
         drawing.warnings.extend(self.warnings)
         return drawing
 
+    def in_runs(self) -> DrawingRuns:
+        """The document's own segments as :class:`DrawingRuns` (no placements): the element tree is
+        let go before the first run (the runs need only the path data and the entity rows)."""
+        notes = self.report_notes()
+        self.root = ET.Element("svg")
+        self.by_id.clear()
+        self.definitions.clear()
+        out = DrawingRuns(self.canvas.entities, iter(()))
+        out.runs = self._runs(out, notes)
+        return out
+
+    def _runs(self, out: DrawingRuns, notes: list[str]) -> Iterator[Drawing]:
+        """Runs of about :data:`RUN_CHARS` of path data, in document order (the other shapes with the
+        first); their path data let go as they are parsed.  At the end, ``out.used`` and ``out.warnings``."""
+        c = self.canvas
+        transforms = np.array(c.transforms, dtype=float).reshape(-1, 6)
+        paths, c.paths = c.paths, []
+        lengths = [len(d) for d, _, _ in paths]
+        used = np.zeros(0, dtype=bool)
+        raw, done, first = c.raw, self.raw_count(), 0
+        while True:
+            last = _batch_end(lengths, first, RUN_CHARS)
+            done += self.add_paths(paths[first:last], raw, done)
+            paths[first:last] = [("", 0, 0)] * (last - first)  # their text goes
+            first = last
+            used = np.concatenate([used, np.zeros(len(c.entities) - len(used), dtype=bool)])
+            for tags in raw.entity.values():
+                used[np.frombuffer(tags, dtype=np.int64)] = True
+            yield to_drawing(raw, transforms, c.entities)
+            if first == len(paths):
+                break
+            raw = RawSegments()
+        out.used = used
+        out.warnings = [*self.warnings, *notes]
+
     def finish_canvas(self) -> Drawing:
         """The current canvas as a Drawing, with its placements."""
-        self.add_paths()
+        c = self.canvas
+        self.add_paths(c.paths, c.raw, self.raw_count())
         self.drop_empty_entities()
         c = self.canvas
         drawing = to_drawing(c.raw, np.array(c.transforms, dtype=float).reshape(-1, 6), c.entities)
@@ -821,20 +876,23 @@ class _Importer:
             if (x0, y0) != (x1, y1):
                 lines.extend((x0, y0, x1, y1))
 
-    def add_paths(self) -> None:
-        """Parse every distinct path once, all together, then place each drawn copy (entity, transform)."""
-        if not self.canvas.paths:
-            return
+    def add_paths(self, paths: list[tuple[str, int, int]], raw: RawSegments, drawn: int) -> int:
+        """Parse every distinct path of ``paths`` (path data, entity, transform) once, all together, then
+        place each drawn copy into ``raw``; returns how many segments that added.  ``drawn``: segments
+        already drawn on the canvas (for the :data:`MAX_SEGMENTS` refusal)."""
+        if not paths:
+            return 0
         distinct: dict[str, int] = {}
-        copy_of = np.array([distinct.setdefault(d, len(distinct)) for d, _, _ in self.canvas.paths], dtype=np.int64)
-        entity = np.array([e for _, e, _ in self.canvas.paths], dtype=np.int64)
-        transform = np.array([t for _, _, t in self.canvas.paths], dtype=np.int64)
+        copy_of = np.array([distinct.setdefault(d, len(distinct)) for d, _, _ in paths], dtype=np.int64)
+        entity = np.array([e for _, e, _ in paths], dtype=np.int64)
+        transform = np.array([t for _, _, t in paths], dtype=np.int64)
         texts = list(distinct)
         rows, ok = _parse_in_chunks(texts)
         for u in np.flatnonzero(~ok).tolist():
             one = RawSegments()
             error = parse_careful(texts[u], one)
-            if error:
+            if error and texts[u] not in self.warned_paths:  # a text in several runs warns once
+                self.warned_paths.add(texts[u])
                 first = self.canvas.entities[int(entity[np.argmax(copy_of == u)])]
                 self.warnings.append(f"<path> {first.handle}: {error}")
             for kind, width in ROW_WIDTH.items():
@@ -845,7 +903,8 @@ class _Importer:
                     rows[kind] = (np.concatenate([r, extra]), np.concatenate([owner, np.full(len(extra), u)]),
                                   np.concatenate([sub, np.frombuffer(one.entity[kind], dtype=np.int64)]))
         counts = {kind: np.bincount(owner, minlength=len(texts)) for kind, (_, owner, _) in rows.items()}
-        if sum(int(c[copy_of].sum()) for c in counts.values()) + self.raw_count() > MAX_SEGMENTS:
+        added = sum(int(c[copy_of].sum()) for c in counts.values())
+        if added + drawn > MAX_SEGMENTS:
             raise InputError(f"more than {MAX_SEGMENTS:,} segments after expanding <use>; file refused")
         rank, extra_rows = self.closed_subpaths(texts, rows, copy_of, entity)
         copies = np.arange(len(copy_of))
@@ -855,11 +914,12 @@ class _Importer:
             first = (np.cumsum(counts[kind]) - counts[kind])[copy_of]
             n = counts[kind][copy_of]
             pick = order[expand_ranges(copies, first, first + n)[:, 1]]
-            self.canvas.raw.add(kind, r[pick])
+            raw.add(kind, r[pick])
             k = rank[kind][pick]
             own = np.repeat(entity, n)
-            self.canvas.raw.entity[kind].frombytes(np.where(k > 0, np.repeat(extra_rows, n) + k - 1, own).tobytes())
-            self.canvas.raw.transform[kind].frombytes(np.repeat(transform, n).tobytes())
+            raw.entity[kind].frombytes(np.where(k > 0, np.repeat(extra_rows, n) + k - 1, own).tobytes())
+            raw.transform[kind].frombytes(np.repeat(transform, n).tobytes())
+        return added
 
     def closed_subpaths(self, texts: list[str], rows: dict[str, Rows], copy_of: IntArray, entity: IntArray
                         ) -> tuple[dict[str, IntArray], IntArray]:
@@ -934,7 +994,8 @@ class _Importer:
     def count_hidden(self, elem: ET.Element) -> None:
         self.not_measured["hidden"] += sum(1 for e in elem.iter() if local_name(e.tag) in SHAPES)
 
-    def report(self) -> None:
+    def report_notes(self) -> list[str]:
+        """What was left out: elements not measured, hidden shapes, definitions never used."""
         unused = sum(1 for d in self.definitions for e in d.iter()
                      if local_name(e.tag) in SHAPES and id(e) not in self.drawn)
         notes = []
@@ -945,7 +1006,7 @@ class _Importer:
                 notes.append(f"{n} {what} element{'s' if n != 1 else ''} not measured")
         if unused:
             notes.append(f"{unused} shape{'s' if unused != 1 else ''} in <defs>/<symbol> never used, not measured")
-        self.warnings.extend(notes)
+        return notes
 
 
 __all__ = ["DEFAULT_DPI", "MAX_BYTES", "MAX_DEPTH", "PX_PER_UNIT", "read_svg"]

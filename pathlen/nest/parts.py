@@ -86,7 +86,7 @@ def _read_parts(path: str, ps: PartSettings) -> PartsOutcome:
     real = table.length > 0
     keep = chosen[table.entity] & real if len(table) else np.zeros(0, dtype=bool)
     marks = visible[table.entity] & ~chosen[table.entity] & real if len(table) else keep
-    warnings = list(drawing.warnings) + hidden_note(drawing, measured.entity_length)
+    warnings = list(drawing.warnings) + hidden_note(drawing.entities, measured.entity_length)
     if ps.layers:
         missing = sorted(set(ps.layers) - {e.layer for e in drawing.entities} - {e.color for e in drawing.entities})
         if missing:
