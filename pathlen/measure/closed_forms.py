@@ -10,6 +10,7 @@ from __future__ import annotations
 import numpy as np
 
 from pathlen.geometry import FloatArray
+from pathlen.measure.elliptic import incomplete_integrals
 
 EPS = np.finfo(float).eps
 
@@ -50,7 +51,7 @@ def elliptic_arc_lengths(u: FloatArray, v: FloatArray, t0: FloatArray, t1: Float
 
     With ``s = t - tau`` the speed is ``a·sqrt(1 - m sin² s)``, so the length is
     ``a·(E(t1 - tau | m) - E(t0 - tau | m))`` with ``E`` the incomplete elliptic
-    integral of the second kind (scipy ``ellipeinc``, parameter ``m = k²``).
+    integral of the second kind (parameter ``m = k²``, see :mod:`pathlen.measure.elliptic`).
     The bound covers rounding of the two ``E`` values, of their arguments
     and of ``m``; a difference of nearly equal ``E`` values (a short arc near
     a major-axis vertex of a slim ellipse) shows up as a large bound, and the
@@ -76,16 +77,13 @@ def elliptic_arc_lengths(u: FloatArray, v: FloatArray, t0: FloatArray, t1: Float
 
 
 def _incomplete_integrals(phi: FloatArray, m: FloatArray) -> tuple[FloatArray, FloatArray]:
-    """``E(phi | m)`` and ``F(phi | m)`` (scipy's ``ellipeinc``, ``ellipkinc``).  Both are ``phi`` itself
-    where ``m = 0`` (circles, exactly as scipy returns them), so scipy.special (a sixth of a second to
-    import) is loaded only for drawings with true ellipses."""
+    """``E(phi | m)`` and ``F(phi | m)`` (:func:`pathlen.measure.elliptic.incomplete_integrals`).  Both are
+    ``phi`` itself where ``m = 0`` (circles: exact, and no work)."""
     e, f = phi.copy(), phi.copy()
     oval = np.flatnonzero(m != 0)
     if len(oval):
-        from scipy.special import ellipeinc, ellipkinc
-
         with np.errstate(divide="ignore", invalid="ignore"):
-            e[oval], f[oval] = ellipeinc(phi[oval], m[oval]), ellipkinc(phi[oval], m[oval])
+            e[oval], f[oval] = incomplete_integrals(phi[oval], m[oval])
     return e, f
 
 
