@@ -135,7 +135,7 @@ def nearest_partners(points: FloatArray, tol: float, group: IntArray, query: Int
                      ) -> tuple[IntArray, IntArray]:
     """Each point of ``query`` (indices into ``points``) with its nearest other point at most ``tol`` away
     in the same ``group`` (ties: the lower index), pairs ``refused(src, dst)`` left out: ``(src, dst)``
-    for the queries that have one (int32 where the indices fit).  The same pairs within reach as
+    for the queries that have one, in no particular order (int32 where the indices fit).  The same pairs within reach as
     :func:`close_pairs`, each point's nearest by the Euclidean distance of its full coordinates.
 
     Memory: the grid (cell keys and order, two numbers per point) and, whatever the crowding, at
@@ -149,6 +149,10 @@ def nearest_partners(points: FloatArray, tol: float, group: IntArray, query: Int
     width, keys, order = grid.width, grid.keys, grid.order
     margin = tol / width + 1e-9
     dims = max(len(grid.axes), 1)
+    asked = np.zeros(len(points), dtype=bool)
+    asked[query] = True
+    query = order[asked[order]]  # in cell order: each batch's probes fall close together in the sorted keys
+    del asked
     src_out, dst_out, found = np.empty(len(query), dtype=index), np.empty(len(query), dtype=index), 0
     for q0 in range(0, len(query), QUERY_BATCH):
         src_all = query[q0:q0 + QUERY_BATCH]
