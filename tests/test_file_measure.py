@@ -95,3 +95,27 @@ def test_a_drawing_with_placements_is_read_whole(tmp_path):
     path.write_text('<svg xmlns="http://www.w3.org/2000/svg" xmlns:xlink="http://www.w3.org/1999/xlink">'
                     '<path id="p" d="M0 0 L 10 0"/><use xlink:href="#p" x="5"/></svg>')
     assert isinstance(read_drawing_or_runs(path, MeasureSettings().import_options), Drawing)
+
+
+def test_the_segment_limit_stops_a_drawing_read_in_runs_as_read_whole(tmp_path, monkeypatch):
+    # The SVG reader refuses a document of more than MAX_SEGMENTS segments (paths and shapes together);
+    # read run by run the count grows across runs and the same refusal comes.
+    import pytest
+
+    import pathlen.importers.svg as svg
+    from pathlen.batch import MeasureSettings, measure_file
+    from pathlen.errors import InputError
+    from pathlen.file_measure import measure_one
+
+    path = tmp_path / "many.svg"
+    path.write_text(_document(12))
+    monkeypatch.setattr(svg, "RUN_CHARS", 200)
+    settings = MeasureSettings()
+    total = measure_one(str(path), settings)
+    assert total.ok
+    monkeypatch.setattr(svg, "MAX_SEGMENTS", 150)  # a few runs fit, the document does not
+    for in_runs in (False, True):
+        with pytest.raises(InputError, match="more than 150 segments"):
+            measure_one(str(path), settings, in_runs=in_runs)
+    failed = measure_file(str(path), settings)
+    assert not failed.ok and "more than 150 segments" in failed.error

@@ -351,7 +351,7 @@ class _Importer:
         """The document's own segments as :class:`DrawingRuns` (no placements): the element tree is
         let go before the first run (the runs need only the path data and the entity rows)."""
         notes = self.report_notes()
-        self.root = ET.Element("svg")
+        self.root = ET.Element("svg")  # the document's tree goes
         self.by_id.clear()
         self.definitions.clear()
         out = DrawingRuns(self.canvas.entities, iter(()))
@@ -387,7 +387,6 @@ class _Importer:
         c = self.canvas
         self.add_paths(c.paths, c.raw, self.raw_count())
         self.drop_empty_entities()
-        c = self.canvas
         drawing = to_drawing(c.raw, np.array(c.transforms, dtype=float).reshape(-1, 6), c.entities)
         coll = SegmentCollector()
         coll.entities = drawing.entities
