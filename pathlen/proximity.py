@@ -86,7 +86,21 @@ def close_pairs(points: FloatArray, tol: float, group: IntArray | None = None) -
     return np.concatenate(found)
 
 
-class _Grid:
+class _Frame:
+    """Where the points lie: ``shifted(p)`` gives the varying coordinates of ``p`` less the points' least
+    (one column of zeros when none varies)."""
+
+    def __init__(self, points: FloatArray) -> None:
+        self.origin = points.min(axis=0)
+        self.span = points.max(axis=0) - self.origin
+        self.axes = np.flatnonzero(self.span > 0)  # coordinates that vary (a flat drawing has two)
+
+    def shifted(self, points: FloatArray) -> FloatArray:
+        """``points``' varying coordinates less the frame's origin."""
+        return (points[:, self.axes] - self.origin[self.axes]) if len(self.axes) else np.zeros((len(points), 1))
+
+
+class _Grid(_Frame):
     """Points hashed into cells at least ``tol`` wide (with their group): ``keys`` sorted and ``order`` the
     points in that order (a cell's points in their own order when ``stable``).  A point's cell is
     ``floor(shifted(point) / width)``: its varying coordinates
@@ -94,10 +108,8 @@ class _Grid:
     order (the keys are made :data:`GRID_RUN` points at a time)."""
 
     def __init__(self, points: FloatArray, tol: float, group: IntArray, stable: bool = True) -> None:
-        n = len(points)
-        self.origin = points.min(axis=0)
-        span = points.max(axis=0) - self.origin
-        self.axes = np.flatnonzero(span > 0)  # coordinates that vary (a flat drawing has two)
+        super().__init__(points)
+        n, span = len(points), self.span
         # cells sized to the spacing; crowded cells: fall back to cells one tolerance wide, but never so
         # narrow that cell numbers leave int64 (a tolerance far below the coordinates' rounding)
         floor = float(span.max()) * 2.0**-50 if len(self.axes) else 0.0
@@ -119,10 +131,6 @@ class _Grid:
                 break
         self.width = width
 
-    def shifted(self, points: FloatArray) -> FloatArray:
-        """``points``' varying coordinates less the grid's origin (as ``pts``)."""
-        return (points[:, self.axes] - self.origin[self.axes]) if len(self.axes) else np.zeros((len(points), 1))
-
 
 #: Points whose cell keys are made at a time.
 GRID_RUN = 1 << 16
@@ -135,8 +143,9 @@ def nearest_partners(points: FloatArray, tol: float, group: IntArray, query: Int
                      ) -> tuple[IntArray, IntArray]:
     """Each point of ``query`` (indices into ``points``) with its nearest other point at most ``tol`` away
     in the same ``group`` (ties: the lower index), pairs ``refused(src, dst)`` left out: ``(src, dst)``
-    for the queries that have one, in no particular order (int32 where the indices fit).  The same pairs within reach as
-    :func:`close_pairs`, each point's nearest by the Euclidean distance of its full coordinates.
+    for the queries that have one, in no particular order (int32 where the indices fit).  The same pairs
+    within reach as :func:`close_pairs`, each point's nearest by the Euclidean distance of its full
+    coordinates.  Up to :data:`FEW_POINTS` points every query is paired with every point (no grid).
 
     Memory: the grid (cell keys and order, two numbers per point) and, whatever the crowding, at
     most :data:`PAIR_BATCH` candidate pairs at a time; no list of every pair within reach."""
@@ -145,6 +154,14 @@ def nearest_partners(points: FloatArray, tol: float, group: IntArray, query: Int
     if len(points) < 2 or len(query) == 0:
         return none, none
     group = np.asarray(group)
+    if len(points) <= FEW_POINTS:
+        query = np.asarray(query)
+        best_dist, best = np.full(len(query), np.inf), np.full(len(query), -1, dtype=np.int64)
+        local = np.repeat(np.arange(len(query)), len(points))
+        _take_nearest(points, _Frame(points), tol, group, query, local, np.tile(np.arange(len(points)), len(query)),
+                      refused, best_dist, best)
+        has = best >= 0
+        return query[has].astype(index), best[has].astype(index)
     grid = _Grid(points, tol, group, stable=False)  # a cell's order does not matter here (ties go by index)
     width, keys, order = grid.width, grid.keys, grid.order
     margin = tol / width + 1e-9
@@ -174,21 +191,29 @@ def nearest_partners(points: FloatArray, tol: float, group: IntArray, query: Int
             hi = np.searchsorted(keys, probe, side="right")
             for part in _bounded_runs(lo, hi, PAIR_BATCH):
                 pairs = expand_ranges(rows[part], lo[part], hi[part])
-                local, dst = pairs[:, 0], order[pairs[:, 1]]
-                del pairs
-                src = src_all[local]
-                d = grid.shifted(take_rows(points, src)) - grid.shifted(take_rows(points, dst))
-                keep = (np.einsum("ij,ij->i", d, d) <= tol * tol) & (group[dst] == src_group[local]) & (dst != src)
-                if refused is not None:
-                    keep[keep] = ~refused(src[keep], dst[keep])
-                local, src, dst = local[keep], src[keep], dst[keep]
-                dist = np.linalg.norm(take_rows(points, src) - take_rows(points, dst), axis=1)
-                _keep_nearest(best_dist, best, local, dist, dst)
+                _take_nearest(points, grid, tol, group, src_all, pairs[:, 0], order[pairs[:, 1]], refused, best_dist,
+                              best)
         has = best >= 0
         k = int(np.count_nonzero(has))
         src_out[found:found + k], dst_out[found:found + k] = src_all[has], best[has]
         found += k
     return src_out[:found], dst_out[:found]
+
+
+def _take_nearest(points: FloatArray, frame: _Frame, tol: float, group: IntArray, src_all: IntArray, local: IntArray,
+                  dst: IntArray, refused: Callable[[IntArray, IntArray], NDArray[np.bool_]] | None,
+                  best_dist: FloatArray, best: IntArray) -> None:
+    """Of the candidate pairs (query ``src_all[local]``, point ``dst``), those within ``tol`` (in the frame's
+    shifted coordinates, as :func:`close_pairs` tests), in one group, not a point with itself and not
+    refused; each query's nearest of them taken into ``best_dist``, ``best`` (by ``local``)."""
+    src = src_all[local]
+    d = frame.shifted(take_rows(points, src)) - frame.shifted(take_rows(points, dst))
+    keep = (np.einsum("ij,ij->i", d, d) <= tol * tol) & (group[dst] == group[src]) & (dst != src)
+    if refused is not None:
+        keep[keep] = ~refused(src[keep], dst[keep])
+    local, src, dst = local[keep], src[keep], dst[keep]
+    dist = np.linalg.norm(take_rows(points, src) - take_rows(points, dst), axis=1)
+    _keep_nearest(best_dist, best, local, dist, dst)
 
 
 def _bounded_runs(lo: IntArray, hi: IntArray, limit: int) -> Iterator[slice]:

@@ -58,7 +58,8 @@ from pathlen.importers.svg_values import (
 from pathlen.importers.xml_entities import declared_entities
 from pathlen.proximity import expand_ranges
 
-#: Largest SVG file read (bytes).  Peak memory measured at about 20x the file size for large files.
+#: Largest SVG file read (bytes).  Peak memory of ``measure`` measured at about 4.5x the file size for large files
+#: (a document with ``<use>`` or markers is held whole: about 8x).
 MAX_BYTES = 100_000_000
 #: Deepest element nesting accepted.
 MAX_DEPTH = 256
