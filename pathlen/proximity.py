@@ -157,9 +157,14 @@ def nearest_partners(points: FloatArray, tol: float, group: IntArray, query: Int
     if len(points) <= FEW_POINTS:
         query = np.asarray(query)
         best_dist, best = np.full(len(query), np.inf), np.full(len(query), -1, dtype=np.int64)
-        local = np.repeat(np.arange(len(query)), len(points))
-        _take_nearest(points, _Frame(points), tol, group, query, local, np.tile(np.arange(len(points)), len(query)),
-                      refused, best_dist, best)
+        frame = _Frame(points)
+        pts = frame.shifted(points)
+        squared = np.zeros((len(query), len(points)))
+        for axis in range(pts.shape[1]):
+            squared += (pts[query, axis][:, None] - pts[None, :, axis]) ** 2
+        # a table of every query and point; _take_nearest's own test decides on the pairs (a hair) within reach
+        local, dst = np.nonzero(squared <= (tol * (1.0 + 1e-9)) ** 2)
+        _take_nearest(points, frame, tol, group, query, local, dst, refused, best_dist, best)
         has = best >= 0
         return query[has].astype(index), best[has].astype(index)
     grid = _Grid(points, tol, group, stable=False)  # a cell's order does not matter here (ties go by index)
