@@ -100,12 +100,18 @@ SNIPPETS = ["1e400", "NaN", "-", "<", ">", "&", "&amp;", '"', "#p", "<use href='
 @FUZZ
 @given(data=st.data())
 def test_mutated_svg_documents(tmp_path, data):
-    text = SVG_BASE
+    path = tmp_path / "mutant.svg"
+    path.write_text(mutated_svg(data, SVG_BASE, SNIPPETS), encoding="utf-8")
+    check(measure_file(str(path), BOUNDED))
+
+
+def mutated_svg(data, text: str, snippets: list[str]) -> str:
+    """``text`` after 1-5 drawn mutations: a snippet inserted, a few characters deleted, a number replaced."""
     for _ in range(data.draw(st.integers(1, 5))):
         i = data.draw(st.integers(0, len(text)))
         action = data.draw(st.sampled_from(["insert", "delete", "replace-number"]))
         if action == "insert":
-            text = text[:i] + data.draw(st.sampled_from(SNIPPETS)) + text[i:]
+            text = text[:i] + data.draw(st.sampled_from(snippets)) + text[i:]
         elif action == "delete":
             text = text[:i] + text[i + data.draw(st.integers(1, 12)):]
         else:
@@ -114,9 +120,7 @@ def test_mutated_svg_documents(tmp_path, data):
                 m = numbers[data.draw(st.integers(0, len(numbers) - 1))]
                 text = text[:m.start()] + data.draw(st.sampled_from(["1e400", "0", "-1", "1e-300", "1e12", "inf"])) \
                     + text[m.end():]
-    path = tmp_path / "mutant.svg"
-    path.write_text(text, encoding="utf-8")
-    check(measure_file(str(path), BOUNDED))
+    return text
 
 
 SVG_PATHS_ONLY = ('<svg xmlns="http://www.w3.org/2000/svg" width="100mm" height="80mm" viewBox="0 0 100 80">'
@@ -136,22 +140,8 @@ def test_mutated_svg_measured_in_runs_as_read_whole(tmp_path, data, monkeypatch)
     from pathlen.errors import InputError
     from pathlen.file_measure import measure_one
 
-    text = SVG_PATHS_ONLY
-    for _ in range(data.draw(st.integers(1, 5))):
-        i = data.draw(st.integers(0, len(text)))
-        action = data.draw(st.sampled_from(["insert", "delete", "replace-number"]))
-        if action == "insert":
-            text = text[:i] + data.draw(st.sampled_from(SNIPPETS[:24])) + text[i:]
-        elif action == "delete":
-            text = text[:i] + text[i + data.draw(st.integers(1, 12)):]
-        else:
-            numbers = list(re.finditer(r"[0-9.]+", text))
-            if numbers:
-                m = numbers[data.draw(st.integers(0, len(numbers) - 1))]
-                text = text[:m.start()] + data.draw(st.sampled_from(["1e400", "0", "-1", "1e-300", "1e12", "inf"])) \
-                    + text[m.end():]
     path = tmp_path / "mutant.svg"
-    path.write_text(text, encoding="utf-8")
+    path.write_text(mutated_svg(data, SVG_PATHS_ONLY, SNIPPETS[:24]), encoding="utf-8")
     monkeypatch.setattr(svg, "RUN_CHARS", data.draw(st.sampled_from([1, 20, 60])))
     outcomes = []
     for in_runs in (False, True):
