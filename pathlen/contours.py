@@ -76,12 +76,15 @@ def count_ends(ends: list[np.ndarray], entities: list[Entity], join_tol: float =
     it is used up."""
     start, end, ent, shut = ends
     ends.clear()
-    if len(ent) == 0:
-        return ContourCount(0, 0)
-    flat = not (start[:, 2].any() or end[:, 2].any())  # a flat drawing (every z zero) is joined in x, y
-    points = np.concatenate([start[:, :2], end[:, :2]] if flat else [start, end])
+    points = np.concatenate([start[:, :2], end[:, :2]] if is_flat(start, end) else [start, end])
     del start, end
     return count_joined([points, ent, shut], entities, join_tol)
+
+
+def is_flat(start: FloatArray, end: FloatArray) -> bool:
+    """Whether every z of the segments' start and end points (``[n, 3]``) is zero: a flat drawing's ends are
+    joined in x, y only."""
+    return not (start[:, 2].any() or end[:, 2].any())
 
 
 def count_joined(owned: list[np.ndarray], entities: list[Entity], join_tol: float = DEFAULT_JOIN_TOL_MM

@@ -10,7 +10,7 @@ import numpy as np
 
 from pathlen.batch import FileResult, LayerTotal, MeasureSettings, give_back_heap, limit_phrase, stage
 from pathlen.contour_tree import count_placed, visible_ends
-from pathlen.contours import ContourCount, count_ends, count_joined
+from pathlen.contours import ContourCount, count_ends, count_joined, is_flat
 from pathlen.geometry import DrawingRuns, Entity
 from pathlen.importers import read_drawing_or_runs
 from pathlen.instances import TooManySegments, segment_total
@@ -64,18 +64,18 @@ def _measure_runs(path: str, drawing: DrawingRuns, settings: MeasureSettings) ->
             total += part.segment_count()
             result = measure(part, settings.rtol)
             length, bound = _grown(length, len(part.entities)), _grown(bound, len(part.entities))
-            length[:len(result.entity_length)] += result.entity_length
-            bound[:len(result.entity_bound)] += result.entity_bound
+            length += result.entity_length  # one number per entity so far (the run's own are its last)
+            bound += result.entity_bound
             unconverged += result.unconverged
             del result
             start, end, ent, shut = visible_ends(part, settings.join_tol_mm)
             del part
-            flat = not (start[:, 2].any() or end[:, 2].any())
-            ends.append([start[:, :2].copy(), end[:, :2].copy()] if flat else [start, end])
+            ends.append([start[:, :2].copy(), end[:, :2].copy()] if is_flat(start, end) else [start, end])
             ends[-1] += [ent.astype(np.int32) if len(drawing.entities) < 2**31 else ent, shut]
             del start, end, ent, shut
             give_back_heap(total)
-    used = drawing.used if drawing.used is not None else np.ones(len(drawing.entities), dtype=bool)
+    used = drawing.used
+    assert used is not None  # set by the reader once its last run has been taken
     entities = drawing.entities
     length, bound = _grown(length, len(entities)), _grown(bound, len(entities))
     renumber = None
