@@ -283,6 +283,8 @@ class _Reader:
             raise NotPlain("a field before its subclass marker")
 
     def _ocs_to_wcs(self, ents: IntArray) -> _Ocs:
+        if len(self.f.tags_of(210)) == 0:  # no extrusion in the file: every entity's OCS is the WCS
+            return _Ocs.world(len(ents))
         return _Ocs(self.f.point(210, ents, Z_AXIS))
 
     def _lines(self, seg: _Segments) -> None:
@@ -604,6 +606,14 @@ class _Ocs:
         ay = np.cross(az, ax)
         ay = ay * (1.0 / _magnitude(ay))[:, None]
         self.ax, self.ay, self.az = ax, ay, az
+
+    @classmethod
+    def world(cls, count: int) -> _Ocs:
+        """``count`` entities without an extrusion (+z): no transformation, nothing computed."""
+        ocs = cls.__new__(cls)
+        ocs.plain = np.ones(count, dtype=bool)
+        ocs.all_plain = True
+        return ocs
 
     def points(self, p: FloatArray, rows: IntArray | None = None) -> FloatArray:
         """OCS coordinates ``p[n, 3]`` in WCS; point ``k`` in the OCS of entity ``rows[k]`` (default: ``k``)."""
