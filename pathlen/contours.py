@@ -14,7 +14,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from pathlen.defaults import DEFAULT_JOIN_TOL_MM
-from pathlen.geometry import Drawing, Entity, FloatArray, IntArray, keep_rows, take_rows
+from pathlen.geometry import Drawing, Entity, FloatArray, IntArray, keep_rows, run_starts, take_rows
 from pathlen.proximity import close_pairs, components, nearest_partners
 from pathlen.segments import SegmentTable, entity_layers, segment_endpoints, segment_midpoints
 
@@ -214,7 +214,7 @@ def chain_contours(table: SegmentTable, layer: IntArray, join_tol: float = DEFAU
         key = np.concatenate([key_a, key_b])
         order = np.argsort(key, kind="stable")
         key, local, fwd = key[order], np.concatenate([local_a, local_b])[order], np.concatenate([fwd_a, fwd_b])[order]
-    sizes = np.diff(np.flatnonzero(np.r_[True, key[1:] != key[:-1], True]))
+    sizes = np.diff(np.append(np.flatnonzero(run_starts(key)), len(key)))
     return _contours_from_chains(table, layer, rows, node_of, local, fwd, sizes)
 
 
@@ -259,7 +259,7 @@ def _join_nodes(owned: list[np.ndarray], tol: float, closed: NDArray[np.bool_] |
     shut = np.zeros(n, dtype=bool) if closed is None else closed
     src, dst = _nearest_partners(at, at_group, loose, place, shut, tol)
     del at, at_group
-    label = components(places, np.r_[src, place[:n][shut]], np.r_[dst, place[n:][shut]])
+    label = components(places, np.concatenate((src, place[:n][shut])), np.concatenate((dst, place[n:][shut])))
     return label[place]
 
 
@@ -387,7 +387,7 @@ def _simple_chains(node_of: IntArray, simple: NDArray[np.bool_], piece: IntArray
     if len(seg) == 0:
         return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64), np.zeros(0, dtype=bool)
     k = len(node_of)
-    ends = np.r_[2 * seg, 2 * seg + 1]
+    ends = np.concatenate((2 * seg, 2 * seg + 1))
     at = node_of.ravel()[ends]
     # at most two ends per node here: the smaller and the larger end id at each node are partners
     low_end = np.full(int(at.max()) + 1, 2 * k, dtype=np.int64)
@@ -440,7 +440,7 @@ def _walked_chains(node_of: IntArray, branched: NDArray[np.bool_]) -> tuple[IntA
     seg = np.flatnonzero(branched)
     if len(seg) == 0:
         return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64), np.zeros(0, dtype=bool)
-    ends = np.r_[2 * seg, 2 * seg + 1]
+    ends = np.concatenate((2 * seg, 2 * seg + 1))
     ends = ends[np.argsort(node_of.ravel()[ends], kind="stable")]
     at = node_of.ravel()[ends]
     ptr = np.searchsorted(at, np.arange(int(node_of.max()) + 2))

@@ -17,7 +17,7 @@ from collections.abc import Callable, Iterator
 import numpy as np
 from numpy.typing import NDArray
 
-from pathlen.geometry import FloatArray, IntArray, take_rows
+from pathlen.geometry import FloatArray, IntArray, run_starts, take_rows
 
 #: Up to this many points every pair is tested directly (no grid).
 FEW_POINTS = 128
@@ -237,7 +237,7 @@ def _keep_nearest(best_dist: FloatArray, best: IntArray, at: IntArray, dist: Flo
     if len(at) == 0:
         return
     pick = np.lexsort((dst, dist, at))
-    first = pick[np.r_[True, at[pick][1:] != at[pick][:-1]]]
+    first = pick[run_starts(at[pick])]
     at, dist, dst = at[first], dist[first], dst[first]
     better = (dist < best_dist[at]) | ((dist == best_dist[at]) & (dst < best[at]))
     best_dist[at[better]], best[at[better]] = dist[better], dst[better]
@@ -268,8 +268,8 @@ def cell_keys(cell: IntArray, group: IntArray) -> np.ndarray:
 
 def _pairs_in_same_cell(keys: IntArray) -> IntArray:
     """Pairs (i, j), i < j, of positions with equal keys (``keys`` sorted)."""
-    starts = np.flatnonzero(np.r_[True, keys[1:] != keys[:-1]])
-    sizes = np.diff(np.r_[starts, len(keys)])
+    starts = np.flatnonzero(run_starts(keys))
+    sizes = np.diff(np.append(starts, len(keys)))
     out = []
     for size in np.unique(sizes[sizes > 1]):
         firsts = starts[sizes == size]

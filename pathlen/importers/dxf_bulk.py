@@ -34,7 +34,7 @@ from pathlen.geometry import (
 )
 from pathlen.importers.dxf_blocks import BlockCache, place_insert
 from pathlen.importers.dxf_fields import Fields
-from pathlen.importers.dxf_layout import MEASURED, Layout, layout
+from pathlen.importers.dxf_layout import MEASURED, Layout, header_variable, layout
 from pathlen.importers.dxf_rest import rest_is_plain
 from pathlen.importers.dxf_tags import PADDING, NotPlain, TagTable, code_table, decode_texts, has_code, parse_tags
 from pathlen.importers.nurbs import window_beziers
@@ -192,10 +192,7 @@ class _Reader:
         codes = self.tags.codes
         head = int(self.lay.first_tag[self.lay.header])
         stop = int(self.lay.first_tag[self.lay.header + 1]) if self.lay.header + 1 < len(self.kinds) else len(codes)
-        nine = np.flatnonzero(codes[head:stop] == 9) + head
-        named = nine[self.tags.width[nine] == len(b"$INSUNITS")]
-        found = [i for i, a in zip(named.tolist(), self.tags.start[named].tolist(), strict=True)
-                 if self.tags.data[a:a + len(b"$INSUNITS")] == b"$INSUNITS"]
+        found = header_variable(self.tags, head, stop, b"$INSUNITS")
         if not found:
             return 0
         if len(found) > 1 or codes[found[0] + 1] != 70:

@@ -120,23 +120,34 @@ def _check_version(tags: TagTable, start: int, stop: int) -> None:
     """``$ACADVER`` given, and each variable ezdxf reads while loading of the type it expects
     (:data:`LOADED_HEADER_CODES`); subclass markers (code 100) only from R13 (AC1012) on: ezdxf reads a
     file without ``$ACADVER`` as R12, whose entries carry no markers."""
-    nine = np.flatnonzero(tags.codes[start:stop] == 9) + start
-    length = tags.width[nine].astype(np.int64)
-    width = max(len(name) for name in LOADED_HEADER_CODES)
-    names = windows(tags.data, tags.start[nine], width, np.minimum(length, width))
     version = -1
     for name, code in LOADED_HEADER_CODES.items():
-        pattern = np.zeros(width, dtype=np.uint8)
-        pattern[:len(name)] = np.frombuffer(name, dtype=np.uint8)
-        hit = nine[np.all(names == pattern, axis=1) & (length == len(name))]
-        if len(hit) > 1 or (len(hit) and (hit[0] + 1 >= stop or tags.codes[hit[0] + 1] != code)):
+        hit = header_variable(tags, start, stop, name)
+        if len(hit) > 1 or (hit and (hit[0] + 1 >= stop or tags.codes[hit[0] + 1] != code)):
             raise NotPlain(f"the header variable {name.decode()} not given once as group code {code}")
         if name == b"$ACADVER":
-            if len(hit) == 0:
+            if not hit:
                 raise NotPlain("no $ACADVER in the header")
-            version = int(hit[0] + 1)
+            version = hit[0] + 1
     if tags.text(version).strip().upper() < "AC1012" and (tags.codes == 100).any():
         raise NotPlain("subclass markers in a file of DXF R12 or before")
+
+
+def header_variable(tags: TagTable, start: int, stop: int, name: bytes) -> list[int]:
+    """The tags among ``start .. stop - 1`` that name the header variable ``name`` (group code 9, value
+    exactly ``name``): its occurrences in the bytes of those tags, each checked to be such a tag."""
+    if start >= stop:
+        return []
+    data, first = tags.data, tags.start
+    hi = tags.end(stop - 1)
+    found = []
+    at = data.find(name, int(first[start]), hi)
+    while at >= 0:
+        i = int(np.searchsorted(first, at))
+        if i < len(tags) and first[i] == at and tags.codes[i] == 9 and tags.width[i] == len(name):
+            found.append(i)
+        at = data.find(name, at + 1, hi)
+    return found
 
 
 def _check_header(tags: TagTable, start: int, stop: int) -> None:

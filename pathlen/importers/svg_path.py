@@ -20,6 +20,7 @@ from collections.abc import Callable
 
 import numpy as np
 
+from pathlen.geometry import run_starts
 from pathlen.importers.svg_segments import RawSegments
 from pathlen.importers.svg_values import NUMBER
 
@@ -228,7 +229,7 @@ def parse_many(paths: list[str]) -> tuple[dict[str, Rows], np.ndarray]:
     seg_kind[(seg_kind == M) & (within > 0)] = L  # extra pairs after a moveto are line-tos
     seg_rel = (code >= ord("a"))[seg_cmd]
     seg_path = cmd_path[seg_cmd]
-    path_start = np.r_[True, seg_path[1:] != seg_path[:-1]] if len(seg_path) else np.zeros(0, dtype=bool)
+    path_start = run_starts(seg_path)
     moves = np.cumsum((kind[seg_cmd] == M) & (within == 0))
     seg_sub = moves - np.maximum.accumulate(np.where(path_start, moves, 0))
     seg_rel[path_start] = False  # a path's first moveto is relative to (0, 0): absolute
