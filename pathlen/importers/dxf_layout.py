@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from numpy.typing import NDArray
 
-from pathlen.geometry import distinct
+from pathlen.geometry import distinct, run_starts
 from pathlen.importers.dxf_tags import POINT_TABLE, NotPlain, TagTable, has_code, windows
 
 #: Entity kinds pathlen measures (the same set as the ezdxf reader's handlers) and INSERT.
@@ -58,6 +58,9 @@ class Layout:
     sections: list[str] = field(default_factory=list)
     #: entity numbers of the OBJECTS section's objects
     objects: list[int] = field(default_factory=list)
+    #: entity numbers of every table entry, and of the DIMSTYLE entities (entries, and objects if any)
+    table_entries: list[int] = field(default_factory=list)
+    dimstyles: list[int] = field(default_factory=list)
 
 
 
@@ -104,11 +107,13 @@ def layout(tags: TagTable) -> Layout:
             out.entities_body = (i + 1, end)
         elif name == "OBJECTS":
             out.objects = list(body)
+            out.dimstyles.extend(e for e in body if kinds[e] == "DIMSTYLE")  # not plain there, but its handle is 105
         i = end + 1
     if out.header < 0:
         raise NotPlain("no HEADER section")
     _check_version(tags, int(first[out.header]) + 2, int(first[out.header + 1]))
-    _check_handles(tags, owner, kinds)
+    _check_entries(tags, owner, kinds, out.table_entries)
+    _check_handles(tags, owner, out.dimstyles)
     return out
 
 
@@ -198,19 +203,34 @@ def _tables(tags: TagTable, first: NDArray[np.int64], kinds: list[str], body: ra
         elif not table or kind != table:
             raise NotPlain(f"{kind[:20]!r} in table {table!r}")
         else:
-            _check_entry(tags.codes[first[e]:first[e + 1]], kind)
+            out.table_entries.append(e)
             if kind == "LAYER":
                 out.layer_entries.append(e)
             elif kind == "BLOCK_RECORD":
                 out.block_records.append(e)
+            elif kind == "DIMSTYLE":
+                out.dimstyles.append(e)
 
 
-def _check_entry(codes: NDArray[np.int16], kind: str) -> None:
-    """A table entry as ezdxf loads it: a name, and either no subclass markers (R12) or two
+def _check_entries(tags: TagTable, owner: NDArray[np.int32], kinds: list[str], entries: list[int]) -> None:
+    """Each table entry as ezdxf loads it: a name, and either no subclass markers (R12) or two
     (AcDbSymbolTableRecord and the table's own) with the name after the second."""
-    names = np.flatnonzero(codes == 2)
-    markers = np.flatnonzero(codes == 100)
-    if len(names) == 0 or len(markers) not in (0, 2) or (len(markers) == 2 and names[0] < markers[1]):
+    if not entries:
+        return
+    ents = np.array(entries, dtype=np.int64)
+    names, markers = np.flatnonzero(tags.codes == 2), np.flatnonzero(tags.codes == 100)
+    name_owner, marker_owner = owner[names], owner[markers]
+    first_name = np.full(len(kinds), len(tags), dtype=np.int64)  # tag of each entity's first name
+    starts = run_starts(name_owner)
+    first_name[name_owner[starts]] = names[starts]
+    second_marker = np.full(len(kinds), -1, dtype=np.int64)  # tag of each entity's second marker
+    second = np.flatnonzero(np.arange(len(markers)) - np.searchsorted(marker_owner, marker_owner) == 1)
+    second_marker[marker_owner[second]] = markers[second]
+    named = np.bincount(name_owner, minlength=len(kinds))[ents]
+    marked = np.bincount(marker_owner, minlength=len(kinds))[ents]
+    bad = (named == 0) | ((marked != 0) & (marked != 2)) | ((marked == 2) & (first_name[ents] < second_marker[ents]))
+    if bad.any():
+        kind = kinds[int(ents[np.argmax(bad)])]
         raise NotPlain(f"a {kind[:20]} table entry without its name or subclass markers")
 
 
@@ -281,17 +301,22 @@ for _c in b"0123456789abcdefABCDEF":
     HEX[_c] = True
 
 
-def _check_handles(tags: TagTable, owner_of: NDArray[np.int32], kinds: list[str]) -> None:
-    """Every handle (group code 5; 105 for DIMSTYLE) hexadecimal, one per entity, unique in the file:
-    ezdxf warns about or replaces anything else."""
+def _check_handles(tags: TagTable, owner_of: NDArray[np.int32], dimstyle_entries: list[int]) -> None:
+    """Every handle (group code 5; 105 for the DIMSTYLE entries) hexadecimal, one per entity, unique in
+    the file: ezdxf warns about or replaces anything else."""
     five = np.flatnonzero(tags.codes == 5)
-    dimstyles = np.array([k == "DIMSTYLE" for k in kinds], dtype=bool)
-    five = five[~dimstyles[owner_of[five]]]
     one_oh_five = np.flatnonzero(tags.codes == 105)
-    one_oh_five = one_oh_five[dimstyles[owner_of[one_oh_five]]]
-    handles = np.concatenate((five, one_oh_five))
-    if len(distinct(owner_of[handles])) != len(handles):
+    if dimstyle_entries:
+        dimstyles = np.zeros(int(owner_of[-1]) + 1, dtype=bool)
+        dimstyles[dimstyle_entries] = True
+        five = five[~dimstyles[owner_of[five]]]
+        one_oh_five = one_oh_five[dimstyles[owner_of[one_oh_five]]]
+    else:
+        one_oh_five = one_oh_five[:0]
+    # owners ascend with the tags and the two kinds of handle have no owner in common
+    if (np.diff(owner_of[five]) == 0).any() or (np.diff(owner_of[one_oh_five]) == 0).any():
         raise NotPlain("an entity with two handles")
+    handles = np.concatenate((five, one_oh_five))
     width = tags.width[handles].astype(np.int64)
     if len(handles) and (width.max() > 16 or width.min() < 1):
         raise NotPlain("a handle of unusual width")
