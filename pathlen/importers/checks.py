@@ -99,6 +99,8 @@ def _bad_entities(drawing: Drawing) -> np.ndarray:
     bad = np.zeros(len(drawing.entities), dtype=bool)
     for entity, parts in arrays:
         for a in parts:
+            if len(a) == 0 or np.abs(a).max() <= MAX_COORDINATE_MM:  # all finite and in range (NaN fails)
+                continue
             with np.errstate(invalid="ignore"):
                 rows = ~np.all(np.isfinite(a) & (np.abs(a) <= MAX_COORDINATE_MM), axis=1)
             bad[entity[rows]] = True
