@@ -69,6 +69,8 @@ PADDING = TEXT_WIDTH
 NEWLINE_CHUNK = 1 << 22
 #: Bytes of windows gathered directly (beyond, through a sliding window view: no index array per byte).
 SMALL_WINDOWS = 1 << 16
+#: Files up to this size (bytes) that are ASCII are also kept as one ``str`` (see :attr:`TagTable.ascii_text`).
+WHOLE_TEXT_UP_TO = 1 << 22
 #: Lists of texts from this length on share one ``str`` per distinct value (see :meth:`TagTable.texts`).
 SHARED_TEXTS_FROM = 1024
 #: Tags handled per numpy pass (bounds the temporary arrays: CHUNK x NUMBER_WIDTH bytes).
@@ -97,6 +99,9 @@ class TagTable:
     start: NDArray[np.int64]
     width: NDArray[np.integer]  # bytes of each value: uint8, uint16 or int32, the narrowest that holds them
     number: NDArray[np.float64]
+    #: the whole of ``data`` as a ``str`` when it is ASCII and at most :data:`WHOLE_TEXT_UP_TO` bytes: texts are
+    #: then cut from it (no decoding per value)
+    ascii_text: str | None = None
 
     def __len__(self) -> int:
         return len(self.codes)
@@ -109,6 +114,8 @@ class TagTable:
 
     def text(self, i: int) -> str:
         """Value of tag ``i`` as text (ASCII; anything else raises :class:`NotPlain`)."""
+        if self.ascii_text is not None:
+            return self.ascii_text[self.start[i]:self.end(i)]
         raw = self.data[self.start[i]:self.end(i)]
         if not raw.isascii():
             raise NotPlain("text that is not ASCII")
@@ -130,6 +137,10 @@ class TagTable:
         """Values of the tags ``index`` cut out and decoded one by one (the decoding is the ASCII check;
         trailing zero bytes dropped, as in the fixed-width arrays of :meth:`raw_texts`): for few tags
         (:data:`FEW_TEXTS`) or long values."""
+        text = self.ascii_text
+        if text is not None:
+            return [text[a:a + n].rstrip("\0") for a, n in zip(self.start[index].tolist(), self.width[index].tolist(),
+                                                                strict=True)]
         data = self.data
         try:
             return [data[a:a + n].decode("ascii").rstrip("\0")
@@ -232,7 +243,8 @@ def parse_tags(data: bytes | bytearray) -> TagTable:
         raise NotPlain("a group code that is not a plain integer")
     _check_points_and_binary(data, codes, value_start, value_end)
     number = _numbers(data, codes, value_start, value_end)
-    return TagTable(data, codes, value_start, _narrowest(value_end - value_start), number)
+    text = data.decode("ascii") if size <= WHOLE_TEXT_UP_TO and data.isascii() else None
+    return TagTable(data, codes, value_start, _narrowest(value_end - value_start), number, text)
 
 
 def _narrowest(width: NDArray[np.integer]) -> NDArray[np.integer]:
