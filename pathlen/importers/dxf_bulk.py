@@ -249,8 +249,11 @@ class _Reader:
         self._splines(seg)
         self.segments = seg
         self._inserts()
-        measured = np.concatenate([v for k, v in self.by_kind.items() if k != "INSERT"])
-        rows = np.setdiff1d(np.sort(measured), np.array(sorted(self.skipped_rows), dtype=np.int64), assume_unique=True)
+        row = np.zeros(len(kinds), dtype=bool)
+        for k, v in self.by_kind.items():
+            row[v] = k != "INSERT"
+        row[list(self.skipped_rows)] = False
+        rows = np.flatnonzero(row)
         self.row_entities = rows  # entities that get an entity row, file order
         self.row_layers = self.f.text(8, rows, "0")
         self.row_handles: list[str] | NDArray[np.bytes_] = self.f.required_raw_text(5, rows)  # decoded when sorted

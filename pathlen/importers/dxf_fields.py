@@ -15,6 +15,9 @@ from numpy.typing import NDArray
 from pathlen.importers.dxf_tags import NotPlain, TagTable
 
 IntArray = NDArray[np.int64]
+#: Up to this many entities, each field's per-entity tag index is kept once looked up (a few kinds ask
+#: for the same field); beyond, it is made again each time (8 bytes an entity a field).
+FIELDS_KEPT_UP_TO = 1 << 16
 
 
 class Fields:
@@ -26,6 +29,7 @@ class Fields:
         self.count = entity_count
         self.grouped = _application_groups(tags, owner)
         self._by_code: dict[int, IntArray] = {}
+        self._where_of: dict[int, tuple[IntArray, NDArray[np.bool_] | None]] = {}
 
     def tags_of(self, code: int) -> IntArray:
         """Indices of the tags with ``code`` outside application groups, in file order."""
@@ -36,14 +40,29 @@ class Fields:
 
     def first(self, code: int, entities: IntArray) -> IntArray:
         """Tag index of the field ``code`` of each entity (-1 where it has none)."""
+        where, twice = self._where(code)
+        if twice is not None and len(entities) and twice[entities].any():
+            raise NotPlain(f"group code {code} twice in one entity")
+        return where[entities]
+
+    def _where(self, code: int) -> tuple[IntArray, NDArray[np.bool_] | None]:
+        """Per entity: the tag index of field ``code`` (-1: none; the last where given twice), and which
+        entities have it twice (None: none does).  Kept for the next call when the file has few entities."""
+        hit = self._where_of.get(code)
+        if hit is not None:
+            return hit
         idx = self.tags_of(code)
         own = self.owner[idx]
-        times = np.bincount(own, minlength=self.count)
-        if len(entities) and times[entities].max(initial=0) > 1:
-            raise NotPlain(f"group code {code} twice in one entity")
         where = np.full(self.count, -1, dtype=np.int64)
         where[own] = idx
-        return where[entities]
+        repeated = np.diff(own) == 0  # owners ascend with the tags
+        twice = None
+        if repeated.any():
+            twice = np.zeros(self.count, dtype=bool)
+            twice[own[1:][repeated]] = True
+        if self.count <= FIELDS_KEPT_UP_TO:
+            self._where_of[code] = where, twice
+        return where, twice
 
     def number(self, code: int, entities: IntArray, default: float | None = None) -> NDArray[np.float64]:
         """Numeric field per entity; ``default`` where missing (None: the field is required)."""
