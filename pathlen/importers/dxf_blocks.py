@@ -17,15 +17,17 @@ from pathlen.geometry import Drawing, FloatArray, SegmentCollector
 
 
 class BlockCache:
-    """Block drawings by the name INSERTs use; ``build(name)`` makes one (None: no such block)."""
+    """Block drawings by the name INSERTs use.  The reader that owns the cache passes its builder with
+    each request rather than the cache keeping it: a reader holding a cache holding the reader's bound
+    method would be a reference cycle, left for the garbage collector (its arrays with it) after every file."""
 
-    def __init__(self, build: Callable[[str], Drawing | None]) -> None:
-        self.build = build
+    def __init__(self) -> None:
         self.drawings: dict[str, Drawing] = {}
         self.open_blocks: list[str] = []
 
-    def get(self, name: str, coll: SegmentCollector) -> Drawing | None:
-        """The block's drawing, built on first use; a warning in ``coll`` when it is not defined."""
+    def get(self, name: str, coll: SegmentCollector, build: Callable[[str], Drawing | None]) -> Drawing | None:
+        """The block's drawing, made by ``build(name)`` (None: no such block) on first use; a warning in
+        ``coll`` when it is not defined."""
         if name in self.drawings:
             return self.drawings[name]
         if name in self.open_blocks:
@@ -34,7 +36,7 @@ class BlockCache:
             raise InputError(f"block cycle: {steps}; a block cannot contain itself")
         self.open_blocks.append(name)
         try:
-            drawing = self.build(name)
+            drawing = build(name)
         finally:
             self.open_blocks.pop()
         if drawing is None:

@@ -169,7 +169,7 @@ class _Reader:
         self.insunits = self._insunits()
         self.spaces = self._spaces()
         self.block_index = {b.name.lower(): k for k, b in enumerate(lay.blocks)}
-        self.blocks = BlockCache(self._build_block)
+        self.blocks = BlockCache()
         self.skipped_rows: dict[int, str] = {}
         self.fit_splines: set[int] = set()
         self.loops = np.zeros(len(lay.kinds), dtype=bool)  # closed in the file (per entity number)
@@ -535,7 +535,7 @@ class _Reader:
     def _insert(self, e: int, coll: SegmentCollector) -> None:
         k = self.insert_row[e]
         name = self.insert_name[k]
-        block = self.blocks.get(name, coll)
+        block = self.blocks.get(name, coll, self._build_block)
         if block is None:
             return
         rows, cols = int(self.insert_grid[k, 0]), int(self.insert_grid[k, 1])

@@ -318,7 +318,7 @@ class _DxfImporter:
         self.doc = doc
         self.hidden = hidden
         self.frozen = frozen
-        self.blocks = BlockCache(self._build_block)
+        self.blocks = BlockCache()
 
     def add(self, entity: DXFGraphic, coll: SegmentCollector) -> None:
         """One entity into ``coll``; an entity whose data cannot be used is skipped with a warning."""
@@ -346,7 +346,7 @@ class _DxfImporter:
         if not isinstance(name, str) or not name:
             coll.warn(f"INSERT #{insert.dxf.handle} names no block (group code 2 missing): skipped")
             return
-        block = self.blocks.get(name, coll)
+        block = self.blocks.get(name, coll, self._build_block)
         if block is None:
             return
         rows = np.array(list(insert.matrix44().rows()), dtype=float)
