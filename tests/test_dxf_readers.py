@@ -334,3 +334,56 @@ def test_group_code_lines_read_as_spaces_then_digits(lines):
             _group_codes(data, starts[: len(lines)], ends)
     else:
         assert _group_codes(data, starts[: len(lines)], ends).tolist() == expected
+
+
+def test_texts_from_the_whole_file_equal_those_decoded_one_by_one():
+    # a small ASCII file keeps its text whole and cuts values from it; the same texts as decoding each
+    # value (trailing zero bytes dropped by texts, kept by text, as before)
+    from pathlen.importers.dxf_tags import parse_tags
+
+    text = "".join(f"8\nL{k}{chr(0) if k % 3 == 0 else ''}\n" for k in range(40)) + "0\nEOF\n"
+    whole = parse_tags(text.encode())
+    assert whole.ascii_text is not None
+    each = parse_tags(text.encode())
+    each.ascii_text = None
+    index = np.arange(40)
+    assert whole.texts(index) == each.texts(index) == [f"L{k}" for k in range(40)]
+    assert [whole.text(i) for i in range(40)] == [each.text(i) for i in range(40)]
+    assert parse_tags("8\nL\xe9\n0\nEOF\n".encode("latin-1")).ascii_text is None  # not ASCII: decoded per value
+
+
+def test_a_header_variable_is_a_group_9_tag_with_exactly_that_name():
+    # DXF reference (HEADER section): a variable is named by group code 9; the same bytes as another
+    # tag's value, or as part of a longer name, are not that variable
+    from pathlen.importers.dxf_layout import header_variable
+    from pathlen.importers.dxf_tags import parse_tags
+
+    tags = parse_tags(b"9\n$INSUNITSX\n70\n1\n1\n$INSUNITS\n9\n$INSUNITS\n70\n4\n0\nEOF\n")
+    assert header_variable(tags, 0, len(tags), b"$INSUNITS") == [3]  # not tag 0 (longer) nor 2 (group 1)
+    assert header_variable(tags, 0, 3, b"$INSUNITS") == []  # outside the range asked for
+    assert header_variable(tags, 3, 3, b"$INSUNITS") == []
+
+
+@pytest.mark.parametrize("entry, plain", [
+    ("0\nLAYER\n5\n10\n100\nAcDbSymbolTableRecord\n100\nAcDbLayerTableRecord\n2\nCUT\n70\n0\n", True),
+    ("0\nLAYER\n5\n10\n2\nCUT\n70\n0\n", True),  # R12 form: no markers
+    ("0\nLAYER\n5\n10\n100\nAcDbSymbolTableRecord\n100\nAcDbLayerTableRecord\n70\n0\n", False),  # no name
+    ("0\nLAYER\n5\n10\n100\nAcDbSymbolTableRecord\n2\nCUT\n70\n0\n", False),  # one marker
+    ("0\nLAYER\n5\n10\n100\nAcDbSymbolTableRecord\n2\nCUT\n100\nAcDbLayerTableRecord\n70\n0\n", False),  # name first
+])
+def test_table_entries_need_a_name_after_their_two_subclass_markers(entry, plain):
+    # DXF reference (TABLES section, common symbol table group codes): an entry's name (group 2) belongs to
+    # the table's own subclass, after AcDbSymbolTableRecord; R12 entries carry no markers.  Anything
+    # else is left to ezdxf, whichever entry of the table it is (here the second of two).
+    from pathlen.importers.dxf_layout import layout
+    from pathlen.importers.dxf_tags import NotPlain, parse_tags
+
+    good = "0\nLAYER\n5\nF\n100\nAcDbSymbolTableRecord\n100\nAcDbLayerTableRecord\n2\n0\n70\n0\n"
+    text = ("0\nSECTION\n2\nHEADER\n9\n$ACADVER\n1\nAC1024\n0\nENDSEC\n0\nSECTION\n2\nTABLES\n0\nTABLE\n2\nLAYER\n"
+            f"{good}{entry}0\nENDTAB\n0\nENDSEC\n0\nEOF\n")
+    tags = parse_tags(text.encode())
+    if plain:
+        assert len(layout(tags).layer_entries) == 2
+    else:
+        with pytest.raises(NotPlain, match="LAYER table entry"):
+            layout(tags)
