@@ -387,3 +387,29 @@ def test_table_entries_need_a_name_after_their_two_subclass_markers(entry, plain
     else:
         with pytest.raises(NotPlain, match="LAYER table entry"):
             layout(tags)
+
+
+def test_reading_a_dxf_leaves_no_reference_cycles(tmp_path: Path) -> None:
+    # README (Big drawings and big batches): a small file's reading makes no reference cycles, so its
+    # arrays go as soon as it is read and measured, not at the next garbage collection.  Python's
+    # collector reports the unreachable objects it finds (gc.collect's return value).
+    import gc
+
+    doc = ezdxf.new("R2010")
+    block = doc.blocks.new("KL_WASHER")
+    block.add_circle((0, 0), 4)
+    msp = doc.modelspace()
+    msp.add_line((0, 0), (30, 0))
+    msp.add_blockref("KL_WASHER", (10, 10))
+    path = tmp_path / "kl_plate.dxf"
+    doc.saveas(path)
+    assert read_bulk(path) is not None  # the bulk reader takes it
+    read_dxf(path)
+    gc.collect()
+    gc.disable()
+    try:
+        drawing = read_dxf(path)
+        del drawing
+        assert gc.collect() == 0
+    finally:
+        gc.enable()
