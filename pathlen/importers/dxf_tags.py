@@ -286,7 +286,9 @@ def _group_codes(data: bytearray, start: NDArray[np.int64], end: NDArray[np.int6
         value = np.zeros(len(s), dtype=np.int32)
         digits = np.zeros(len(s), dtype=bool)  # a digit seen so far
         ok = (length <= CODE_WIDTH) & (length > 0)
-        for k in range(CODE_WIDTH):
+        # columns before the longest line's start hold spaces for every line: nothing to read there
+        widest = min(int(length.max(initial=0)), CODE_WIDTH)
+        for k in range(CODE_WIDTH - widest, CODE_WIDTH):
             byte = np.where(CODE_WIDTH - 1 - k < length, raw[first + k], 32)  # before the line: a space
             digit = (byte >= 48) & (byte <= 57)
             ok &= digit | ((byte == 32) & ~digits)  # spaces then digits, nothing else
