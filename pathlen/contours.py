@@ -290,10 +290,10 @@ def _row_keys(columns: list[NDArray]) -> NDArray[np.uint64]:
     key = np.zeros(len(columns[0]), dtype=np.uint64)
     for a in range(0, len(key), ROW_RUN):
         run = key[a:a + ROW_RUN]
-        for column in columns:
+        for k, column in enumerate(columns):
             part = column[a:a + ROW_RUN]
             bits = (part + 0.0).view(np.uint64) if part.dtype == np.float64 else part.astype(np.uint64)
-            run[:] = _mix(bits ^ _mix(run))  # -0.0 + 0.0 is +0.0
+            run[:] = _mix(bits ^ _mix(run) if k else bits)  # -0.0 + 0.0 is +0.0; the first: _mix(0) is 0
     return key
 
 
@@ -348,10 +348,13 @@ def _sorted_contains(sorted_keys: IntArray, keys: IntArray) -> NDArray[np.bool_]
 def _mix(x: NDArray[np.uint64]) -> NDArray[np.uint64]:
     """The splitmix64 finalizer (Steele, Lea and Flood, 2014): every input bit moves every output bit,
     so round coordinates, whose low mantissa bits are all zero, still hash apart."""
-    with np.errstate(over="ignore"):
-        x = (x ^ (x >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
-        x = (x ^ (x >> np.uint64(27))) * np.uint64(0x94D049BB133111EB)
-    return x ^ (x >> np.uint64(31))
+    x = (x ^ (x >> _SHIFT_30)) * _MIX_1  # arrays of unsigned integers wrap silently (scalars would warn)
+    x = (x ^ (x >> _SHIFT_27)) * _MIX_2
+    return x ^ (x >> _SHIFT_31)
+
+
+_SHIFT_27, _SHIFT_30, _SHIFT_31 = np.uint64(27), np.uint64(30), np.uint64(31)
+_MIX_1, _MIX_2 = np.uint64(0xBF58476D1CE4E5B9), np.uint64(0x94D049BB133111EB)
 
 
 def join_groups(layer: IntArray, entity: IntArray, entities: list, shut: NDArray[np.bool_]) -> IntArray:
