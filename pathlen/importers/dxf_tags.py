@@ -73,6 +73,9 @@ SMALL_WINDOWS = 1 << 16
 WHOLE_TEXT_UP_TO = 1 << 22
 #: Lists of texts from this length on share one ``str`` per distinct value (see :meth:`TagTable.texts`).
 SHARED_TEXTS_FROM = 1024
+#: Up to this many numbers in a pass, each distinct text is converted once (a sort, then one conversion
+#: each: about half the time where most repeat); beyond, every number is converted where it stands.
+DISTINCT_NUMBERS_UP_TO = 1 << 16
 #: Tags handled per numpy pass (bounds the temporary arrays: CHUNK x NUMBER_WIDTH bytes).
 CHUNK = 1 << 18
 
@@ -332,7 +335,12 @@ def _numbers(data: bytearray, codes: NDArray[np.int16], start: NDArray[np.int64]
         if not (_NUMBER_BYTES[chars] | (chars == 0)).all():
             raise NotPlain("a number with characters other than digits, sign, point and exponent")
         try:
-            values = chars.view(f"S{width}").ravel().astype(np.float64)
+            text = chars.view(f"S{width}").ravel()
+            if len(text) <= DISTINCT_NUMBERS_UP_TO:  # a small file repeats most values (0, 1.0, 256): read each once
+                found, which = distinct(text, return_inverse=True)
+                values = found.astype(np.float64)[which]
+            else:
+                values = text.astype(np.float64)
             for k in np.flatnonzero(wide).tolist():
                 values[k] = float(data[s[k]:e[k]])
         except ValueError:
