@@ -112,7 +112,7 @@ def layout(tags: TagTable) -> Layout:
     if out.header < 0:
         raise NotPlain("no HEADER section")
     _check_version(tags, int(first[out.header]) + 2, int(first[out.header + 1]))
-    _check_entries(tags, owner, kinds, out.table_entries)
+    _check_entries(tags, first, owner, kinds, out.table_entries)
     _check_handles(tags, owner, out.dimstyles)
     return out
 
@@ -212,25 +212,31 @@ def _tables(tags: TagTable, first: NDArray[np.int64], kinds: list[str], body: ra
                 out.dimstyles.append(e)
 
 
-def _check_entries(tags: TagTable, owner: NDArray[np.int32], kinds: list[str], entries: list[int]) -> None:
-    """Each table entry as ezdxf loads it: a name, and either no subclass markers (R12) or two
-    (AcDbSymbolTableRecord and the table's own) with the name after the second."""
+def _check_entries(tags: TagTable, first: NDArray[np.int64], owner: NDArray[np.int32], kinds: list[str],
+                   entries: list[int]) -> None:
+    """Each table entry (``entries``: entity numbers, ascending) as ezdxf loads it: a name, and either no
+    subclass markers (R12) or two (AcDbSymbolTableRecord and the table's own) with the name after the
+    second.  Only the tags from the first entry to the last are looked at (the tables, not the drawing)."""
     if not entries:
         return
-    ents = np.array(entries, dtype=np.int64)
-    names, markers = np.flatnonzero(tags.codes == 2), np.flatnonzero(tags.codes == 100)
-    name_owner, marker_owner = owner[names], owner[markers]
-    first_name = np.full(len(kinds), len(tags), dtype=np.int64)  # tag of each entity's first name
+    e0, span = entries[0], entries[-1] + 1 - entries[0]  # entities e0 .. e0 + span - 1
+    lo = int(first[e0])
+    hi = int(first[e0 + span]) if e0 + span < len(first) else len(tags)
+    ents = np.array(entries, dtype=np.int64) - e0
+    codes = tags.codes[lo:hi]
+    names, markers = np.flatnonzero(codes == 2) + lo, np.flatnonzero(codes == 100) + lo
+    name_owner, marker_owner = owner[names] - e0, owner[markers] - e0
+    first_name = np.full(span, len(tags), dtype=np.int64)  # tag of each entity's first name
     starts = run_starts(name_owner)
     first_name[name_owner[starts]] = names[starts]
-    second_marker = np.full(len(kinds), -1, dtype=np.int64)  # tag of each entity's second marker
+    second_marker = np.full(span, -1, dtype=np.int64)  # tag of each entity's second marker
     second = np.flatnonzero(np.arange(len(markers)) - np.searchsorted(marker_owner, marker_owner) == 1)
     second_marker[marker_owner[second]] = markers[second]
-    named = np.bincount(name_owner, minlength=len(kinds))[ents]
-    marked = np.bincount(marker_owner, minlength=len(kinds))[ents]
+    named = np.bincount(name_owner, minlength=span)[ents]
+    marked = np.bincount(marker_owner, minlength=span)[ents]
     bad = (named == 0) | ((marked != 0) & (marked != 2)) | ((marked == 2) & (first_name[ents] < second_marker[ents]))
     if bad.any():
-        kind = kinds[int(ents[np.argmax(bad)])]
+        kind = kinds[int(ents[np.argmax(bad)]) + e0]
         raise NotPlain(f"a {kind[:20]} table entry without its name or subclass markers")
 
 
