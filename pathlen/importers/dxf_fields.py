@@ -55,7 +55,7 @@ class Fields:
         own = self.owner[idx]
         where = np.full(self.count, -1, dtype=np.int64)
         where[own] = idx
-        repeated = np.diff(own) == 0  # owners ascend with the tags
+        repeated = own[1:] == own[:-1]  # owners ascend with the tags
         twice = None
         if repeated.any():
             twice = np.zeros(self.count, dtype=bool)

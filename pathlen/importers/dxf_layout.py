@@ -320,7 +320,8 @@ def _check_handles(tags: TagTable, owner_of: NDArray[np.int32], dimstyle_entries
     else:
         one_oh_five = one_oh_five[:0]
     # owners ascend with the tags and the two kinds of handle have no owner in common
-    if (np.diff(owner_of[five]) == 0).any() or (np.diff(owner_of[one_oh_five]) == 0).any():
+    five_owner, one_oh_five_owner = owner_of[five], owner_of[one_oh_five]
+    if (five_owner[1:] == five_owner[:-1]).any() or (one_oh_five_owner[1:] == one_oh_five_owner[:-1]).any():
         raise NotPlain("an entity with two handles")
     handles = np.concatenate((five, one_oh_five))
     width = tags.width[handles].astype(np.int64)
