@@ -189,7 +189,7 @@ def windows(data: bytearray, start: NDArray[np.int64], width: int, length: NDArr
     else:
         rows = np.lib.stride_tricks.sliding_window_view(raw, width)[start]
     if length is not None:
-        rows[np.arange(width) >= length[:, None]] = 0
+        rows *= np.arange(width) < length[:, None]  # zero past each length (a product: no masked write)
     return rows
 
 
