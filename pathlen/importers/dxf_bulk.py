@@ -190,9 +190,8 @@ class _Reader:
 
     def _insunits(self) -> int:
         codes = self.tags.codes
-        head = int(self.lay.first_tag[self.lay.header])
-        stop = int(self.lay.first_tag[self.lay.header + 1]) if self.lay.header + 1 < len(self.kinds) else len(codes)
-        found = header_variable(self.tags, head, stop, b"$INSUNITS")
+        assert self.lay.header is not None  # the layout refuses a file without one
+        found = header_variable(self.tags, *self.lay.header, b"$INSUNITS")
         if not found:
             return 0
         if len(found) > 1 or codes[found[0] + 1] != 70:

@@ -45,7 +45,8 @@ class Layout:
     #: entity number of every tag
     owner: NDArray[np.int32]
     kinds: list[str]
-    header: int
+    #: the HEADER section's variables: tags ``start .. stop - 1`` (after its SECTION and name, up to the next entity)
+    header: tuple[int, int] | None
     entities: list[int]
     blocks: list[Block]
     layer_entries: list[int]
@@ -76,7 +77,7 @@ def layout(tags: TagTable) -> Layout:
     owner[first[1:]] = 1
     owner = np.cumsum(owner, dtype=np.int32)
     follows = _attribs_follow(tags, owner)
-    out = Layout(first, owner, kinds, -1, [], [], [], [], {}, set())
+    out = Layout(first, owner, kinds, None, [], [], [], [], {}, set())
     seen: set[str] = set()
     i, n = 0, len(kinds)
     while i < n:
@@ -96,8 +97,8 @@ def layout(tags: TagTable) -> Layout:
         if name in ("HEADER", "CLASSES") and any(kinds[e] != "CLASS" for e in body):
             raise NotPlain(f"an entity {kinds[body[0]][:20]!r} in the {name} section")
         if name == "HEADER":
-            out.header = i
-            _check_header(tags, int(first[i]) + 2, int(first[i + 1]) if i + 1 < n else len(tags))
+            out.header = (int(first[i]) + 2, int(first[i + 1]))  # up to the next entity (i + 1 <= end)
+            _check_header(tags, *out.header)
         elif name == "TABLES":
             _tables(tags, first, kinds, body, out)
         elif name == "BLOCKS":
@@ -109,9 +110,9 @@ def layout(tags: TagTable) -> Layout:
             out.objects = list(body)
             out.dimstyles.extend(e for e in body if kinds[e] == "DIMSTYLE")  # not plain there, but its handle is 105
         i = end + 1
-    if out.header < 0:
+    if out.header is None:
         raise NotPlain("no HEADER section")
-    _check_version(tags, int(first[out.header]) + 2, int(first[out.header + 1]))
+    _check_version(tags, *out.header)
     _check_entries(tags, first, owner, kinds, out.table_entries)
     _check_handles(tags, owner, out.dimstyles)
     return out
