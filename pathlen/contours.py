@@ -345,16 +345,17 @@ def _sorted_contains(sorted_keys: IntArray, keys: IntArray) -> NDArray[np.bool_]
     return sorted_keys[at] == keys
 
 
+#: The splitmix64 finalizer's shifts and multipliers (see :func:`_mix`).
+_SHIFT_27, _SHIFT_30, _SHIFT_31 = np.uint64(27), np.uint64(30), np.uint64(31)
+_MIX_1, _MIX_2 = np.uint64(0xBF58476D1CE4E5B9), np.uint64(0x94D049BB133111EB)
+
+
 def _mix(x: NDArray[np.uint64]) -> NDArray[np.uint64]:
     """The splitmix64 finalizer (Steele, Lea and Flood, 2014): every input bit moves every output bit,
     so round coordinates, whose low mantissa bits are all zero, still hash apart."""
     x = (x ^ (x >> _SHIFT_30)) * _MIX_1  # arrays of unsigned integers wrap silently (scalars would warn)
     x = (x ^ (x >> _SHIFT_27)) * _MIX_2
     return x ^ (x >> _SHIFT_31)
-
-
-_SHIFT_27, _SHIFT_30, _SHIFT_31 = np.uint64(27), np.uint64(30), np.uint64(31)
-_MIX_1, _MIX_2 = np.uint64(0xBF58476D1CE4E5B9), np.uint64(0x94D049BB133111EB)
 
 
 def join_groups(layer: IntArray, entity: IntArray, entities: list, shut: NDArray[np.bool_]) -> IntArray:
